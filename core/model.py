@@ -1,0 +1,215 @@
+"""The driveline model: inertia discs joined by links, all values SI floats.
+
+A train is a tree of discs.  Links are shafts, couplings or gear meshes; the
+reserved id ``ground`` is a rigid, non-rotating support.  Objects here are
+immutable: the project file layer (:mod:`core.project`) builds them from text
+with units, and every change makes a new :class:`Train`.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from .errors import ModelError
+from .materials import Material
+
+GROUND = "ground"
+LINK_KINDS = ("shaft", "coupling", "gear_mesh")
+MASS_MODELS = ("none", "lumped", "distributed")
+
+
+@dataclass(frozen=True)
+class Disc:
+    id: str
+    name: str
+    inertia: float  # kg*m^2
+    damping: float = 0.0  # N*m*s/rad, absolute (to ground)
+
+
+@dataclass(frozen=True)
+class Segment:
+    """A uniform (hollow) round shaft piece."""
+
+    length: float  # m
+    outer_diameter: float  # m
+    inner_diameter: float = 0.0  # m
+
+    @property
+    def polar_moment(self) -> float:
+        """Polar second moment of area Ip = pi (D^4 - d^4) / 32, m^4."""
+        return math.pi * (self.outer_diameter ** 4 - self.inner_diameter ** 4) / 32.0
+
+    def stiffness(self, shear_modulus: float) -> float:
+        """k = G Ip / L (any strength-of-materials handbook), N*m/rad."""
+        return shear_modulus * self.polar_moment / self.length
+
+
+@dataclass(frozen=True)
+class Link:
+    id: str
+    kind: str  # "shaft" | "coupling" | "gear_mesh"
+    from_id: str
+    to_id: str
+    stiffness: float | None = None  # N*m/rad as given; None: from geometry, or a rigid mesh
+    segments: tuple[Segment, ...] = ()
+    material: Material | None = None
+    mass: str = "none"  # "none" | "lumped" | "distributed"
+    speed_ratio: float = 1.0  # speed of `to` / speed of `from` (gear meshes)
+    damping: float = 0.0  # N*m*s/rad, relative viscous
+    loss_factor: float = 0.0  # hysteretic, k (1 + i eta)
+    stress_concentration: float = 1.0
+    permissible_torque: float | None = None  # N*m, vibratory amplitude
+    permissible_stress: float | None = None  # Pa, vibratory shear amplitude
+
+    @property
+    def is_rigid(self) -> bool:
+        return self.kind == "gear_mesh" and self.stiffness is None
+
+    @property
+    def has_geometry(self) -> bool:
+        return bool(self.segments)
+
+    @property
+    def total_stiffness(self) -> float:
+        """Torsional stiffness in N*m/rad (segments in series: 1/k = sum 1/k_i)."""
+        if self.stiffness is not None:
+            return self.stiffness
+        if self.segments:
+            G = self.material.shear_modulus
+            return 1.0 / sum(1.0 / s.stiffness(G) for s in self.segments)
+        return math.inf
+
+    @property
+    def own_inertia(self) -> float:
+        """Polar mass moment of inertia of the shaft itself, rho Ip L, kg*m^2."""
+        if not self.segments or self.material is None:
+            return 0.0
+        return sum(self.material.density * s.polar_moment * s.length for s in self.segments)
+
+    @property
+    def grounded(self) -> bool:
+        return GROUND in (self.from_id, self.to_id)
+
+
+@dataclass(frozen=True)
+class Order:
+    order: float
+    amplitude: float | None = None  # N*m
+    phase_deg: float = 0.0
+    scaling: str = "constant"  # "constant" | "speed_squared"
+    at_speed: float | None = None  # rad/s of the source shaft, for speed_squared
+
+
+@dataclass(frozen=True)
+class Excitation:
+    name: str
+    at: str | None = None  # disc id; None for a fixed frequency source
+    orders: tuple[Order, ...] = ()
+    frequency: float | None = None  # Hz, fixed frequency sources
+    amplitude: float | None = None  # N*m, fixed frequency sources (forced response)
+    phase_deg: float = 0.0
+
+
+@dataclass(frozen=True)
+class Operating:
+    reference: str
+    speed_min: float  # rad/s of the reference shaft
+    speed_max: float
+    margin: float = 0.10  # fraction
+    excitations: tuple[Excitation, ...] = ()
+    trip_speed: float | None = None
+    range_name: str = "Operating range"
+
+
+@dataclass(frozen=True)
+class Train:
+    title: str
+    discs: tuple[Disc, ...]
+    links: tuple[Link, ...]
+    operating: Operating | None = None
+    speed_factor: dict = field(default_factory=dict, compare=False)
+
+    def disc(self, disc_id: str) -> Disc:
+        for d in self.discs:
+            if d.id == disc_id:
+                return d
+        raise KeyError(disc_id)
+
+    @property
+    def disc_ids(self) -> list[str]:
+        return [d.id for d in self.discs]
+
+    @property
+    def link_ids(self) -> list[str]:
+        return [l.id for l in self.links]
+
+    @property
+    def grounded(self) -> bool:
+        return any(l.grounded for l in self.links)
+
+    def relative_speed(self, disc_id: str, reference: str) -> float:
+        """Speed of ``disc_id``'s shaft per unit speed of ``reference``'s shaft."""
+        return self.speed_factor[disc_id] / self.speed_factor[reference]
+
+
+def check_topology(discs, links) -> dict[str, float]:
+    """Validate the tree and return each disc's speed factor (first disc = 1).
+
+    Raises ModelError for duplicate or reserved ids, unknown ids, a link from a
+    disc to itself, a loop, or a disconnected disc.
+    """
+    if not discs:
+        raise ModelError("the train has no discs", "train", "discs")
+    ids = {}
+    for d in discs:
+        if d.id == GROUND:
+            raise ModelError("'ground' is reserved for the rigid support", f"disc '{d.id}'", "id")
+        if d.id in ids:
+            raise ModelError("duplicate disc id", f"disc '{d.id}'", "id")
+        ids[d.id] = d
+    link_ids = set()
+    parent = {i: i for i in ids}
+
+    def find(i):
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    adjacency: dict[str, list[tuple[str, float]]] = {i: [] for i in ids}
+    for l in links:
+        where = f"link '{l.id}'"
+        if l.id in link_ids:
+            raise ModelError("duplicate link id", where, "id")
+        link_ids.add(l.id)
+        for fld, end in (("from", l.from_id), ("to", l.to_id)):
+            if end != GROUND and end not in ids:
+                raise ModelError(f"unknown disc id '{end}'", where, fld)
+        if l.from_id == l.to_id:
+            raise ModelError("a link cannot join a disc to itself", where, "to")
+        if l.grounded:
+            if l.kind == "gear_mesh":
+                raise ModelError("a gear mesh cannot run to ground", where, "to")
+            continue
+        a, b = find(l.from_id), find(l.to_id)
+        if a == b:
+            raise ModelError(f"closes a loop between '{l.from_id}' and '{l.to_id}'; "
+                             "a train must be a tree", where, "to")
+        parent[a] = b
+        ratio = l.speed_ratio if l.kind == "gear_mesh" else 1.0
+        adjacency[l.from_id].append((l.to_id, ratio))
+        adjacency[l.to_id].append((l.from_id, 1.0 / ratio))
+    first = discs[0].id
+    speed = {first: 1.0}
+    stack = [first]
+    while stack:
+        i = stack.pop()
+        for j, r in adjacency[i]:
+            if j not in speed:
+                speed[j] = speed[i] * r
+                stack.append(j)
+    for d in discs:
+        if d.id not in speed:
+            raise ModelError(f"is not connected to '{first}'; every disc must be linked into the train",
+                             f"disc '{d.id}'", "links")
+    return speed

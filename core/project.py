@@ -1,0 +1,344 @@
+"""Project files: JSON text with units in, an SI :class:`~core.model.Train` out.
+
+The document (a plain dict, exactly as read) is what the program edits and
+saves, so every value keeps the unit the user typed and unknown keys survive a
+save.  :func:`build_train` validates the document and makes the SI model.
+"""
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+
+from . import units as u
+from .errors import ModelError
+from .materials import LIBRARY, Material
+from .model import (GROUND, LINK_KINDS, MASS_MODELS, Disc, Excitation, Link, Operating,
+                    Order, Segment, Train, check_topology)
+
+FORMAT = "twistwise-project"
+VERSION = 1
+
+
+class ProjectFileError(ModelError):
+    """The file itself cannot be read as a project."""
+
+
+# ---------------------------------------------------------------- file level
+def parse_document(text: str) -> dict:
+    try:
+        doc = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise ProjectFileError(f"not valid JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})",
+                               "file") from None
+    if not isinstance(doc, dict):
+        raise ProjectFileError("a project file must hold one JSON object", "file")
+    fmt = doc.get("format", FORMAT)
+    if fmt != FORMAT:
+        raise ProjectFileError(f"not a Twistwise project (format is {fmt!r})", "file", "format")
+    version = doc.get("version", VERSION)
+    if not isinstance(version, int) or isinstance(version, bool):
+        raise ProjectFileError(f"version must be a whole number, got {version!r}", "file", "version")
+    if version > VERSION:
+        raise ProjectFileError(f"file format version {version} is newer than this program "
+                               f"reads (up to {VERSION}); update Twistwise", "file", "version")
+    return doc
+
+
+def load_document(path: str | os.PathLike) -> dict:
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ProjectFileError("file not found", "file") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ProjectFileError(f"cannot read the file ({exc})", "file") from None
+    return parse_document(text)
+
+
+def dump_document(doc: dict) -> str:
+    return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
+
+
+def save_document(path: str | os.PathLike, doc: dict, backup: bool = True) -> None:
+    """Write atomically (temporary file, then replace); keep the previous file as ``.bak``."""
+    path = Path(path)
+    text = dump_document(doc)
+    fd, tmp = tempfile.mkstemp(prefix=path.name + ".", suffix=".tmp", dir=path.parent or ".")
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        if backup and path.exists():
+            bak = path.with_name(path.name + ".bak")
+            try:
+                os.replace(path, bak)
+            except OSError:
+                pass
+        os.replace(tmp, path)
+    except BaseException:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+        raise
+
+
+def load_train(path: str | os.PathLike) -> Train:
+    return build_train(load_document(path))
+
+
+# ---------------------------------------------------------------- model level
+def _opt(obj: dict, key: str, kind, where: str):
+    value = obj.get(key)
+    return None if value is None else u.parse(value, kind, where, key)
+
+
+def _positive(value: float, where: str, key: str, allow_zero: bool = False) -> float:
+    if value < 0 or (value == 0 and not allow_zero):
+        raise ModelError(f"must be {'zero or ' if allow_zero else ''}greater than zero, got {value:g}",
+                         where, key)
+    return value
+
+
+def _material(spec, where: str) -> Material:
+    if isinstance(spec, str):
+        if spec not in LIBRARY:
+            raise ModelError(f"unknown material '{spec}' (library: {', '.join(LIBRARY)})",
+                             where, "material")
+        return LIBRARY[spec]
+    if isinstance(spec, dict):
+        G = _positive(u.parse(spec.get("shear_modulus"), u.MODULUS, where, "material.shear_modulus"),
+                      where, "material.shear_modulus")
+        rho = _positive(u.parse(spec.get("density"), u.DENSITY, where, "material.density"),
+                        where, "material.density")
+        return Material(str(spec.get("name", "custom")), G, rho, "given in the project")
+    raise ModelError("give a library name or {\"shear_modulus\": ..., \"density\": ...}",
+                     where, "material")
+
+
+def _disc(obj, index: int) -> Disc:
+    if not isinstance(obj, dict):
+        raise ModelError("each disc must be a JSON object", f"disc #{index + 1}")
+    did = obj.get("id")
+    if not isinstance(did, str) or not did.strip():
+        raise ModelError("missing or empty id", f"disc #{index + 1}", "id")
+    where = f"disc '{did}'"
+    if "inertia" not in obj:
+        raise ModelError("missing inertia", where, "inertia")
+    J = u.parse(obj["inertia"], u.INERTIA, where, "inertia")
+    if J < 0:
+        raise ModelError(f"inertia must not be negative, got {J:g} kg*m^2", where, "inertia")
+    c = _opt(obj, "damping", u.DAMPING, where) or 0.0
+    _positive(c, where, "damping", allow_zero=True)
+    return Disc(did, str(obj.get("name", did)), J, c)
+
+
+def _loss_factor(obj, where: str) -> float:
+    keys = [k for k in ("loss_factor", "relative_damping", "dynamic_magnifier") if obj.get(k) is not None]
+    if len(keys) > 1:
+        raise ModelError("give only one of loss_factor, relative_damping, dynamic_magnifier", where, keys[1])
+    if not keys:
+        return 0.0
+    key = keys[0]
+    value = u.parse_number(obj[key], where, key)
+    if key == "loss_factor":
+        return _positive(value, where, key, allow_zero=True)
+    if key == "relative_damping":  # psi = 2 pi eta (coupling catalogues)
+        return _positive(value, where, key, allow_zero=True) / (2 * math.pi)
+    return 1.0 / _positive(value, where, key)  # dynamic magnifier M = 1 / eta
+
+
+def _link(obj, index: int) -> Link:
+    if not isinstance(obj, dict):
+        raise ModelError("each link must be a JSON object", f"link #{index + 1}")
+    lid = obj.get("id")
+    if not isinstance(lid, str) or not lid.strip():
+        raise ModelError("missing or empty id", f"link #{index + 1}", "id")
+    where = f"link '{lid}'"
+    kind = obj.get("kind")
+    if kind not in LINK_KINDS:
+        raise ModelError(f"kind must be one of {', '.join(LINK_KINDS)}, got {kind!r}", where, "kind")
+    ends = []
+    for key in ("from", "to"):
+        v = obj.get(key)
+        if not isinstance(v, str) or not v:
+            raise ModelError("missing disc id", where, key)
+        ends.append(v)
+    k = _opt(obj, "stiffness", u.STIFFNESS, where)
+    if k is not None:
+        _positive(k, where, "stiffness")
+    segments: tuple[Segment, ...] = ()
+    material = None
+    mass = obj.get("mass")
+    ratio = 1.0
+    if kind == "shaft":
+        raw = obj.get("segments")
+        if raw is not None:
+            if k is not None:
+                raise ModelError("give either a stiffness or segments, not both", where, "segments")
+            if not isinstance(raw, list) or not raw:
+                raise ModelError("segments must be a non-empty list", where, "segments")
+            segs = []
+            for i, s in enumerate(raw):
+                sw = f"{where} segment {i + 1}"
+                if not isinstance(s, dict):
+                    raise ModelError("each segment must be a JSON object", sw)
+                L = _positive(u.parse(s.get("length"), u.LENGTH, sw, "length"), sw, "length")
+                D = _positive(u.parse(s.get("outer_diameter"), u.LENGTH, sw, "outer_diameter"), sw,
+                              "outer_diameter")
+                d = _opt(s, "inner_diameter", u.LENGTH, sw) or 0.0
+                _positive(d, sw, "inner_diameter", allow_zero=True)
+                if d >= D:
+                    raise ModelError(f"bore {d * 1e3:g} mm must be smaller than the outer diameter "
+                                     f"{D * 1e3:g} mm", sw, "inner_diameter")
+                segs.append(Segment(L, D, d))
+            segments = tuple(segs)
+            if "material" not in obj:
+                raise ModelError("a shaft given by segments needs a material", where, "material")
+            material = _material(obj["material"], where)
+        elif k is None:
+            raise ModelError("a shaft needs a stiffness or segments", where, "stiffness")
+        if mass is None:
+            mass = "none"
+        if mass not in MASS_MODELS:
+            raise ModelError(f"mass must be one of {', '.join(MASS_MODELS)}, got {mass!r}", where, "mass")
+        if mass != "none" and not segments:
+            raise ModelError(f"mass '{mass}' needs the shaft's geometry (segments and material)",
+                             where, "mass")
+    else:
+        if mass not in (None, "none"):
+            raise ModelError("only shafts carry a mass model", where, "mass")
+        mass = "none"
+        if kind == "coupling" and k is None:
+            raise ModelError("a coupling needs a stiffness", where, "stiffness")
+        if kind == "gear_mesh":
+            if "speed_ratio" not in obj:
+                raise ModelError("a gear mesh needs a speed_ratio (speed of 'to' / speed of 'from')",
+                                 where, "speed_ratio")
+            ratio = u.parse_number(obj["speed_ratio"], where, "speed_ratio")
+            if ratio <= 0:
+                raise ModelError(f"speed_ratio must be greater than zero, got {ratio:g}", where,
+                                 "speed_ratio")
+    c = _opt(obj, "damping", u.DAMPING, where) or 0.0
+    _positive(c, where, "damping", allow_zero=True)
+    scf = u.parse_number(obj.get("stress_concentration", 1.0), where, "stress_concentration")
+    if scf < 1.0:
+        raise ModelError(f"a stress concentration factor is at least 1, got {scf:g}", where,
+                         "stress_concentration")
+    pt = _opt(obj, "permissible_torque", u.TORQUE, where)
+    if pt is not None:
+        _positive(pt, where, "permissible_torque")
+    ps = _opt(obj, "permissible_stress", u.STRESS, where)
+    if ps is not None:
+        _positive(ps, where, "permissible_stress")
+    return Link(lid, kind, ends[0], ends[1], k, segments, material, mass, ratio, c,
+                _loss_factor(obj, where), scf, pt, ps)
+
+
+def _order(obj, where: str, index: int) -> Order:
+    ow = f"{where} order {index + 1}"
+    if isinstance(obj, dict):
+        n = u.parse_number(obj.get("order"), ow, "order")
+        amp = _opt(obj, "amplitude", u.TORQUE, ow)
+        phase = u.parse_number(obj.get("phase_deg", 0.0), ow, "phase_deg")
+        scaling = obj.get("scaling", "constant")
+        if scaling not in ("constant", "speed_squared"):
+            raise ModelError(f"scaling must be 'constant' or 'speed_squared', got {scaling!r}", ow,
+                             "scaling")
+        at_speed = _opt(obj, "at_speed", u.SPEED, ow)
+        if scaling == "speed_squared":
+            if at_speed is None or at_speed <= 0:
+                raise ModelError("speed_squared scaling needs a positive at_speed", ow, "at_speed")
+        if amp is not None and amp < 0:
+            raise ModelError("amplitude must not be negative", ow, "amplitude")
+    else:
+        n = u.parse_number(obj, ow, "order")
+        amp, phase, scaling, at_speed = None, 0.0, "constant", None
+    if n <= 0:
+        raise ModelError(f"an order must be greater than zero, got {n:g}", ow, "order")
+    return Order(n, amp, phase, scaling, at_speed)
+
+
+def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
+    if "operating_speed" not in doc and "excitations" not in doc and "reference" not in doc:
+        return None
+    where = "operating data"
+    ref = doc.get("reference")
+    if not isinstance(ref, str) or ref not in disc_ids:
+        raise ModelError(f"reference must name a disc of the train, got {ref!r}", where, "reference")
+    sp = doc.get("operating_speed")
+    if not isinstance(sp, dict):
+        raise ModelError("give {\"min\": ..., \"max\": ...}", where, "operating_speed")
+    nmin = u.parse(sp.get("min"), u.SPEED, where, "operating_speed.min")
+    nmax = u.parse(sp.get("max", sp.get("min")), u.SPEED, where, "operating_speed.max")
+    if nmin < 0 or nmax < 0:
+        raise ModelError("speeds must not be negative", where, "operating_speed")
+    if nmax <= 0:
+        raise ModelError("the maximum speed must be greater than zero", where, "operating_speed.max")
+    if nmin > nmax:
+        raise ModelError("min is greater than max", where, "operating_speed.min")
+    trip = _opt(sp, "trip", u.SPEED, where)
+    if trip is not None and trip < nmax:
+        raise ModelError("the trip speed must not be below the maximum operating speed", where,
+                         "operating_speed.trip")
+    margin_pct = u.parse_number(doc.get("margin_percent", 10), where, "margin_percent")
+    if not 0 <= margin_pct <= 50:
+        raise ModelError(f"must be between 0 and 50 %, got {margin_pct:g}", where, "margin_percent")
+    exc_list = doc.get("excitations", [])
+    if not isinstance(exc_list, list):
+        raise ModelError("must be a list", where, "excitations")
+    excitations = []
+    for i, e in enumerate(exc_list):
+        if not isinstance(e, dict):
+            raise ModelError("each excitation must be a JSON object", f"excitation #{i + 1}")
+        name = str(e.get("name") or f"Excitation {i + 1}")
+        ew = f"excitation '{name}'"
+        if e.get("frequency") is not None:
+            if e.get("at") is not None or e.get("orders"):
+                raise ModelError("a fixed-frequency source has no 'at' disc or orders", ew, "frequency")
+            f = u.parse(e["frequency"], u.FREQUENCY, ew, "frequency")
+            if f <= 0:
+                raise ModelError("frequency must be greater than zero", ew, "frequency")
+            amp = _opt(e, "amplitude", u.TORQUE, ew)
+            excitations.append(Excitation(name, None, (), f, amp,
+                                          u.parse_number(e.get("phase_deg", 0.0), ew, "phase_deg"),
+                                          ))
+            continue
+        at = e.get("at")
+        if at not in disc_ids:
+            raise ModelError(f"unknown disc '{at}'", ew, "at")
+        orders = e.get("orders")
+        if not isinstance(orders, list) or not orders:
+            raise ModelError("give a non-empty list of orders (or a fixed frequency)", ew, "orders")
+        excitations.append(Excitation(name, at, tuple(_order(o, ew, j) for j, o in enumerate(orders))))
+    return Operating(ref, nmin, nmax, margin_pct / 100.0, tuple(excitations), trip,
+                     str(sp.get("name", "Operating range")))
+
+
+def build_train(doc: dict) -> Train:
+    """Validate a project document and return the SI model (raises ModelError)."""
+    if not isinstance(doc, dict):
+        raise ProjectFileError("a project must be a JSON object", "file")
+    raw_discs = doc.get("discs")
+    if not isinstance(raw_discs, list) or not raw_discs:
+        raise ModelError("the train is empty: add at least one disc", "train", "discs")
+    raw_links = doc.get("links", [])
+    if not isinstance(raw_links, list):
+        raise ModelError("links must be a list", "train", "links")
+    discs = tuple(_disc(d, i) for i, d in enumerate(raw_discs))
+    links = tuple(_link(l, i) for i, l in enumerate(raw_links))
+    speed = check_topology(discs, links)
+    # A disc without inertia is only allowed where something gives its node mass.
+    for d in discs:
+        if d.inertia == 0:
+            touching = [l for l in links if d.id in (l.from_id, l.to_id)]
+            if not any(l.mass != "none" or l.is_rigid for l in touching):
+                raise ModelError("zero inertia makes the model singular; give the disc an inertia "
+                                 "(or model an adjoining shaft's mass)", f"disc '{d.id}'", "inertia")
+    if sum(d.inertia for d in discs) + sum(l.own_inertia for l in links if l.mass != "none") <= 0:
+        raise ModelError("the train has no inertia", "train", "discs")
+    operating = _operating(doc, set(speed))
+    title = doc.get("title")
+    return Train(str(title) if title else "Untitled train", discs, links, operating, speed)
