@@ -356,7 +356,9 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
             for end in (l.from_id, l.to_id):
                 if end in index:
                     J_eff[index[end]] += 0.5 * l.own_inertia
-    disc_kin = 0.5 * J_eff[:, None] * theta ** 2 * omega[None, :] ** 2
+    # a rigid-body mode (omega = 0) still has kinetic energy shares in proportion to J theta^2
+    w_kin = np.where(omega > 0, omega, 1.0)
+    disc_kin = 0.5 * J_eff[:, None] * theta ** 2 * w_kin[None, :] ** 2
     if any(l.is_rigid for l in train.links):
         _rigid_mesh_torques(train, omega, theta, J_eff, torque, t_from, t_to)
     tot_kin = disc_kin.sum(0) + link_kin.sum(0)
