@@ -167,9 +167,10 @@ def cmd_check(args) -> int:
     print(f"Modes considered: {n_el} elastic modes up to {fmt.hz(s.cap_hz)} Hz "
           f"(cap above the highest excitation frequency in range)")
     if s.coincidences:
-        print(f"{'mode':>4} {'Hz':>9}  {'source':<34} {'order':>6} {'crossing rpm':>12} {'margin %':>9}  status")
+        w = max(6, min(60, max(len(c.source) for c in s.coincidences)))
+        print(f"{'mode':>4} {'Hz':>9}  {'source':<{w}} {'order':>6} {'crossing rpm':>12} {'margin %':>9}  status")
         for c in s.coincidences:
-            print(f"{c.mode:>4} {fmt.hz(c.frequency_hz):>9}  {c.source[:34]:<34} {fmt.order(c.order):>6} "
+            print(f"{c.mode:>4} {fmt.hz(c.frequency_hz):>9}  {c.source[:w]:<{w}} {fmt.order(c.order):>6} "
                   f"{fmt.rpm(c.crossing_speed):>12} {fmt.percent(c.separation):>9}  {c.status.upper()}")
     else:
         print(f"No excitation comes within {fmt.percent(2 * s.margin)} % of a natural frequency.")
