@@ -108,6 +108,12 @@ class Excitation:
     frequency: float | None = None  # Hz, fixed frequency sources
     amplitude: float | None = None  # N*m, fixed frequency sources (forced response)
     phase_deg: float = 0.0
+    # forced response only: the disc a fixed-frequency source's torque acts on
+    applied_at: str | None = None
+    # forced response only: (disc id, firing angle in degrees of the source shaft) per
+    # cylinder; each order's amplitude then acts on every throw, with phase
+    # phase_deg - order * firing_deg (the vector-sum method of engine torsional analysis)
+    cylinders: tuple[tuple[str, float], ...] = ()
 
 
 @dataclass(frozen=True)

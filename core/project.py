@@ -261,6 +261,27 @@ def _order(obj, where: str, index: int) -> Order:
     return Order(n, amp, phase, scaling, at_speed)
 
 
+def _cylinders(raw, where: str, disc_ids) -> tuple[tuple[str, float], ...]:
+    """Optional ``"cylinders": [{"at": "crank_1", "firing_deg": 0}, ...]`` of an engine
+    excitation (forced response): one entry per throw, firing angle in degrees of
+    crank rotation after the first cylinder."""
+    if raw is None:
+        return ()
+    if not isinstance(raw, list) or not raw:
+        raise ModelError("cylinders must be a non-empty list of {\"at\": disc, \"firing_deg\": angle}",
+                         where, "cylinders")
+    out = []
+    for i, c in enumerate(raw):
+        cw = f"{where} cylinder {i + 1}"
+        if not isinstance(c, dict):
+            raise ModelError("each cylinder must be a JSON object with 'at' and 'firing_deg'", cw)
+        at = c.get("at")
+        if at not in disc_ids:
+            raise ModelError(f"unknown disc '{at}'", cw, "at")
+        out.append((at, u.parse_number(c.get("firing_deg", 0.0), cw, "firing_deg")))
+    return tuple(out)
+
+
 def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
     if "operating_speed" not in doc and "excitations" not in doc and "reference" not in doc:
         return None
@@ -302,17 +323,26 @@ def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
             if f <= 0:
                 raise ModelError("frequency must be greater than zero", ew, "frequency")
             amp = _opt(e, "amplitude", u.TORQUE, ew)
+            if amp is not None and amp < 0:
+                raise ModelError("amplitude must not be negative", ew, "amplitude")
+            applied_at = e.get("applied_at")
+            if applied_at is not None and applied_at not in disc_ids:
+                raise ModelError(f"unknown disc '{applied_at}'", ew, "applied_at")
             excitations.append(Excitation(name, None, (), f, amp,
                                           u.parse_number(e.get("phase_deg", 0.0), ew, "phase_deg"),
-                                          ))
+                                          applied_at))
             continue
+        cylinders = _cylinders(e.get("cylinders"), ew, disc_ids)
         at = e.get("at")
+        if at is None and cylinders:
+            at = cylinders[0][0]
         if at not in disc_ids:
             raise ModelError(f"unknown disc '{at}'", ew, "at")
         orders = e.get("orders")
         if not isinstance(orders, list) or not orders:
             raise ModelError("give a non-empty list of orders (or a fixed frequency)", ew, "orders")
-        excitations.append(Excitation(name, at, tuple(_order(o, ew, j) for j, o in enumerate(orders))))
+        excitations.append(Excitation(name, at, tuple(_order(o, ew, j) for j, o in enumerate(orders)),
+                                      cylinders=cylinders))
     return Operating(ref, nmin, nmax, margin_pct / 100.0, tuple(excitations), trip,
                      str(sp.get("name", "Operating range")))
 
@@ -340,5 +370,11 @@ def build_train(doc: dict) -> Train:
     if sum(d.inertia for d in discs) + sum(l.own_inertia for l in links if l.mass != "none") <= 0:
         raise ModelError("the train has no inertia", "train", "discs")
     operating = _operating(doc, set(speed))
+    for e in operating.excitations if operating else ():
+        for i, (cid, _) in enumerate(e.cylinders):
+            if not math.isclose(speed[cid], speed[e.at], rel_tol=1e-9):
+                raise ModelError(f"disc '{cid}' turns at a different speed from '{e.at}'; all cylinders "
+                                 "of one excitation must be on the same shaft",
+                                 f"excitation '{e.name}' cylinder {i + 1}", "at")
     title = doc.get("title")
     return Train(str(title) if title else "Untitled train", discs, links, operating, speed)
