@@ -1,0 +1,459 @@
+"""The schematic of the train: discs, shafts, couplings, gear meshes, ground.
+
+Positions come from :func:`app.schematic_layout.place_document` (shared with
+the review sheet).  Drawing conventions of this program:
+
+* disc: upright block, height on a log scale of its inertia within the train;
+  name above, inertia below (in the chosen unit system);
+* shaft: a line whose weight grows with log stiffness; a shaft with
+  distributed inertia is drawn as a double line, one with lumped inertia
+  carries a small dot at mid-span;
+* coupling: two flange bars with a spring zig-zag between them;
+* gear mesh: two touching pitch circles, the speed ratio written beside;
+* ground: a hatched support block.
+
+The canvas draws documents that do not build yet (unknown values get a
+neutral size) so the user sees the train while still typing.
+"""
+from __future__ import annotations
+
+import math
+
+from PySide6 import QtCore, QtGui, QtWidgets
+
+from core import units as u
+from core.model import GROUND
+
+from . import theme
+from ..schematic_layout import place_document
+
+COL_W = 140.0  # scene units between disc columns
+ROW_H = 135.0
+DISC_W = 22.0
+DISC_H_MIN, DISC_H_MAX = 22.0, 84.0
+PEN_MIN, PEN_MAX = 1.2, 6.0
+LABEL_W = COL_W - 12
+
+
+def _si(value, kind):
+    try:
+        return u.parse(value, kind)
+    except Exception:
+        return None
+
+
+def _log_scale(values: dict, lo_out: float, hi_out: float) -> dict:
+    """Map positive values to [lo_out, hi_out] by log10 within their own range."""
+    good = {k: v for k, v in values.items() if v is not None and v > 0 and math.isfinite(v)}
+    if not good:
+        return {k: (lo_out + hi_out) / 2 for k in values}
+    lo, hi = math.log10(min(good.values())), math.log10(max(good.values()))
+    span = hi - lo
+    out = {}
+    for k, v in values.items():
+        if k not in good:
+            out[k] = lo_out
+        elif span < 1e-9:
+            out[k] = (lo_out + hi_out) / 2
+        else:
+            out[k] = lo_out + (hi_out - lo_out) * (math.log10(good[k]) - lo) / span
+    return out
+
+
+def pretty_unit(text: str) -> str:
+    """'kg*m^2' -> 'kg·m²' for labels that are read, not edited."""
+    return text.replace("*", "·").replace("^2", "²").replace("^3", "³").replace("^4", "⁴")
+
+
+def short_quantity(text, kind, system: str) -> str:
+    """Stored text shown in the display unit system (the stored text itself if it does not parse)."""
+    v = _si(text, kind)
+    if v is None:
+        return str(text)
+    return pretty_unit(u.format_quantity(v, kind, u.display_unit(kind, system), digits=3))
+
+
+def link_stiffness_si(link: dict):
+    """Given stiffness, or the series stiffness of the segments (None if unknown)."""
+    k = _si(link.get("stiffness"), u.STIFFNESS) if link.get("stiffness") is not None else None
+    if k is not None or link.get("kind") != "shaft" or not link.get("segments"):
+        return k
+    from core.materials import LIBRARY
+    mat = link.get("material")
+    G = LIBRARY[mat].shear_modulus if isinstance(mat, str) and mat in LIBRARY else (
+        _si(mat.get("shear_modulus"), u.MODULUS) if isinstance(mat, dict) else None)
+    if not G:
+        return None
+    flex = 0.0
+    for s in link.get("segments") or []:
+        if not isinstance(s, dict):
+            return None
+        L, D = _si(s.get("length"), u.LENGTH), _si(s.get("outer_diameter"), u.LENGTH)
+        d = _si(s.get("inner_diameter", 0), u.LENGTH) or 0.0
+        if not L or not D or d >= D:
+            return None
+        flex += L / (G * math.pi * (D ** 4 - d ** 4) / 32.0)
+    return 1.0 / flex if flex > 0 else None
+
+
+class TrainCanvas(QtWidgets.QGraphicsView):
+    """Signals ``selectionMade((kind, id) or None)`` on a click."""
+
+    selectionMade = QtCore.Signal(object)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.setScene(QtWidgets.QGraphicsScene(self))
+        self.setRenderHints(QtGui.QPainter.Antialiasing | QtGui.QPainter.TextAntialiasing)
+        self.setBackgroundBrush(theme.qcolor(theme.BACKGROUND))
+        self.setDragMode(QtWidgets.QGraphicsView.ScrollHandDrag)
+        self.setTransformationAnchor(QtWidgets.QGraphicsView.AnchorUnderMouse)
+        self.setMinimumSize(320, 170)
+        self.setToolTip("")
+        self._items: dict = {}  # (kind, id) -> main graphics item
+        self._disc_brush: dict = {}
+        self._selection = None
+        self._shape = None
+        self._signature = None
+        self._labels = []
+        self.context_actions: list = []
+        self._press_pos = None
+
+    # ---------------------------------------------------------------- drawing
+    def set_document(self, doc: dict, system: str = "SI", error_elements=()) -> None:
+        scene = self.scene()
+        scene.clear()
+        self._items.clear()
+        self._disc_brush.clear()
+        self._labels = []
+        self.system = system
+        placement = place_document(doc)
+        discs = [d for d in doc.get("discs", []) if isinstance(d, dict) and isinstance(d.get("id"), str)]
+        links = [l for l in doc.get("links", []) if isinstance(l, dict)]
+        heights = _log_scale({d["id"]: _si(d.get("inertia"), u.INERTIA) for d in discs},
+                             DISC_H_MIN, DISC_H_MAX)
+        widths = _log_scale({l.get("id"): link_stiffness_si(l) for l in links if l.get("kind") != "gear_mesh"},
+                            PEN_MIN, PEN_MAX)
+        pos = {}
+        for d in discs:
+            if d["id"] in placement.column:
+                pos[d["id"]] = QtCore.QPointF(placement.column[d["id"]] * COL_W, placement.row[d["id"]] * ROW_H)
+        ground_side = {lid: side for lid, _d, side in placement.grounds}
+        bad = set(error_elements)
+        for l in links:
+            self._draw_link(l, pos, heights, widths, ground_side, f"link '{l.get('id')}'" in bad)
+        for d in discs:
+            if d["id"] in pos:
+                self._draw_disc(d, pos[d["id"]], heights[d["id"]], f"disc '{d['id']}'" in bad)
+        signature = (placement.n_columns, placement.n_rows)
+        scene.setSceneRect(scene.itemsBoundingRect().adjusted(-COL_W, -36, COL_W, 36))
+        if signature != self._signature:
+            self._signature = signature
+            self.fit()
+        self._relabel()
+        self._apply_selection()
+        self._apply_shape()
+
+    def _label(self, text: str, color, x: float, y: float, above: bool, key, column: int = 0):
+        """A label that keeps its size on screen whatever the zoom; elided to
+        the column width on screen by :meth:`_relabel`."""
+        item = QtWidgets.QGraphicsSimpleTextItem()
+        item.setFont(theme.font(theme.SMALL_POINT_SIZE))
+        item.setBrush(theme.qcolor(color))
+        item.setFlag(QtWidgets.QGraphicsItem.ItemIgnoresTransformations)
+        item.setPos(x, y)
+        item.setData(0, key)
+        item.setToolTip(text)
+        self.scene().addItem(item)
+        self._labels.append((item, text, above, column))
+        return item
+
+    def _relabel(self) -> None:
+        """Elide labels to the column width on screen; when columns get narrow,
+        stagger odd columns by one text line so each label has two columns' room."""
+        scale = self.transform().m11() or 1.0
+        col_px = COL_W * scale
+        fm = QtGui.QFontMetricsF(theme.font(theme.SMALL_POINT_SIZE))
+        widest = max((fm.horizontalAdvance(t) for _i, t, _a, _c in self._labels), default=0.0)
+        stagger = widest > col_px - 8
+        max_w = max(40.0, (2 * col_px if stagger else col_px) - 10)
+        line = fm.height()
+        for item, text, above, column in self._labels:
+            item.setText(fm.elidedText(text, QtCore.Qt.ElideRight, max_w))
+            r = item.boundingRect()
+            shift = line if stagger and column % 2 else 0.0
+            dy = -r.height() - shift if above else shift
+            item.setTransform(QtGui.QTransform.fromTranslate(-r.width() / 2, dy))
+
+    def _draw_disc(self, d: dict, p: QtCore.QPointF, h: float, bad: bool):
+        rect = QtCore.QRectF(p.x() - DISC_W / 2, p.y() - h / 2, DISC_W, h)
+        item = self.scene().addRect(rect)
+        key = ("disc", d["id"])
+        item.setData(0, key)
+        item.setZValue(2)
+        item.setPen(QtGui.QPen(theme.qcolor(theme.FAIL if bad else theme.INK), 2.0 if bad else 1.2))
+        brush = QtGui.QBrush(theme.qcolor("#c9d6e3"))
+        item.setBrush(brush)
+        name = str(d.get("name") or d["id"])
+        value = short_quantity(d.get("inertia"), u.INERTIA, self.system)
+        item.setToolTip(f"<b>{name}</b> (disc '{d['id']}')<br>inertia {d.get('inertia')!s}"
+                        + (f" = {value}" if value != str(d.get('inertia')) else "")
+                        + "<br>Click to select; right-click to insert or delete.")
+        self._items[key] = item
+        self._disc_brush[key] = brush
+        col = int(round(p.x() / COL_W))
+        self._label(name, theme.INK, p.x(), p.y() - DISC_H_MAX / 2 - 4, True, key, col)
+        self._label(value, theme.FAIL if bad else theme.INK_MUTED, p.x(), p.y() + DISC_H_MAX / 2 + 4, False,
+                    key, col)
+
+    def _draw_link(self, l: dict, pos: dict, heights: dict, widths: dict, ground_side: dict, bad: bool):
+        lid, kind = l.get("id"), l.get("kind")
+        a, b = l.get("from"), l.get("to")
+        key = ("link", lid)
+        color = theme.qcolor(theme.FAIL if bad else theme.INK)
+        width = widths.get(lid, 2.0)
+        group = QtWidgets.QGraphicsItemGroup()
+        self.scene().addItem(group)
+        group.setData(0, key)
+        group.setZValue(1)
+        if GROUND in (a, b):
+            disc = b if a == GROUND else a
+            if disc not in pos:
+                return
+            side = ground_side.get(lid, 1)
+            p = pos[disc]
+            x0 = p.x() + side * DISC_W / 2
+            x1 = p.x() + side * (COL_W * 0.45)
+            path = [QtCore.QPointF(x0, p.y()), QtCore.QPointF(x1, p.y())]
+            self._link_body(group, kind, l, path, width, color)
+            self._ground(group, x1, p.y(), side, color)
+        else:
+            if a not in pos or b not in pos:
+                return
+            pa, pb = pos[a], pos[b]
+            if pb.x() < pa.x():
+                pa, pb = pb, pa
+            start = QtCore.QPointF(pa.x() + DISC_W / 2, pa.y())
+            end = QtCore.QPointF(pb.x() - DISC_W / 2, pb.y())
+            if abs(pa.y() - pb.y()) < 1e-6:
+                path = [start, end]
+            else:  # branch: across, down to the branch row, across into the disc
+                xm = pa.x() + DISC_W / 2 + 14
+                path = [start, QtCore.QPointF(xm, pa.y()), QtCore.QPointF(xm, pb.y()), end]
+            self._link_body(group, kind, l, path, width, color)
+        tip = self._link_tooltip(l)
+        for child in group.childItems():
+            child.setData(0, key)
+            child.setToolTip(tip)
+        group.setToolTip(tip)
+        self._items[key] = group
+
+    def _link_tooltip(self, l: dict) -> str:
+        kind = l.get("kind")
+        rows = [f"<b>{l.get('id')}</b>: {str(kind).replace('_', ' ')} from '{l.get('from')}' to '{l.get('to')}'"]
+        if kind == "gear_mesh":
+            rows.append(f"speed ratio (to / from) {l.get('speed_ratio')}")
+            if l.get("stiffness") is not None:
+                rows.append(f"mesh stiffness {l.get('stiffness')}")
+            else:
+                rows.append("rigid mesh")
+        else:
+            k = link_stiffness_si(l)
+            if l.get("stiffness") is not None:
+                rows.append(f"stiffness {l.get('stiffness')}")
+            elif k is not None:
+                rows.append(f"stiffness from geometry {short_quantity(k, u.STIFFNESS, self.system)}")
+            if l.get("mass") in ("lumped", "distributed"):
+                rows.append(f"shaft inertia {l.get('mass')}")
+        return "<br>".join(rows)
+
+    def _polyline(self, group, pts, pen):
+        path = QtGui.QPainterPath(pts[0])
+        for q in pts[1:]:
+            path.lineTo(q)
+        item = QtWidgets.QGraphicsPathItem(path)
+        item.setPen(pen)
+        group.addToGroup(item)
+        return item
+
+    def _link_body(self, group, kind, l, pts, width, color):
+        pen = QtGui.QPen(color, width)
+        pen.setCapStyle(QtCore.Qt.FlatCap)
+        thin = QtGui.QPen(color, 1.3)
+        last_a, last_b = pts[-2], pts[-1]
+        mid = QtCore.QPointF((last_a.x() + last_b.x()) / 2, last_b.y())
+        if kind == "shaft":
+            if l.get("mass") == "distributed":
+                # a hollow tube: wide ink line with a white core reads as a double line
+                outer = max(width + 4.0, 6.0)
+                self._polyline(group, pts, QtGui.QPen(color, outer, QtCore.Qt.SolidLine, QtCore.Qt.FlatCap))
+                self._polyline(group, pts, QtGui.QPen(QtGui.QColor("white"), outer - 3.0,
+                                                      QtCore.Qt.SolidLine, QtCore.Qt.FlatCap))
+            else:
+                self._polyline(group, pts, pen)
+                if l.get("mass") == "lumped":
+                    dot = QtWidgets.QGraphicsEllipseItem(mid.x() - 4, mid.y() - 4, 8, 8)
+                    dot.setBrush(color)
+                    dot.setPen(QtGui.QPen(QtCore.Qt.NoPen))
+                    group.addToGroup(dot)
+        elif kind == "coupling":
+            gap = 26.0
+            x0, x1 = mid.x() - gap / 2, mid.x() + gap / 2
+            self._polyline(group, pts[:-1] + [QtCore.QPointF(x0, mid.y())], pen)
+            self._polyline(group, [QtCore.QPointF(x1, mid.y()), last_b], pen)
+            y = mid.y()
+            for x in (x0, x1):  # flange bars
+                bar = QtWidgets.QGraphicsLineItem(x, y - 11, x, y + 11)
+                bar.setPen(QtGui.QPen(color, 2.6))
+                group.addToGroup(bar)
+            zig = [QtCore.QPointF(x0, y)]
+            n = 6
+            for i in range(1, n):
+                zig.append(QtCore.QPointF(x0 + gap * i / n, y + (-6 if i % 2 else 6)))
+            zig.append(QtCore.QPointF(x1, y))
+            self._polyline(group, zig, thin)
+        else:  # gear mesh: two touching pitch circles
+            self._polyline(group, pts, QtGui.QPen(color, 1.6, QtCore.Qt.DotLine))
+            try:
+                ratio = float(u.parse_number(l.get("speed_ratio")))
+            except Exception:
+                ratio = 1.0
+            r1 = 12.0
+            r2 = max(5.0, min(18.0, r1 / ratio)) if ratio > 0 else r1
+            cx = mid.x()
+            top = QtWidgets.QGraphicsEllipseItem(cx - r1, mid.y() - 2 * r1, 2 * r1, 2 * r1)
+            bottom = QtWidgets.QGraphicsEllipseItem(cx - r2, mid.y(), 2 * r2, 2 * r2)
+            for c in (top, bottom):
+                c.setPen(QtGui.QPen(color, 1.8))
+                c.setBrush(theme.qcolor(theme.BACKGROUND))
+                group.addToGroup(c)
+            txt = QtWidgets.QGraphicsSimpleTextItem(f"×{l.get('speed_ratio')}")
+            txt.setFont(theme.font(theme.SMALL_POINT_SIZE))
+            txt.setBrush(color)
+            txt.setPos(cx - txt.boundingRect().width() / 2, mid.y() + 2 * r2 + 2)
+            group.addToGroup(txt)
+
+    def _ground(self, group, x, y, side, color):
+        w, h = 10.0, 40.0
+        rect = QtCore.QRectF(x if side > 0 else x - w, y - h / 2, w, h)
+        block = QtWidgets.QGraphicsRectItem(rect)
+        block.setPen(QtGui.QPen(color, 1.2))
+        block.setBrush(QtGui.QBrush(color, QtCore.Qt.BDiagPattern))
+        group.addToGroup(block)
+        face = QtWidgets.QGraphicsLineItem(x, y - h / 2 - 4, x, y + h / 2 + 4)
+        face.setPen(QtGui.QPen(color, 2.2))
+        group.addToGroup(face)
+
+    # ---------------------------------------------------------------- selection / mode colour
+    def select(self, selection) -> None:
+        self._selection = selection
+        self._apply_selection()
+        item = self._items.get(selection) if selection else None
+        if item is not None:
+            self.ensureVisible(item, 40, 40)
+
+    def _apply_selection(self):
+        for key, item in self._items.items():
+            if key[0] == "disc":
+                pen = item.pen()
+                selected = key == self._selection
+                if selected:
+                    pen = QtGui.QPen(theme.qcolor(theme.ACCENT), 3.2)
+                elif pen.color() == theme.qcolor(theme.ACCENT):
+                    pen = QtGui.QPen(theme.qcolor(theme.INK), 1.2)
+                item.setPen(pen)
+            else:
+                sel = key == self._selection
+                eff = None
+                if sel:
+                    eff = QtWidgets.QGraphicsDropShadowEffect()
+                    eff.setColor(theme.qcolor(theme.ACCENT))
+                    eff.setBlurRadius(14)
+                    eff.setOffset(0, 0)
+                item.setGraphicsEffect(eff)
+
+    def set_mode_shape(self, amplitudes: dict | None) -> None:
+        """Colour each disc by its twist amplitude in the selected mode
+        (blue positive, vermilion negative, white at a node); None: plain."""
+        self._shape = amplitudes
+        self._apply_shape()
+
+    def _apply_shape(self):
+        pos, neg, white = theme.qcolor(theme.SERIES[0]), theme.qcolor(theme.SERIES[1]), QtGui.QColor("white")
+        for key, item in self._items.items():
+            if key[0] != "disc":
+                continue
+            if not self._shape or key[1] not in self._shape:
+                item.setBrush(self._disc_brush[key])
+                continue
+            a = float(self._shape[key[1]])
+            a = 0.0 if not math.isfinite(a) else max(-1.0, min(1.0, a))
+            c = pos if a >= 0 else neg
+            t = abs(a)
+            mix = QtGui.QColor(int(white.red() + t * (c.red() - white.red())),
+                               int(white.green() + t * (c.green() - white.green())),
+                               int(white.blue() + t * (c.blue() - white.blue())))
+            item.setBrush(mix)
+
+    # ---------------------------------------------------------------- view
+    def fit(self) -> None:
+        rect = self.scene().sceneRect()
+        if rect.isEmpty():
+            return
+        self.resetTransform()
+        self.fitInView(rect, QtCore.Qt.KeepAspectRatio)
+        if self.transform().m11() > 1.3:  # a short train: do not blow it up
+            self.resetTransform()
+            self.scale(1.3, 1.3)
+        self.centerOn(rect.center())
+        self._relabel()
+
+    def zoom(self, factor: float) -> None:
+        self.scale(factor, factor)
+        self._relabel()
+
+    def resizeEvent(self, event):
+        super().resizeEvent(event)
+        if self._signature is not None and not getattr(self, "_user_zoomed", False):
+            self.fit()
+
+    def wheelEvent(self, event):
+        steps = event.angleDelta().y() / 120.0
+        if steps:
+            self._user_zoomed = True
+            self.zoom(1.15 ** steps)
+
+    def item_key_at(self, view_pos) -> tuple | None:
+        for item in self.items(view_pos):
+            key = item.data(0)
+            if key is None and item.group() is not None:
+                key = item.group().data(0)
+            if key:
+                return tuple(key)
+        return None
+
+    def mousePressEvent(self, event):
+        self._press_pos = event.position().toPoint()
+        super().mousePressEvent(event)
+
+    def mouseReleaseEvent(self, event):
+        super().mouseReleaseEvent(event)
+        p = event.position().toPoint()
+        if event.button() == QtCore.Qt.LeftButton and self._press_pos is not None and \
+                (p - self._press_pos).manhattanLength() < 5:
+            key = self.item_key_at(p)
+            self.select(key)
+            self.selectionMade.emit(key)
+
+    def contextMenuEvent(self, event):
+        key = self.item_key_at(event.pos())
+        if key:
+            self.select(key)
+            self.selectionMade.emit(key)
+        menu = QtWidgets.QMenu(self)
+        for act in self.context_actions:
+            if act is None:
+                menu.addSeparator()
+            else:
+                menu.addAction(act)
+        menu.exec(event.globalPos())

@@ -1,0 +1,152 @@
+"""Live results: natural modes, screening and (when amplitudes are given) the
+forced response, recomputed after every accepted edit.
+
+Requests are debounced (a burst of edits gives one solve).  A solve that took
+less than a frame last time runs at once on the GUI thread (a thread hop would
+cost more than it saves); a slower one runs on a QThreadPool worker so the
+window never freezes.  Every request carries a generation number and a
+result that is not the newest is dropped.
+"""
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass
+from types import SimpleNamespace
+
+from PySide6 import QtCore
+
+FRAME_S = 1.0 / 60.0
+DEBOUNCE_MS = 150
+
+
+@dataclass
+class Results:
+    train: object
+    modes: object
+    screening: object | None
+    response: object | None
+    solve_time_s: float
+    note: str = ""
+
+
+def compute(train) -> Results:
+    """Modes (the command line's default choice of cap or count), screening when
+    the train has operating data with excitations, forced response when any
+    excitation carries an amplitude."""
+    from app.cli import _modes_args  # same mode selection as `twistwise solve`
+    t0 = time.perf_counter()
+    modes = _modes_args(SimpleNamespace(max_frequency=None, modes=None), train)
+    screening = None
+    op = train.operating
+    if op is not None and op.excitations:
+        from core.screening import screen
+        screening = screen(train, modes)
+        modes = screening.modes
+    response, note = None, ""
+    try:
+        from core import response as core_response
+    except ImportError:
+        core_response = None
+    if core_response is not None and op is not None:
+        try:
+            if core_response.has_amplitudes(train):
+                response = core_response.forced_response(train)
+        except Exception as exc:  # the modes and screening still show
+            note = f"forced response not computed: {exc}"
+    return Results(train, modes, screening, response, time.perf_counter() - t0, note)
+
+
+class _Signals(QtCore.QObject):
+    done = QtCore.Signal(int, object, object)  # generation, Results or None, error text
+
+
+class _Job(QtCore.QRunnable):
+    def __init__(self, generation: int, train, signals: _Signals):
+        super().__init__()
+        self.generation, self.train, self.signals = generation, train, signals
+
+    def run(self):
+        try:
+            self.signals.done.emit(self.generation, compute(self.train), "")
+        except Exception as exc:
+            self.signals.done.emit(self.generation, None, f"{type(exc).__name__}: {exc}")
+
+
+class ResultsRunner(QtCore.QObject):
+    """``request(train)`` -> later ``resultsReady(Results)`` or ``failed(text)``."""
+
+    resultsReady = QtCore.Signal(object)
+    failed = QtCore.Signal(str)
+    busyChanged = QtCore.Signal(bool)
+
+    def __init__(self, parent=None, debounce_ms: int = DEBOUNCE_MS):
+        super().__init__(parent)
+        self._timer = QtCore.QTimer(self)
+        self._timer.setSingleShot(True)
+        self._timer.setInterval(debounce_ms)
+        self._timer.timeout.connect(self._start)
+        self._pool = QtCore.QThreadPool(self)
+        self._pool.setMaxThreadCount(1)
+        self._signals = _Signals()
+        self._signals.done.connect(self._job_finished, QtCore.Qt.QueuedConnection)
+        self._pending = None
+        self._generation = 0
+        self._running = 0
+        self.last_time_s = 0.0
+
+    def set_debounce(self, ms: int) -> None:
+        self._timer.setInterval(ms)
+
+    def request(self, train, immediate: bool = False) -> None:
+        self._pending = train
+        self._generation += 1
+        if immediate:
+            self._timer.stop()
+            self._start()
+        else:
+            self._timer.start()
+
+    def compute_now(self, train) -> Results:
+        """Synchronous solve (screenshots, tests): emits resultsReady too."""
+        self._generation += 1
+        self._timer.stop()
+        res = compute(train)
+        self.last_time_s = res.solve_time_s
+        self.resultsReady.emit(res)
+        return res
+
+    def _start(self) -> None:
+        train, gen = self._pending, self._generation
+        if train is None:
+            return
+        self._pending = None
+        if self.last_time_s < FRAME_S:
+            try:
+                res = compute(train)
+            except Exception as exc:
+                self._finished(gen, None, f"{type(exc).__name__}: {exc}")
+                return
+            self._finished(gen, res, "")
+            return
+        self._running += 1
+        self.busyChanged.emit(True)
+        self._pool.start(_Job(gen, train, self._signals))
+
+    def _job_finished(self, generation: int, res, error: str) -> None:
+        self._running -= 1
+        if not self._running:
+            self.busyChanged.emit(False)
+        self._finished(generation, res, error)
+
+    def _finished(self, generation: int, res, error: str) -> None:
+        if res is not None:
+            self.last_time_s = res.solve_time_s
+        if generation != self._generation:
+            return  # a newer edit is on its way: drop the stale result
+        if res is None:
+            self.failed.emit(error)
+        else:
+            self.resultsReady.emit(res)
+
+    def wait(self, msecs: int = 10000) -> bool:
+        return self._pool.waitForDone(msecs)

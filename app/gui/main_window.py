@@ -1,0 +1,867 @@
+"""The desktop program's main window: schematic, forms, live results, files.
+
+``run_gui(path_or_None)`` opens the window (on the bundled compressor-train
+sample without a path); ``cmd_screenshot(args)`` renders it offscreen to a
+PNG for the README and visual checks (``twistwise screenshot FILE -o PNG``).
+"""
+from __future__ import annotations
+
+import datetime
+import json
+import os
+import re
+import sys
+import uuid
+from pathlib import Path
+
+from PySide6 import QtCore, QtGui, QtWidgets
+
+from core.errors import ModelError
+from core.project import ProjectFileError, load_document
+
+from .. import formatting as fmt
+from ..cli import CAUTION, InputError
+from . import edits, theme
+from .canvas import TrainCanvas
+from .compute import ResultsRunner
+from .document import Project
+from .forms import DiscTable, LinkTable, OperatingForm, PropertyForm
+
+SAMPLES_DIR = Path(__file__).resolve().parent.parent.parent / "sample_projects"
+DEFAULT_SAMPLE = SAMPLES_DIR / "compressor_train.json"
+APP_NAME = "Twistwise"
+MAX_RECENT = 8
+AUTOSAVE_MS = 20_000
+
+
+def samples() -> list[Path]:
+    return sorted(SAMPLES_DIR.glob("*.json"))
+
+
+def recovery_dir() -> Path:
+    base = QtCore.QStandardPaths.writableLocation(QtCore.QStandardPaths.AppDataLocation)
+    return Path(base or Path.home() / ".twistwise") / "recovery"
+
+
+# ----------------------------------------------------------------- results placeholder
+class _PlainResults(QtWidgets.QWidget):
+    """Stand-in with the ResultsPanel API, used only if app.gui.results cannot be imported."""
+
+    modeSelected = QtCore.Signal(int)
+
+    def __init__(self, parent=None, reason: str = ""):
+        super().__init__(parent)
+        lay = QtWidgets.QVBoxLayout(self)
+        self.note = QtWidgets.QLabel(f"Result views not available ({reason}); natural frequencies only.")
+        self.note.setWordWrap(True)
+        self.table = QtWidgets.QTableWidget(0, 4)
+        self.table.setHorizontalHeaderLabels(["Mode", "Hz", "cpm", "Largest strain energy"])
+        self.table.setEditTriggers(QtWidgets.QAbstractItemView.NoEditTriggers)
+        self.table.setSelectionBehavior(QtWidgets.QAbstractItemView.SelectRows)
+        self.table.currentCellChanged.connect(lambda r, *_: self.modeSelected.emit(r) if r >= 0 else None)
+        lay.addWidget(self.note)
+        lay.addWidget(self.table)
+        self.setMinimumSize(420, 300)
+
+    def set_results(self, train, modes, screening, response=None, solve_time_s=0.0):
+        self.table.blockSignals(True)
+        self.table.setRowCount(len(modes))
+        for i in range(len(modes)):
+            dom = "rigid-body mode" if modes.rigid_body[i] else (modes.dominant_link(i) or "—")
+            for c, v in enumerate((str(int(modes.number[i])), fmt.hz(modes.frequency_hz[i]),
+                                   fmt.cpm(modes.frequency_hz[i]), dom)):
+                self.table.setItem(i, c, QtWidgets.QTableWidgetItem(v))
+        self.table.blockSignals(False)
+
+    def clear_results(self, message):
+        self.table.setRowCount(0)
+        self.note.setText(message)
+
+    def select_mode(self, index):
+        self.table.blockSignals(True)
+        self.table.selectRow(index)
+        self.table.blockSignals(False)
+
+    def export_menu_actions(self, parent):
+        return []
+
+
+def _results_panel(parent):
+    try:
+        from .results import ResultsPanel
+    except Exception as exc:  # the window still opens while the views are missing
+        return _PlainResults(parent, f"{type(exc).__name__}: {exc}")
+    try:
+        return ResultsPanel(parent, show_caution=False)
+    except TypeError:
+        return ResultsPanel(parent)
+
+
+# ----------------------------------------------------------------- main window
+class MainWindow(QtWidgets.QMainWindow):
+    def __init__(self, settings: QtCore.QSettings | None = None, autosave: bool = True):
+        super().__init__()
+        self.settings = settings or QtCore.QSettings(APP_NAME, APP_NAME)
+        self.system = str(self.settings.value("unit_system", "SI"))
+        if self.system not in ("SI", "US"):
+            self.system = "SI"
+        self.selection = None
+        self.results = None  # last compute.Results shown
+        self.project = Project(self)
+        self.runner = ResultsRunner(self)
+        self._recovery_path = recovery_dir() / f"unsaved-{uuid.uuid4().hex[:12]}.json"
+        self._build_widgets()
+        self._build_actions()
+        self._connect()
+        self.setMinimumSize(1024, 640)
+        self.resize(1600, 1000)
+        self._autosave = QtCore.QTimer(self)
+        self._autosave.setInterval(AUTOSAVE_MS)
+        self._autosave.timeout.connect(self.write_recovery)
+        if autosave:
+            self._autosave.start()
+
+    # ------------------------------------------------------------ widgets
+    def _build_widgets(self):
+        self.caution = QtWidgets.QLabel("⚠  " + CAUTION)
+        self.caution.setObjectName("caution")
+        self.caution.setWordWrap(True)
+        self.caution.setStyleSheet(theme.CAUTION_STYLE + " font-weight: bold;")
+        self.caution.setToolTip("Shown at all times; the review sheet carries the same note.")
+
+        self.canvas = TrainCanvas()
+        self.canvas.setToolTip("The train as drawn from the project: click to select, right-click to "
+                               "insert or delete, wheel to zoom, drag to pan.")
+        self.mode_note = QtWidgets.QLabel()
+        self.mode_note.setStyleSheet(f"color: {theme.INK_MUTED};")
+        canvas_box = QtWidgets.QWidget()
+        cl = QtWidgets.QVBoxLayout(canvas_box)
+        cl.setContentsMargins(0, 0, 0, 0)
+        cl.setSpacing(2)
+        cl.addWidget(self.canvas, 1)
+        cl.addWidget(self.mode_note)
+
+        self.error_banner = QtWidgets.QLabel()
+        self.error_banner.setWordWrap(True)
+        self.error_banner.setStyleSheet(f"color: {theme.FAIL}; background: {theme.FAIL_FILL}; "
+                                        f"border: 1px solid {theme.FAIL}; padding: 4px 8px;")
+        self.error_banner.hide()
+
+        self.disc_table = DiscTable()
+        self.link_table = LinkTable()
+        self.link_table.disc_choices = lambda: edits.disc_ids(self.project.doc)
+        self.operating_form = OperatingForm()
+        self.tabs = QtWidgets.QTabWidget()
+        self.tabs.setDocumentMode(True)
+        self.tabs.addTab(self.disc_table, "Discs")
+        self.tabs.addTab(self.link_table, "Links")
+        self.tabs.addTab(self.operating_form, "Operating data")
+        self.tabs.setTabToolTip(0, "Inertia discs: double-click a cell to edit")
+        self.tabs.setTabToolTip(1, "Shafts, couplings and gear meshes: double-click a cell to edit")
+        self.tabs.setTabToolTip(2, "Title, reference disc, speed range, margin and excitations")
+        self.property_form = PropertyForm()
+
+        forms = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
+        forms.addWidget(self.tabs)
+        forms.addWidget(self.property_form)
+        forms.setStretchFactor(0, 3)
+        forms.setStretchFactor(1, 2)
+        forms.setChildrenCollapsible(False)
+        lower = QtWidgets.QWidget()
+        ll = QtWidgets.QVBoxLayout(lower)
+        ll.setContentsMargins(0, 0, 0, 0)
+        ll.setSpacing(3)
+        ll.addWidget(self.error_banner)
+        ll.addWidget(forms, 1)
+
+        left = QtWidgets.QSplitter(QtCore.Qt.Vertical)
+        left.addWidget(canvas_box)
+        left.addWidget(lower)
+        left.setStretchFactor(0, 2)
+        left.setStretchFactor(1, 3)
+        left.setChildrenCollapsible(False)
+
+        self.results_panel = _results_panel(self)
+        self.main_split = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
+        self.main_split.addWidget(left)
+        self.main_split.addWidget(self.results_panel)
+        self.main_split.setStretchFactor(0, 5)
+        self.main_split.setStretchFactor(1, 6)
+        self.main_split.setChildrenCollapsible(False)
+        self.left_split, self.forms_split = left, forms
+        # starting proportions (the splitters keep them as the window is resized)
+        self.main_split.setSizes([720, 880])
+        left.setSizes([380, 520])
+        forms.setSizes([440, 280])
+
+        central = QtWidgets.QWidget()
+        v = QtWidgets.QVBoxLayout(central)
+        v.setContentsMargins(6, 4, 6, 4)
+        v.setSpacing(4)
+        v.addWidget(self.caution)
+        v.addWidget(self.main_split, 1)
+        self.setCentralWidget(central)
+
+        sb = self.statusBar()
+        self.status_verdict = QtWidgets.QLabel("—")
+        self.status_modes = QtWidgets.QLabel("")
+        self.status_time = QtWidgets.QLabel("")
+        self.status_units = QtWidgets.QLabel("")
+        for w in (self.status_verdict, self.status_modes, self.status_time, self.status_units):
+            sb.addPermanentWidget(w)
+        self.status_verdict.setToolTip("Screening verdict of the model now showing")
+        self.status_modes.setToolTip("Number of natural modes computed")
+        self.status_time.setToolTip("Time of the last solve (modes, screening and forced response)")
+
+    # ------------------------------------------------------------ actions
+    def _act(self, text, slot, shortcut=None, tip="", icon=None):
+        a = QtGui.QAction(text, self)
+        if shortcut is not None:
+            a.setShortcut(QtGui.QKeySequence(shortcut))
+        if icon is not None:
+            a.setIcon(self.style().standardIcon(icon))
+        full = tip or text.rstrip("…")
+        if shortcut is not None:
+            full += f" ({a.shortcut().toString(QtGui.QKeySequence.NativeText)})"
+        a.setToolTip(full)
+        a.setStatusTip(full)
+        a.triggered.connect(lambda _=False: slot())
+        return a
+
+    def _build_actions(self):
+        S = QtWidgets.QStyle.StandardPixmap
+        K = QtGui.QKeySequence.StandardKey
+        self.act_new = self._act("&New blank train", self.new_blank, K.New, "Start a new train", S.SP_FileIcon)
+        self.act_open = self._act("&Open…", self.open_dialog, K.Open, "Open a project file", S.SP_DialogOpenButton)
+        self.act_save = self._act("&Save", self.save, K.Save, "Save the project (keeps a .bak of the previous file)",
+                                  S.SP_DialogSaveButton)
+        self.act_save_as = self._act("Save &as…", self.save_as, K.SaveAs, "Save under a new name")
+        self.act_sheet = self._act("Export review sheet (PDF)…", self.export_review_sheet, "Ctrl+P",
+                                   "Write the PDF review sheet of this project")
+        self.act_quit = self._act("&Quit", self.close, K.Quit)
+        undo = self.project.undo_stack
+        self.act_undo = undo.createUndoAction(self, "&Undo")
+        self.act_undo.setShortcut(QtGui.QKeySequence(K.Undo))
+        self.act_undo.setIcon(self.style().standardIcon(S.SP_ArrowBack))
+        self.act_redo = undo.createRedoAction(self, "&Redo")
+        self.act_redo.setShortcuts([QtGui.QKeySequence(K.Redo), QtGui.QKeySequence("Ctrl+Y")])
+        self.act_redo.setIcon(self.style().standardIcon(S.SP_ArrowForward))
+        self.act_ins_shaft = self._act("Insert disc + &shaft", lambda: self.insert("shaft"), "Ins",
+                                       "Insert a disc joined by a shaft after the selection")
+        self.act_ins_coupling = self._act("Insert disc + &coupling", lambda: self.insert("coupling"),
+                                          "Ctrl+Alt+C", "Insert a disc joined by a coupling after the selection")
+        self.act_ins_mesh = self._act("Insert disc + &gear mesh", lambda: self.insert("gear_mesh"),
+                                      "Ctrl+Alt+G", "Insert a disc joined by a gear mesh after the selection")
+        self.act_delete = self._act("&Delete selected", self.delete_selected, K.Delete,
+                                    "Delete the selected disc or link", S.SP_TrashIcon)
+        self.act_fit = self._act("&Fit train to view", self._fit, "Ctrl+0", "Show the whole train")
+        self.act_zoom_in = self._act("Zoom &in", lambda: self.canvas.zoom(1.25), K.ZoomIn)
+        self.act_zoom_out = self._act("Zoom &out", lambda: self.canvas.zoom(0.8), K.ZoomOut)
+        self.act_colour = QtGui.QAction("Colour discs by mode amplitude", self)
+        self.act_colour.setCheckable(True)
+        self.act_colour.setChecked(True)
+        self.act_colour.setShortcut(QtGui.QKeySequence("Ctrl+M"))
+        self.act_colour.setToolTip("Colour each disc by its twist in the selected mode (blue +, vermilion −)")
+        self.act_colour.toggled.connect(lambda _on: self._show_mode_colour())
+        self.act_recompute = self._act("Recompute", self.recompute, "F5", "Solve the current model again")
+        self.unit_group = QtGui.QActionGroup(self)
+        self.act_si = QtGui.QAction("SI units", self, checkable=True)
+        self.act_us = QtGui.QAction("US customary units", self, checkable=True)
+        for a in (self.act_si, self.act_us):
+            self.unit_group.addAction(a)
+        (self.act_si if self.system == "SI" else self.act_us).setChecked(True)
+        self.act_si.triggered.connect(lambda: self.set_unit_system("SI"))
+        self.act_us.triggered.connect(lambda: self.set_unit_system("US"))
+        self.act_toggle_units = self._act("Switch unit system", lambda: self.set_unit_system(
+            "US" if self.system == "SI" else "SI"), "Ctrl+U", "Switch the displayed units between SI and US customary")
+
+        mb = self.menuBar()
+        m = mb.addMenu("&File")
+        m.addAction(self.act_new)
+        self.sample_menu = m.addMenu("New from &sample")
+        for p in samples():
+            title = _sample_title(p)
+            a = self.sample_menu.addAction(title)
+            a.setToolTip(f"A copy of {p.name}; Save asks for a new name")
+            a.triggered.connect(lambda _=False, p=p: self.new_from_sample(p))
+        m.addAction(self.act_open)
+        self.recent_menu = m.addMenu("Open &recent")
+        m.addSeparator()
+        m.addAction(self.act_save)
+        m.addAction(self.act_save_as)
+        m.addSeparator()
+        m.addAction(self.act_sheet)
+        self.export_menu = m.addMenu("&Export results")
+        for a in self.results_panel.export_menu_actions(self):
+            if a is None or a.isSeparator():
+                self.export_menu.addSeparator()
+            else:
+                self.export_menu.addAction(a)
+        m.addSeparator()
+        m.addAction(self.act_quit)
+        e = mb.addMenu("&Edit")
+        for a in (self.act_undo, self.act_redo, None, self.act_ins_shaft, self.act_ins_coupling,
+                  self.act_ins_mesh, self.act_delete):
+            e.addSeparator() if a is None else e.addAction(a)
+        v = mb.addMenu("&View")
+        for a in (self.act_fit, self.act_zoom_in, self.act_zoom_out, None, self.act_colour, None,
+                  self.act_si, self.act_us, self.act_toggle_units, None, self.act_recompute):
+            v.addSeparator() if a is None else v.addAction(a)
+        h = mb.addMenu("&Help")
+        h.addAction(self._act("About Twistwise", self.about))
+
+        tb = self.addToolBar("Main")
+        tb.setObjectName("main_toolbar")
+        tb.setMovable(False)
+        tb.setToolButtonStyle(QtCore.Qt.ToolButtonTextBesideIcon)
+        for a in (self.act_new, self.act_open, self.act_save, None, self.act_undo, self.act_redo, None):
+            tb.addSeparator() if a is None else tb.addAction(a)
+        for a, label in ((self.act_ins_shaft, "+ Shaft"), (self.act_ins_coupling, "+ Coupling"),
+                         (self.act_ins_mesh, "+ Gear mesh")):
+            b = QtWidgets.QToolButton()
+            b.setDefaultAction(a)
+            b.setText(label)
+            b.setToolButtonStyle(QtCore.Qt.ToolButtonTextOnly)
+            tb.addWidget(b)
+        tb.addAction(self.act_delete)
+        tb.addSeparator()
+        tb.addAction(self.act_fit)
+        tb.addSeparator()
+        self.unit_box = QtWidgets.QComboBox()
+        self.unit_box.addItems(["SI", "US"])
+        self.unit_box.setCurrentText(self.system)
+        self.unit_box.setToolTip("Unit system of the displayed values (display only: stored text is kept)")
+        self.unit_box.currentTextChanged.connect(self.set_unit_system)
+        tb.addWidget(QtWidgets.QLabel(" Units "))
+        tb.addWidget(self.unit_box)
+        self.canvas.context_actions = [self.act_ins_shaft, self.act_ins_coupling, self.act_ins_mesh, None,
+                                       self.act_delete, None, self.act_fit]
+        self._update_recent_menu()
+
+    def _connect(self):
+        p = self.project
+        p.documentChanged.connect(self.refresh_views)
+        p.trainChanged.connect(lambda train: self.runner.request(train))
+        p.errorChanged.connect(self._show_error)
+        p.fileChanged.connect(self._update_title)
+        self.runner.resultsReady.connect(self._show_results)
+        self.runner.failed.connect(self._solve_failed)
+        self.runner.busyChanged.connect(lambda busy: self.status_time.setText("solving…") if busy else None)
+        self.canvas.selectionMade.connect(self.set_selection)
+        for t in (self.disc_table, self.link_table):
+            t.rowSelected.connect(self.set_selection)
+            t.editRequested.connect(self._edit)
+            t.renameRequested.connect(self._rename)
+        for f in (self.property_form, self.operating_form):
+            f.editRequested.connect(self._edit)
+            f.replaceRequested.connect(self.project.replace)
+        self.property_form.renameRequested.connect(self._rename)
+        self.results_panel.modeSelected.connect(lambda _i: self._show_mode_colour())
+
+    # ------------------------------------------------------------ edits
+    def _edit(self, path, value, label):
+        self.project.set_value(tuple(path), value, label)
+
+    def _rename(self, old, new):
+        new = new.strip()
+        if not new or new == old:
+            self.refresh_views()
+            return
+        if new in edits.disc_ids(self.project.doc) or new == "ground":
+            self.statusBar().showMessage(f"disc id '{new}' is already taken; not renamed", 6000)
+            self.refresh_views()
+            return
+        self.project.replace(edits.rename_disc(self.project.doc, old, new), f"Rename disc '{old}' to '{new}'")
+        if self.selection == ("disc", old):
+            self.set_selection(("disc", new))
+
+    def insert(self, kind):
+        new, sel = edits.insert_after(self.project.doc, self.selection, kind)
+        self.project.replace(new, f"Insert disc + {kind.replace('_', ' ')}")
+        self.set_selection(sel)
+
+    def delete_selected(self):
+        if not self.selection:
+            self.statusBar().showMessage("Select a disc or link to delete", 4000)
+            return
+        new = edits.delete(self.project.doc, self.selection)
+        self.project.replace(new, f"Delete {self.selection[0]} '{self.selection[1]}'")
+        self.set_selection(None)
+
+    def set_selection(self, selection):
+        self.selection = tuple(selection) if selection else None
+        self.canvas.select(self.selection)
+        kind = self.selection[0] if self.selection else None
+        self.disc_table.select_id(self.selection[1] if kind == "disc" else None)
+        self.link_table.select_id(self.selection[1] if kind == "link" else None)
+        if kind == "disc" and self.tabs.currentWidget() is self.link_table:
+            self.tabs.setCurrentWidget(self.disc_table)
+        elif kind == "link" and self.tabs.currentWidget() is self.disc_table:
+            self.tabs.setCurrentWidget(self.link_table)
+        self.property_form.show_element(self.project.doc, self.selection, self.project, self.system)
+
+    # ------------------------------------------------------------ refresh
+    def refresh_views(self):
+        doc, p = self.project.doc, self.project
+        if self.selection and self.selection[1] not in (
+                edits.disc_ids(doc) if self.selection[0] == "disc" else edits.link_ids(doc)):
+            self.selection = None
+        bad = [p.error.element.split(" segment")[0].split(" order")[0]] if p.error and p.error.element else []
+        self.canvas.set_document(doc, self.system, bad)
+        self.canvas.select(self.selection)
+        self.disc_table.refresh(doc, p, self.system)
+        self.link_table.refresh(doc, p, self.system)
+        self.operating_form.refresh(doc, p, self.system)
+        self.property_form.show_element(doc, self.selection, p, self.system)
+        kind = self.selection[0] if self.selection else None
+        self.disc_table.select_id(self.selection[1] if kind == "disc" else None)
+        self.link_table.select_id(self.selection[1] if kind == "link" else None)
+        self._show_mode_colour()
+        self._update_title()
+
+    def _show_error(self, error):
+        if error is None:
+            self.error_banner.hide()
+            return
+        keep = "the results show the last valid model" if self.project.train is not None else "no results yet"
+        self.error_banner.setText(f"⛔  {error}   —   {keep}; fix the value or undo (Ctrl+Z).")
+        self.error_banner.show()
+        if self.project.train is None and hasattr(self.results_panel, "clear_results"):
+            self.results_panel.clear_results(f"The model cannot be solved: {error}")
+            self.status_verdict.setText("no valid model")
+            self.status_verdict.setStyleSheet(theme.verdict_style(None))
+
+    def _show_results(self, res):
+        self.results = res
+        self.results_panel.set_results(res.train, res.modes, res.screening, res.response, res.solve_time_s)
+        s = res.screening
+        if s is None:
+            self.status_verdict.setText("no screening (no operating data)")
+            self.status_verdict.setStyleSheet(theme.verdict_style(None))
+        else:
+            n_fail = len(s.failures)
+            self.status_verdict.setText("PASS" if s.passed else f"FAIL ({n_fail} inside the margin)")
+            self.status_verdict.setStyleSheet(theme.verdict_style(s.passed))
+        n_el = int(res.modes.elastic.sum())
+        self.status_modes.setText(f"{n_el} elastic mode{'s' if n_el != 1 else ''}")
+        self.status_time.setText(f"solved in {res.solve_time_s * 1e3:.1f} ms")
+        if res.note:
+            self.statusBar().showMessage(res.note, 8000)
+        self._show_mode_colour()
+
+    def _solve_failed(self, text):
+        self.statusBar().showMessage(f"Solve failed: {text}", 10000)
+
+    def _current_mode_index(self) -> int:
+        f = getattr(self.results_panel, "current_mode_index", None)
+        if f is not None:
+            return f()
+        return self.results_panel.table.currentRow() if hasattr(self.results_panel, "table") else -1
+
+    def _show_mode_colour(self):
+        res = self.results
+        i = self._current_mode_index()
+        if not self.act_colour.isChecked() or res is None or not 0 <= i < len(res.modes) \
+                or res.modes.rigid_body[i]:
+            self.canvas.set_mode_shape(None)
+            self.mode_note.setText("Disc colour: plain (select an elastic mode in the results to "
+                                   "colour discs by its twist)" if self.act_colour.isChecked() else "")
+            return
+        self.canvas.set_mode_shape(res.modes.shape_dict(i))
+        self.mode_note.setText(f"Disc colour: twist in mode {int(res.modes.number[i])} at "
+                               f"{fmt.hz(res.modes.frequency_hz[i])} Hz (blue +, vermilion −, white: node)")
+
+    def _update_title(self):
+        p = self.project
+        self.setWindowTitle(f"{p.title} — {p.file_name}[*] — {APP_NAME}")
+        self.setWindowModified(p.dirty)
+        self.status_units.setText(f"units: {self.system}")
+
+    def _fit(self):
+        self.canvas._user_zoomed = False
+        self.canvas.fit()
+
+    def recompute(self):
+        if self.project.train is not None:
+            self.runner.request(self.project.train, immediate=True)
+
+    def set_unit_system(self, system):
+        if system not in ("SI", "US"):
+            return
+        self.system = system
+        self.settings.setValue("unit_system", system)
+        for w, on in ((self.act_si, system == "SI"), (self.act_us, system == "US")):
+            w.setChecked(on)
+        self.unit_box.blockSignals(True)
+        self.unit_box.setCurrentText(system)
+        self.unit_box.blockSignals(False)
+        if hasattr(self.results_panel, "set_unit_system"):
+            self.results_panel.set_unit_system(system)
+        self.refresh_views()
+
+    # ------------------------------------------------------------ files
+    def load_document(self, doc, path=None, dirty=False):
+        self.selection = None
+        self.results = None
+        self.canvas._signature = None
+        self.canvas._user_zoomed = False
+        self.project.set_document(doc, path)
+        if dirty:
+            self.project.undo_stack.resetClean()
+        self._update_title()
+
+    def open_path(self, path) -> bool:
+        try:
+            doc = load_document(path)
+        except ModelError as exc:
+            self._message("Cannot open project", f"{path}: {exc}")
+            return False
+        self.load_document(doc, path)
+        self._add_recent(path)
+        self.statusBar().showMessage(f"Opened {path}", 5000)
+        return True
+
+    def open_dialog(self):
+        if not self.confirm_discard():
+            return
+        start = str(self.project.path.parent if self.project.path else SAMPLES_DIR)
+        path, _ = QtWidgets.QFileDialog.getOpenFileName(self, "Open project", start,
+                                                        "Twistwise projects (*.json);;All files (*)")
+        if path:
+            self.open_path(path)
+
+    def new_blank(self):
+        if self.confirm_discard():
+            self.load_document(edits.blank_document())
+
+    def new_from_sample(self, path):
+        if self.confirm_discard():
+            try:
+                self.load_document(load_document(path))
+            except ModelError as exc:
+                self._message("Cannot open sample", str(exc))
+
+    def save(self) -> bool:
+        if self.project.path is None:
+            return self.save_as()
+        return self._save_to(self.project.path)
+
+    def save_as(self) -> bool:
+        start = str(self.project.path or Path.home() / (re.sub(r"[^\w-]+", "_", self.project.title).strip("_")
+                                                        + ".json"))
+        path, _ = QtWidgets.QFileDialog.getSaveFileName(self, "Save project as", start,
+                                                        "Twistwise projects (*.json)")
+        if not path:
+            return False
+        if not path.lower().endswith(".json"):
+            path += ".json"
+        return self._save_to(Path(path))
+
+    def _save_to(self, path) -> bool:
+        try:
+            self.project.save(path)
+        except OSError as exc:
+            self._message("Not saved", f"Could not save to {path}: {exc.strerror or exc}. "
+                                       "Your work is still open; try another folder.")
+            return False
+        self._add_recent(path)
+        self.remove_recovery()
+        self.statusBar().showMessage(f"Saved {path} (previous version kept as {Path(path).name}.bak)", 6000)
+        return True
+
+    def confirm_discard(self) -> bool:
+        """True when it is fine to replace the open document (saved, or the user says so)."""
+        if not self.project.dirty:
+            return True
+        box = QtWidgets.QMessageBox(self)
+        box.setIcon(QtWidgets.QMessageBox.Warning)
+        box.setWindowTitle("Unsaved changes")
+        box.setText(f"'{self.project.title}' has unsaved changes.")
+        box.setInformativeText("Save them before continuing?")
+        box.setStandardButtons(QtWidgets.QMessageBox.Save | QtWidgets.QMessageBox.Discard |
+                               QtWidgets.QMessageBox.Cancel)
+        box.setDefaultButton(QtWidgets.QMessageBox.Save)
+        answer = box.exec()
+        if answer == QtWidgets.QMessageBox.Save:
+            return self.save()
+        return answer == QtWidgets.QMessageBox.Discard
+
+    def closeEvent(self, event):
+        if self.confirm_discard():
+            self.remove_recovery()
+            self.runner.wait(3000)
+            event.accept()
+        else:
+            event.ignore()
+
+    def _message(self, title, text):
+        if QtWidgets.QApplication.platformName() == "offscreen":
+            self.statusBar().showMessage(text, 10000)
+            return
+        QtWidgets.QMessageBox.warning(self, title, text)
+
+    # recent files
+    def recent_files(self) -> list[str]:
+        value = self.settings.value("recent_files", [])
+        if isinstance(value, str):
+            value = [value]
+        return [str(v) for v in (value or [])]
+
+    def _add_recent(self, path):
+        path = str(Path(path).resolve())
+        files = [f for f in self.recent_files() if f != path]
+        self.settings.setValue("recent_files", [path] + files[:MAX_RECENT - 1])
+        self._update_recent_menu()
+
+    def _update_recent_menu(self):
+        self.recent_menu.clear()
+        files = self.recent_files()
+        for i, f in enumerate(files):
+            a = self.recent_menu.addAction(f"&{i + 1}  {Path(f).name}")
+            a.setToolTip(f)
+            a.setStatusTip(f)
+            a.triggered.connect(lambda _=False, f=f: self.confirm_discard() and self.open_path(f))
+        self.recent_menu.setEnabled(bool(files))
+
+    # autosave and crash recovery
+    def write_recovery(self) -> None:
+        """Copy unsaved work to the recovery folder (offered back after a crash)."""
+        if not self.project.dirty:
+            return
+        data = {"format": "twistwise-recovery", "pid": os.getpid(),
+                "saved_at": datetime.datetime.now().isoformat(timespec="seconds"),
+                "original": str(self.project.path) if self.project.path else None,
+                "document": self.project.doc}
+        try:
+            self._recovery_path.parent.mkdir(parents=True, exist_ok=True)
+            tmp = self._recovery_path.with_suffix(".tmp")
+            tmp.write_text(json.dumps(data, ensure_ascii=False), encoding="utf-8")
+            os.replace(tmp, self._recovery_path)
+        except OSError as exc:
+            self.statusBar().showMessage(f"Autosave failed: {exc}", 6000)
+
+    def remove_recovery(self) -> None:
+        try:
+            self._recovery_path.unlink()
+        except OSError:
+            pass
+
+    def offer_recovery(self, ask=None) -> bool:
+        """Offer back unsaved work left by a program that did not close normally.
+        ``ask(text) -> bool`` replaces the dialog (tests)."""
+        for f in sorted(recovery_dir().glob("unsaved-*.json")):
+            try:
+                data = json.loads(f.read_text(encoding="utf-8"))
+            except (OSError, ValueError):
+                continue
+            if _process_alive(data.get("pid")) and data.get("pid") != os.getpid():
+                continue  # another window is still running and owns it
+            doc = data.get("document")
+            if not isinstance(doc, dict):
+                f.unlink(missing_ok=True)
+                continue
+            title = doc.get("title") or "Untitled train"
+            text = (f"Twistwise did not close normally. Unsaved work on '{title}' "
+                    f"({data.get('original') or 'never saved'}) from {data.get('saved_at')} was kept.\n\n"
+                    "Restore it?")
+            if ask is None:
+                answer = QtWidgets.QMessageBox.question(self, "Recover unsaved work", text) == \
+                    QtWidgets.QMessageBox.Yes
+            else:
+                answer = ask(text)
+            f.unlink(missing_ok=True)
+            if answer:
+                self.load_document(doc, data.get("original"), dirty=True)
+                self.write_recovery()
+                return True
+        return False
+
+    # review sheet
+    def export_review_sheet(self):
+        try:
+            from app.report import write_review_sheet
+        except Exception as exc:
+            self._message("Review sheet not available", f"The review sheet module cannot be loaded ({exc}).")
+            return
+        if self.project.error is not None:
+            self._message("Model has an error", f"Fix the model first: {self.project.error}")
+            return
+        if self.project.path is None or self.project.dirty:
+            answer = QtWidgets.QMessageBox.question(
+                self, "Save first", "The review sheet names the project file and its contents; save the "
+                "project now?", QtWidgets.QMessageBox.Save | QtWidgets.QMessageBox.Cancel)
+            if answer != QtWidgets.QMessageBox.Save or not self.save():
+                return
+        dlg = _SheetDialog(self, self.settings, self.system)
+        if dlg.exec() != QtWidgets.QDialog.Accepted:
+            return
+        default = self.project.path.with_suffix(".pdf")
+        out, _ = QtWidgets.QFileDialog.getSaveFileName(self, "Export review sheet", str(default), "PDF (*.pdf)")
+        if not out:
+            return
+        try:
+            QtWidgets.QApplication.setOverrideCursor(QtCore.Qt.WaitCursor)
+            write_review_sheet(self.project.doc, str(self.project.path), out, **dlg.values())
+        except ModelError as exc:
+            self._message("Review sheet not written", str(exc))
+            return
+        except Exception as exc:
+            self._message("Review sheet not written", f"{type(exc).__name__}: {exc}")
+            return
+        finally:
+            QtWidgets.QApplication.restoreOverrideCursor()
+        self.statusBar().showMessage(f"Review sheet written to {out}", 8000)
+
+    def about(self):
+        QtWidgets.QMessageBox.about(self, "About Twistwise",
+                                    "<b>Twistwise</b> — torsional vibration screening of drive trains.<br><br>"
+                                    + CAUTION)
+
+
+class _SheetDialog(QtWidgets.QDialog):
+    def __init__(self, parent, settings, system):
+        super().__init__(parent)
+        self.setWindowTitle("Review sheet")
+        self.settings = settings
+        form = QtWidgets.QFormLayout(self)
+        self.author = QtWidgets.QLineEdit(str(settings.value("sheet_author", "")))
+        self.author.setToolTip("Name printed as the author of the calculation")
+        self.revision = QtWidgets.QLineEdit("")
+        self.revision.setToolTip("Revision mark of this issue of the sheet, e.g. 'A' or '0'")
+        self.paper = QtWidgets.QComboBox()
+        self.paper.addItems(["a4", "letter"])
+        self.paper.setCurrentText(str(settings.value("sheet_paper", "a4")))
+        self.units = QtWidgets.QComboBox()
+        self.units.addItems(["SI", "US"])
+        self.units.setCurrentText(system)
+        form.addRow("Author", self.author)
+        form.addRow("Revision", self.revision)
+        form.addRow("Paper", self.paper)
+        form.addRow("Units of the model table", self.units)
+        buttons = QtWidgets.QDialogButtonBox(QtWidgets.QDialogButtonBox.Ok | QtWidgets.QDialogButtonBox.Cancel)
+        buttons.accepted.connect(self.accept)
+        buttons.rejected.connect(self.reject)
+        form.addRow(buttons)
+
+    def values(self):
+        self.settings.setValue("sheet_author", self.author.text())
+        self.settings.setValue("sheet_paper", self.paper.currentText())
+        return {"paper": self.paper.currentText(), "author": self.author.text(),
+                "revision": self.revision.text(), "unit_system": self.units.currentText()}
+
+
+def _sample_title(path: Path) -> str:
+    try:
+        return str(json.loads(path.read_text(encoding="utf-8")).get("title") or path.stem)
+    except (OSError, ValueError):
+        return path.stem
+
+
+def _process_alive(pid) -> bool:
+    if not isinstance(pid, int) or pid <= 0:
+        return False
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:
+        return True
+    return True
+
+
+# ----------------------------------------------------------------- entry points
+def application(argv=None) -> QtWidgets.QApplication:
+    app = QtWidgets.QApplication.instance()
+    if app is None:
+        QtWidgets.QApplication.setHighDpiScaleFactorRoundingPolicy(
+            QtCore.Qt.HighDpiScaleFactorRoundingPolicy.PassThrough)
+        app = QtWidgets.QApplication(argv or [sys.argv[0]])
+        app.setApplicationName(APP_NAME)
+        app.setOrganizationName(APP_NAME)
+        app.setStyle("Fusion")
+        app.setPalette(theme.application_palette())
+        app.setFont(theme.font(theme.BASE_POINT_SIZE))
+    theme.configure_pyqtgraph()
+    return app
+
+
+def run_gui(path_or_none=None) -> int:
+    """Open the main window on ``path_or_none`` (or the bundled compressor-train sample)."""
+    if path_or_none is not None:
+        try:
+            doc = load_document(path_or_none)
+        except ModelError as exc:
+            print(f"twistwise: {path_or_none}: {exc}", file=sys.stderr)
+            return 2
+    app = application()
+    win = MainWindow()
+    if path_or_none is None:
+        win.load_document(load_document(DEFAULT_SAMPLE))
+        win.statusBar().showMessage(f"Sample project {DEFAULT_SAMPLE.name}: Save asks for a file name "
+                                    "of your own", 8000)
+    else:
+        win.load_document(doc, path_or_none)
+        win._add_recent(path_or_none)
+    win.show()
+    QtCore.QTimer.singleShot(0, win.offer_recovery)
+    return app.exec()
+
+
+def _parse_size(text: str) -> tuple[int, int]:
+    m = re.fullmatch(r"\s*(\d+)\s*[xX×]\s*(\d+)\s*", text or "")
+    if not m:
+        raise InputError(f"--size must be WIDTHxHEIGHT in pixels, e.g. 1600x1000, got {text!r}")
+    w, h = int(m.group(1)), int(m.group(2))
+    if not (320 <= w <= 8000 and 240 <= h <= 8000):
+        raise InputError(f"--size {w}x{h} is outside 320x240 ... 8000x8000")
+    return w, h
+
+
+def render_window(doc, path, size, system: str = "SI", mode_number: int | None = 1) -> QtGui.QImage:
+    """The main window with the project's results, rendered offscreen to an image."""
+    application()
+    settings = QtCore.QSettings(str(Path(QtCore.QDir.tempPath()) / "twistwise-screenshot.ini"),
+                                QtCore.QSettings.IniFormat)
+    settings.setValue("unit_system", system)
+    win = MainWindow(settings=settings, autosave=False)
+    win.resize(*size)
+    win.load_document(doc, path)
+    win.show()
+    QtWidgets.QApplication.processEvents()
+    if win.project.train is not None:
+        res = win.runner.compute_now(win.project.train)
+        if mode_number is not None:
+            idx = [i for i in range(len(res.modes)) if int(res.modes.number[i]) == mode_number]
+            if idx and hasattr(win.results_panel, "select_mode"):
+                win.results_panel.select_mode(idx[0])
+                win._show_mode_colour()
+    for _ in range(3):
+        QtWidgets.QApplication.processEvents()
+    win._fit()
+    QtWidgets.QApplication.processEvents()
+    image = win.grab().toImage()
+    win.project.undo_stack.setClean()
+    win.close()
+    win.deleteLater()
+    return image
+
+
+def cmd_screenshot(args) -> int:
+    """``twistwise screenshot FILE -o PNG [--size WxH]``: exit 0, or 2 with one line on bad input."""
+    size = _parse_size(args.size)
+    out = Path(args.output)
+    if out.parent and not out.parent.exists():
+        raise InputError(f"output folder {out.parent} does not exist")
+    doc = load_document(args.file)  # ProjectFileError -> one line, exit 2 (app.cli)
+    from core.project import build_train
+    build_train(doc)  # a model that does not build is bad input here too
+    if not os.environ.get("DISPLAY") and not os.environ.get("WAYLAND_DISPLAY"):
+        os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
+    image = render_window(doc, args.file, size, getattr(args, "units", "SI") or "SI")
+    if image.isNull() or not image.save(str(out), "PNG"):
+        raise InputError(f"could not write {out}")
+    print(f"wrote {out} ({size[0]}x{size[1]})")
+    return 0
+
+
+__all__ = ["MainWindow", "run_gui", "cmd_screenshot", "render_window", "ProjectFileError"]
