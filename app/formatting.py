@@ -34,3 +34,28 @@ def percent(fraction: float) -> str:
 
 def order(value: float | None) -> str:
     return "fixed" if value is None else f"{value:g}"
+
+
+def _sig(value: float | None, digits: int = 3) -> str:
+    if value is None or not math.isfinite(value):
+        return "—"
+    if value == 0:
+        return "0"
+    if abs(value) >= 10 ** digits:
+        return f"{value:.0f}"
+    return f"{value:.{digits}g}"
+
+
+def torque_knm(value_nm: float | None) -> str:
+    """Vibratory torque amplitude in kN*m, three significant digits (forced response)."""
+    return _sig(None if value_nm is None else value_nm / 1e3)
+
+
+def stress_mpa(value_pa: float | None) -> str:
+    """Vibratory shear stress amplitude in MPa, three significant digits."""
+    return _sig(None if value_pa is None else value_pa / 1e6)
+
+
+def power_kw(value_w: float | None) -> str:
+    """Dissipated power in kW, three significant digits."""
+    return _sig(None if value_w is None else value_w / 1e3)
