@@ -8,152 +8,298 @@ tree contraction and its application", FOCS 1985).  The pivots give
 
 * the inertia of K(omega): by Sylvester's law of inertia and Haynsworth's
   inertia additivity, the number of negative pivots is the number of negative
-  eigenvalues of K(omega) — the Sturm count used to bracket natural
+  eigenvalues of K(omega) -- the Sturm count used to bracket natural
   frequencies (Wittrick & Williams 1971);
 * the determinant (product of pivots), for root polishing;
 * linear solves, for mode shapes by inverse iteration.
+
+Speed: the plan is built with numpy (no Python loop over nodes) and relabels
+nodes and edge slots in elimination order, so every round reads its pivots and
+off-diagonals as contiguous slices.  A compress round joins the two neighbours
+of a chain node by a new edge slot; every slot is consumed exactly once.
+Neighbour updates are plain indexed subtractions where a round's targets are
+distinct (always for the child side, see :func:`build_schedule`), otherwise a
+sparse summation matrix; ``np.add.at`` is avoided.
 """
 from __future__ import annotations
 
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.sparse as sp
+from scipy.sparse.csgraph import depth_first_order
 
 
 @dataclass
 class Round:
     kind: str  # "rake" or "compress"
-    nodes: np.ndarray  # eliminated nodes
-    e1: np.ndarray  # edge to the (first) neighbour
-    n1: np.ndarray  # first neighbour
-    e2: np.ndarray | None = None  # compress: edge to the second neighbour
+    nodes: slice  # eliminated nodes (elimination order labels)
+    e1: slice  # slots of the edges to the first neighbour
+    n1: np.ndarray  # first neighbour (elimination order label)
+    e2: slice | None = None  # compress: slots of the edges to the second neighbour
     n2: np.ndarray | None = None
-    # scatter-add plan for diagonal updates of the neighbours
-    targets: np.ndarray | None = None
-    order: np.ndarray | None = None
-    starts: np.ndarray | None = None
+    new: np.ndarray | None = None  # compress: slot of the new edge n1 - n2
+    # n1 targets repeat (several leaves / chain nodes on one node): summation plan
+    n1_unique: np.ndarray | None = None
+    n1_sum: sp.csr_matrix | None = None
 
 
 @dataclass
 class Schedule:
     n_nodes: int
     rounds: list
-    root: int
+    root: int  # original label of the last node
+    order: np.ndarray  # original node label at each elimination position
+    slot_of_edge: np.ndarray  # elimination slot of every original edge
+    n_slots: int
+
+    @property
+    def position(self) -> np.ndarray:
+        """Elimination position of every original node."""
+        pos = np.empty(self.n_nodes, np.int64)
+        pos[self.order] = np.arange(self.n_nodes)
+        return pos
 
 
-def _scatter_plan(targets: np.ndarray):
-    order = np.argsort(targets, kind="stable")
-    t = targets[order]
-    starts = np.flatnonzero(np.r_[True, t[1:] != t[:-1]])
-    return t[starts], order, starts
+def _preorder(n_nodes, ea, eb):
+    if n_nodes <= 1 or not len(ea):
+        return np.arange(n_nodes)
+    g = sp.coo_matrix((np.ones(len(ea)), (ea, eb)), shape=(n_nodes, n_nodes)).tocsr()
+    order = depth_first_order(g, 0, directed=False, return_predecessors=False)
+    pre = np.empty(n_nodes, np.int64)
+    pre[order] = np.arange(len(order))
+    return pre
 
 
 def build_schedule(n_nodes: int, edges_a: np.ndarray, edges_b: np.ndarray) -> Schedule:
-    """Plan the elimination order for a tree given as edge lists."""
-    adj: list[dict[int, int]] = [dict() for _ in range(n_nodes)]
-    for e, (a, b) in enumerate(zip(edges_a.tolist(), edges_b.tolist())):
-        adj[a][b] = e
-        adj[b][a] = e
-    active = set(range(n_nodes))
-    # fixed pseudo-random priorities pick independent chain nodes deterministically
+    """Plan the elimination order for a tree given as edge lists (numpy, O(n log n)).
+
+    Orientation: with a depth-first preorder, every edge of a partly contracted
+    tree still joins an ancestor to a descendant, so the second neighbour of a
+    compressed node (the one later in preorder) is its child, which has no other
+    parent: the second-neighbour updates of a round never collide.
+    """
+    ea = np.asarray(edges_a, np.int64)
+    eb = np.asarray(edges_b, np.int64)
+    n_edges = len(ea)
+    pre = _preorder(n_nodes, ea, eb)
     priority = (np.arange(n_nodes, dtype=np.uint64) * np.uint64(2654435761)) % np.uint64(2 ** 32)
-    priority = priority.tolist()
+    A, B, S = ea.copy(), eb.copy(), np.arange(n_edges, dtype=np.int64)
+    alive = np.ones(n_nodes, bool)
+    n_alive = n_nodes
+    next_slot = n_edges
+    raw = []  # (kind, nodes, s1, n1, s2, n2, new)
+    while n_alive > 1:
+        deg = np.bincount(A, minlength=n_nodes) + np.bincount(B, minlength=n_nodes)
+        la, lb = deg[A] == 1, deg[B] == 1
+        la &= ~lb  # the last edge: rake only its b end
+        leaf = np.r_[A[la], B[lb]]
+        if len(leaf):
+            raw.append(("rake", leaf, np.r_[S[la], S[lb]], np.r_[B[la], A[lb]], None, None, None))
+            keep = ~(la | lb)
+            A, B, S = A[keep], B[keep], S[keep]
+            alive[leaf] = False
+            n_alive -= len(leaf)
+        if n_alive <= 2:
+            continue
+        deg = np.bincount(A, minlength=n_nodes) + np.bincount(B, minlength=n_nodes)
+        # incidences (node, neighbour, slot, edge index) of degree-2 nodes
+        inc_v = np.r_[A, B]
+        inc_u = np.r_[B, A]
+        inc_s = np.r_[S, S]
+        inc_e = np.r_[np.arange(len(A)), np.arange(len(A))]
+        two = deg[inc_v] == 2
+        inc_v, inc_u, inc_s, inc_e = inc_v[two], inc_u[two], inc_s[two], inc_e[two]
+        beaten = (deg[inc_u] == 2) & (priority[inc_u] > priority[inc_v])
+        lost = np.zeros(n_nodes, bool)
+        lost[inc_v[beaten]] = True
+        chosen_inc = ~lost[inc_v]
+        if not chosen_inc.any():
+            continue
+        inc_v, inc_u, inc_s, inc_e = (inc_v[chosen_inc], inc_u[chosen_inc], inc_s[chosen_inc],
+                                      inc_e[chosen_inc])
+        o = np.lexsort((pre[inc_u], inc_v))  # per node: earlier-preorder neighbour first
+        inc_v, inc_u, inc_s, inc_e = inc_v[o], inc_u[o], inc_s[o], inc_e[o]
+        v = inc_v[0::2]
+        n1, n2 = inc_u[0::2], inc_u[1::2]
+        s1, s2 = inc_s[0::2], inc_s[1::2]
+        new = np.arange(next_slot, next_slot + len(v))
+        next_slot += len(v)
+        raw.append(("compress", v, s1, n1, s2, n2, new))
+        keep = np.ones(len(A), bool)
+        keep[inc_e] = False
+        A, B, S = np.r_[A[keep], n1], np.r_[B[keep], n2], np.r_[S[keep], new]
+        alive[v] = False
+        n_alive -= len(v)
+    root = int(np.flatnonzero(alive)[0]) if n_nodes else 0
+    order = np.r_[np.concatenate([r[1] for r in raw]) if raw else np.zeros(0, np.int64), root]
+    order = order.astype(np.int64)
+    pos = np.empty(n_nodes, np.int64)
+    pos[order] = np.arange(n_nodes)
+    consumed = [s for r in raw for s in ((r[2],) if r[0] == "rake" else (r[2], r[4]))]
+    consumed = np.concatenate(consumed) if consumed else np.zeros(0, np.int64)
+    slot_pos = np.empty(next_slot, np.int64)
+    slot_pos[consumed] = np.arange(len(consumed))
     rounds = []
-    while len(active) > 1:
-        leaves = [v for v in active if len(adj[v]) == 1]
-        if len(active) == 2:
-            leaves = leaves[:1]
-        if leaves:
-            par = [next(iter(adj[v])) for v in leaves]
-            edg = [adj[v][p] for v, p in zip(leaves, par)]
-            for v, p in zip(leaves, par):
-                del adj[p][v]
-                adj[v].clear()
-                active.discard(v)
-            r = Round("rake", np.array(leaves), np.array(edg), np.array(par))
-            r.targets, r.order, r.starts = _scatter_plan(r.n1)
-            rounds.append(r)
-        if len(active) <= 2:
-            continue
-        chosen = []
-        for v in active:
-            nb = adj[v]
-            if len(nb) != 2:
-                continue
-            pv = priority[v]
-            if all(len(adj[u]) != 2 or priority[u] < pv for u in nb):
-                chosen.append(v)
-        if not chosen:
-            continue
-        V, E1, E2, A, B = [], [], [], [], []
-        for v in chosen:
-            (a, ea), (b, eb) = adj[v].items()
-            V.append(v); A.append(a); B.append(b); E1.append(ea); E2.append(eb)
-            del adj[a][v]
-            del adj[b][v]
-            adj[a][b] = ea  # edge slot ea now joins a and b
-            adj[b][a] = ea
-            adj[v].clear()
-            active.discard(v)
-        r = Round("compress", np.array(V), np.array(E1), np.array(A), np.array(E2), np.array(B))
-        r.targets, r.order, r.starts = _scatter_plan(np.r_[r.n1, r.n2])
+    i_node = i_slot = 0
+    for kind, nodes, s1, n1, s2, n2, new in raw:
+        k = len(nodes)
+        nsl = slice(i_node, i_node + k)
+        i_node += k
+        e1 = slice(i_slot, i_slot + k)
+        i_slot += k
+        r = Round(kind, nsl, e1, pos[n1])
+        if kind == "compress":
+            r.e2 = slice(i_slot, i_slot + k)
+            i_slot += k
+            r.n2 = pos[n2]
+            r.new = slot_pos[new]
+        u, inv = np.unique(r.n1, return_inverse=True)
+        if len(u) < k:
+            r.n1_unique = u
+            r.n1_sum = sp.csr_matrix((np.ones(k), (inv.ravel(), np.arange(k))), shape=(len(u), k))
         rounds.append(r)
-    root = next(iter(active))
-    return Schedule(n_nodes, rounds, root)
+    return Schedule(n_nodes, rounds, root, order, slot_pos[:n_edges], next_slot)
+
+
+def _sub_n1(D, r, upd):
+    if r.n1_sum is None:
+        D[r.n1] -= upd
+    else:
+        D[r.n1_unique] -= r.n1_sum @ upd
 
 
 def _safe(d, tiny):
     return np.where(d == 0.0, tiny, d)
 
 
-def eliminate(schedule: Schedule, D: np.ndarray, W: np.ndarray, tiny: float, keep: bool = False):
-    """Eliminate in place.  D: (n_nodes, m) diagonal, W: (n_edges, m) off-diagonal.
+def permute(schedule: Schedule, D: np.ndarray, W: np.ndarray):
+    """Diagonal and off-diagonal from original node / edge order to elimination order."""
+    Dp = D[schedule.order]
+    Wp = np.empty((schedule.n_slots,) + D.shape[1:], dtype=np.result_type(D, W))
+    if len(schedule.slot_of_edge):
+        Wp[schedule.slot_of_edge] = W
+    return Dp, Wp
 
-    Returns (negative pivot count (m,), log|det| (m,), factors or None).
+
+def factor(schedule: Schedule, D: np.ndarray, W: np.ndarray, tiny: float, logdet: bool = True,
+           keep: bool = False, squared: bool = False):
+    """Eliminate in elimination order (arrays from :func:`permute`), overwriting D and W.
+
+    ``squared``: W holds the squares of the off-diagonals (a count only).
+
+    Returns (negative pivot count (m,), log|det| (m,) or None, factors or None).
+    The count is only meaningful for real (Hermitian) K.
+
+    A zero pivot is replaced by ``tiny`` (as in LAPACK's bisection, dstebz)
+    when the determinant or the factors are wanted.  For a count alone the
+    IEEE infinities of 1/0 give the same count as that replacement, so the
+    check is skipped; a column that met 0 * inf (NaN at the last pivot) is
+    returned with count -1, to be redone with ``logdet=True``.
+    """
+    if not (logdet or keep or np.iscomplexobj(D)):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            neg = _count(schedule, D, W if squared else W * W)
+        bad = np.isnan(D[-1])
+        if bad.any():
+            neg[bad] = -1  # the caller redoes these columns with logdet=True
+        return neg, None, None
+    m = D.shape[1:]
+    real = not np.iscomplexobj(D)
+    neg = np.zeros(m, np.int64)
+    ld = np.zeros(m) if logdet else None
+    factors = [] if keep else None
+    for r in schedule.rounds:
+        d = D[r.nodes]
+        if (d == 0.0).any():
+            d = _safe(d, tiny)
+        if real:
+            neg += np.count_nonzero(d < 0, axis=0)
+        if logdet:
+            ld += np.log(np.abs(d)).sum(axis=0)
+        inv = 1.0 / d
+        w1 = W[r.e1]
+        w1i = w1 * inv
+        if r.kind == "rake":
+            _sub_n1(D, r, w1 * w1i)
+            if keep:
+                factors.append((inv, w1, None))
+        else:
+            w2 = W[r.e2]
+            _sub_n1(D, r, w1 * w1i)
+            D[r.n2] -= w2 * w2 * inv
+            W[r.new] = -w1i * w2
+            if keep:
+                factors.append((inv, w1, w2))
+    d = D[-1]
+    if d.size and (d == 0.0).any():
+        d = _safe(d, tiny)
+    if real:
+        neg += d < 0
+    if logdet:
+        ld += np.log(np.abs(d))
+    if keep:
+        factors.append(1.0 / d)
+    return neg, ld, factors
+
+
+def _count(schedule: Schedule, D: np.ndarray, Q: np.ndarray) -> np.ndarray:
+    """Negative pivots only: the hot loop of bracketing, with reused work buffers.
+
+    ``Q`` holds squared off-diagonals: the pivots depend on w^2 only, and a
+    compress round's new edge is then simply (w1^2 / d) (w2^2 / d), the
+    product of the two diagonal updates.
     """
     m = D.shape[1]
     neg = np.zeros(m, np.int64)
-    logdet = np.zeros(m)
-    factors = [] if keep else None
+    big = max((r.nodes.stop - r.nodes.start for r in schedule.rounds), default=0)
+    inv_b, a_b, b_b = (np.empty((big, m)) for _ in range(3))
+    sign_b = np.empty((big, m), bool)
     for r in schedule.rounds:
-        d = _safe(D[r.nodes], tiny)
-        neg += np.count_nonzero(d < 0, axis=0)
-        logdet += np.log(np.abs(d)).sum(axis=0)
-        w1 = W[r.e1]
-        if r.kind == "rake":
-            upd = w1 * w1 / d
-            if keep:
-                factors.append((d, w1, None))
-        else:
-            w2 = W[r.e2]
-            upd = np.concatenate([w1 * w1 / d, w2 * w2 / d])
-            W[r.e1] = -w1 * w2 / d
-            if keep:
-                factors.append((d, w1, w2))
-        D[r.targets] -= np.add.reduceat(upd[r.order], r.starts, axis=0)
-    d = _safe(D[schedule.root], tiny)
-    neg += d < 0
-    logdet += np.log(np.abs(d))
-    if keep:
-        factors.append(d)
-    return neg, logdet, factors
+        k = r.nodes.stop - r.nodes.start
+        d = D[r.nodes]
+        neg += np.count_nonzero(np.less(d, 0.0, out=sign_b[:k]), axis=0)
+        inv = np.divide(1.0, d, out=inv_b[:k])
+        u1 = np.multiply(Q[r.e1], inv, out=a_b[:k])
+        _sub_n1(D, r, u1)
+        if r.kind == "compress":
+            u2 = np.multiply(Q[r.e2], inv, out=b_b[:k])
+            D[r.n2] -= u2
+            Q[r.new] = np.multiply(u1, u2, out=u2)
+    neg += D[-1] < 0
+    return neg
+
+
+def solve_factored(schedule: Schedule, factors, b: np.ndarray) -> np.ndarray:
+    """Solve K x = b in elimination order with factors from :func:`factor` (b is overwritten)."""
+    for r, (inv, w1, w2) in zip(schedule.rounds, factors[:-1]):
+        bv = b[r.nodes] * inv
+        _sub_n1(b, r, w1 * bv)
+        if w2 is not None:
+            b[r.n2] -= w2 * bv
+    x = b
+    x[-1] = b[-1] * factors[-1]
+    for r, (inv, w1, w2) in zip(reversed(schedule.rounds), reversed(factors[:-1])):
+        acc = x[r.nodes] - w1 * x[r.n1]
+        if w2 is not None:
+            acc -= w2 * x[r.n2]
+        x[r.nodes] = acc * inv
+    return x
+
+
+def eliminate(schedule: Schedule, D: np.ndarray, W: np.ndarray, tiny: float, keep: bool = False):
+    """Eliminate K given in original order.  D: (n_nodes, m) diagonal, W: (n_edges, m) off-diagonal.
+
+    Returns (negative pivot count (m,), log|det| (m,), factors or None).
+    """
+    Dp, Wp = permute(schedule, D, W)
+    return factor(schedule, Dp, Wp, tiny, True, keep)
 
 
 def solve(schedule: Schedule, factors, rhs: np.ndarray) -> np.ndarray:
-    """Solve K x = rhs (shape (n_nodes, m)) with factors from :func:`eliminate`."""
-    b = rhs.copy()
-    for r, (d, w1, w2) in zip(schedule.rounds, factors[:-1]):
-        bv = b[r.nodes] / d
-        if r.kind == "rake":
-            np.subtract.at(b, r.n1, w1 * bv)
-        else:
-            np.subtract.at(b, r.n1, w1 * bv)
-            np.subtract.at(b, r.n2, w2 * bv)
-    x = np.zeros_like(b)
-    x[schedule.root] = b[schedule.root] / factors[-1]
-    for r, (d, w1, w2) in zip(reversed(schedule.rounds), reversed(factors[:-1])):
-        acc = b[r.nodes] - w1 * x[r.n1]
-        if w2 is not None:
-            acc -= w2 * x[r.n2]
-        x[r.nodes] = acc / d
-    return x
+    """Solve K x = rhs (shape (n_nodes, m), original order) with factors from :func:`eliminate`."""
+    x = solve_factored(schedule, factors, rhs[schedule.order].astype(
+        np.result_type(rhs, factors[-1]), copy=True))
+    out = np.empty_like(x)
+    out[schedule.order] = x
+    return out

@@ -23,59 +23,153 @@ Units: SI inside (rad/s, kg*m^2, N*m/rad); frequencies are reported in Hz.
 """
 from __future__ import annotations
 
+import os
 import time
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
+import scipy.sparse as sp
 
 from .assembly import Assembly, assemble, clamped_count, member_stiffness
-from .elimination import build_schedule, eliminate, solve
+from .elimination import build_schedule, factor, solve_factored
 from .model import Train
 
 TWO_PI = 2.0 * np.pi
+_WORKERS = min(os.cpu_count() or 1, 4)
+_POOL: ThreadPoolExecutor | None = None
+
+
+def _map(fn, items):
+    """Map over column pieces on a few threads (independent trial frequencies)."""
+    global _POOL
+    if len(items) < 2 or _WORKERS < 2:
+        return [fn(i) for i in items]
+    if _POOL is None:
+        _POOL = ThreadPoolExecutor(_WORKERS, thread_name_prefix="twistwise-solver")
+    return list(_POOL.map(fn, items))
 
 
 # ----------------------------------------------------------------- counting
 class DynamicSystem:
-    """The assembled train with its elimination plan, evaluated at any omega."""
+    """The assembled train with its elimination plan, evaluated at any omega.
+
+    Arrays are kept in elimination order (:func:`core.elimination.permute`):
+    node inertia, the static stiffness diagonal and off-diagonal of a lumped
+    model, and a sparse incidence matrix that sums member end stiffnesses onto
+    the diagonal when distributed members make them frequency dependent.
+    """
 
     def __init__(self, train: Train):
         self.train = train
         self.asm: Assembly = assemble(train)
         a = self.asm
         self.schedule = build_schedule(a.n_nodes, a.edges_a, a.edges_b)
+        sch = self.schedule
         mem = a.members
         self._tree = mem.b >= 0
         scale = max(float(mem.k.max()) if len(mem.k) else 1.0, 1e-300)
         self.tiny = 1e-14 * scale
-        self._ground_nodes = mem.a[~self._tree]
-        self._tree_a = mem.a[self._tree]
-        self._tree_b = mem.b[self._tree]
         self.n_dof = a.n_nodes
-
-    def matrices(self, omega):
-        """Diagonal (n_nodes, m) and off-diagonal (n_edges, m) of K(omega)."""
-        w = np.atleast_1d(np.asarray(omega, float))
-        a = self.asm
-        kaa, kab = member_stiffness(a.members, w)
-        D = -a.node_inertia[:, None] * (w * w)[None, :]
-        D = D + np.zeros((a.n_nodes, w.size))
-        np.add.at(D, a.members.a, kaa)
+        self.pos = sch.position  # elimination position of every node
+        self.J = a.node_inertia[sch.order]
+        pa = self.pos[mem.a]
+        pb = np.where(self._tree, self.pos[np.maximum(mem.b, 0)], 0)
         t = self._tree
-        np.add.at(D, a.members.b[t], kaa[t])
-        W = kab[t].copy()
-        return D, W
+        rows = np.r_[pa, pb[t]]
+        cols = np.r_[np.arange(len(mem.a)), np.flatnonzero(t)]
+        # diagonal = incidence @ K_aa (K_aa = K_bb for a uniform member)
+        self._incidence = sp.csr_matrix((np.ones(len(rows)), (rows, cols)),
+                                        shape=(a.n_nodes, len(mem.a)))
+        self._slot = sch.slot_of_edge[a.member_edge[t]]
+        self._edge_slot = np.empty(0, np.int64)
+        self._pa, self._pb = pa, pb
+        if not a.distributed:
+            self._Kd = self._incidence @ mem.k
+            self._Wd = -mem.k[t]
+        # points per elimination pass: bounds the working arrays to a few MB
+        self.chunk = int(np.clip(2 ** 21 // max(a.n_nodes, 1), 16, 1024))
 
-    def evaluate(self, omega, keep: bool = False):
-        """Count of natural frequencies strictly below each omega, log|det K|, factors."""
+    def _arrays(self, w, squared: bool = False):
+        """Permuted diagonal (n, m) and slot array (n_slots, m) of K(omega)
+        (squared off-diagonals with ``squared``)."""
+        sch = self.schedule
+        Wp = np.empty((sch.n_slots, w.size))
+        if self.asm.distributed:
+            kaa, kab = member_stiffness(self.asm.members, w)
+            D = self._incidence @ kaa
+            D -= self.J[:, None] * (w * w)[None, :]
+            kab = kab[self._tree]
+            Wp[self._slot] = kab * kab if squared else kab
+        else:
+            D = np.multiply.outer(self.J, -(w * w))
+            D += self._Kd[:, None]
+            Wp[self._slot] = (self._Wd * self._Wd if squared else self._Wd)[:, None]
+        return D, Wp
+
+    def _pieces(self, m: int, keep: bool = False) -> list[slice]:
+        """Column pieces: at most ``chunk`` trial points each, and one per worker
+        thread when the work is large enough to share (numpy releases the GIL)."""
+        if self.n_dof * m < 100_000 or m < 2:
+            per = m if keep else min(m, self.chunk)
+        else:
+            per = -(-m // max(_WORKERS, -(-m // (m if keep else self.chunk))))
+            per = min(per, m if keep else self.chunk)
+        return [slice(i, min(i + per, m)) for i in range(0, m, max(per, 1))]
+
+    def _evaluate_piece(self, w, logdet: bool, keep: bool):
+        count_only = not (logdet or keep)
+        D, Wp = self._arrays(w, squared=count_only)
+        neg, ld, factors = factor(self.schedule, D, Wp, self.tiny, logdet, keep, squared=count_only)
+        bad = neg < 0  # met 0 * inf in the unchecked count: redo with zero-pivot care
+        if bad.any():
+            D, Wp = self._arrays(w[bad])
+            neg[bad] = factor(self.schedule, D, Wp, self.tiny, True)[0]
+        return neg, ld, factors
+
+    def evaluate(self, omega, logdet: bool = True, keep: bool = False):
+        """Count of natural frequencies strictly below each omega, log|det K|, neg pivots, factors.
+
+        Factors (``keep``) are in elimination order, for :meth:`solve`.
+        """
         w = np.atleast_1d(np.asarray(omega, float))
-        D, W = self.matrices(w)
-        neg, logdet, factors = eliminate(self.schedule, D, W, self.tiny, keep)
+        pieces = self._pieces(w.size) if not keep else [slice(0, w.size)]
+        if len(pieces) == 1:
+            neg, ld, factors = self._evaluate_piece(w, logdet, keep)
+        else:
+            parts = _map(lambda s: self._evaluate_piece(w[s], logdet, False), pieces)
+            neg = np.concatenate([p[0] for p in parts])
+            ld = np.concatenate([p[1] for p in parts]) if logdet else None
+            factors = None
         count = neg + (clamped_count(self.asm.members, w) if self.asm.distributed else 0)
-        return count, logdet, neg, factors
+        return count, ld, neg, factors
+
+    def shifted_solve(self, sigma, rhs):
+        """Count below each omega = sigma and x solving (K(sigma) ) x = rhs, per column (permuted)."""
+        def piece(s):
+            c, _, _, fac = self.evaluate(sigma[s], logdet=False, keep=True)
+            return c, solve_factored(self.schedule, fac, rhs[:, s].copy())
+        parts = _map(piece, self._pieces(sigma.size, keep=True))
+        return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts], axis=1)
 
     def count(self, omega) -> np.ndarray:
-        return self.evaluate(omega)[0]
+        return self.evaluate(omega, logdet=False)[0]
+
+    def solve(self, factors, rhs_perm: np.ndarray) -> np.ndarray:
+        return solve_factored(self.schedule, factors, rhs_perm)
+
+    def rayleigh(self, x: np.ndarray) -> np.ndarray:
+        """Rayleigh quotient x'Kx / x'Mx of a lumped model per column (x permuted).
+
+        The stiffness term is summed as member strain energies k (x_a - x_b)^2,
+        all positive, so a low mode of a long chain keeps full relative precision.
+        """
+        mem = self.asm.members
+        xb = np.where(self._tree[:, None], x[self._pb], 0.0)
+        dx = x[self._pa] - xb
+        num = mem.k @ (dx * dx)
+        den = self.J @ (x * x)
+        return num / den
 
 
 # ----------------------------------------------------------------- results
@@ -154,58 +248,132 @@ def _upper_bound(system: DynamicSystem, need: int) -> float:
     raise RuntimeError("could not bracket the requested modes")
 
 
-def _find_roots(system: DynamicSystem, targets: np.ndarray, hi: float, rtol: float = 4e-16):
-    """omega of the natural frequencies with the given 0-based count indices."""
+def _grid(a: float, b: float, n: int) -> np.ndarray:
+    """n interior trial points of (a, b): geometric over a wide span (or from 0), else even."""
+    if a <= 0.0 or b > 4.0 * a:
+        a0 = max(a, b * 1e-6)
+        pts = np.geomspace(a0, b, n + 1)[:-1] if a <= 0.0 else np.geomspace(a, b, n + 2)[1:-1]
+        return pts
+    return a + (b - a) * np.arange(1, n + 1) / (n + 1)
+
+
+def _isolate(system: DynamicSystem, targets: np.ndarray, hi, c_hi, rtol: float = 4e-16,
+             per_root: int = 3, lo=None, c_lo=None, passes: int = 200):
+    """Brackets (lo, hi] holding exactly the natural frequency with each 0-based count index.
+
+    Multisection on the mode count (Sturm / Wittrick-Williams): every bracket
+    holding targets gets ``per_root`` trial points per target it holds, spread
+    geometrically over a wide bracket and evenly over a narrow one.  A bracket
+    narrower than ``rtol`` that still holds several roots is a repeated root.
+    Returns lo, hi, count at lo, count at hi.
+    """
     K = len(targets)
-    lo = np.zeros(K)
-    hi = np.full(K, hi)
-    clo = np.zeros(K, np.int64)
-    chi = np.full(K, system.count(hi)[0])
-    n = max(system.n_dof, 1)
-    m_per = int(np.clip(3e5 / n, 6, 64))
-    # phase 1: multisection on the count until each root is alone in its bracket
-    for _ in range(200):
-        iso = (clo == targets) & (chi == targets + 1)
-        narrow = (hi - lo) <= rtol * hi
-        todo = ~(iso | narrow)
+    lo = np.zeros(K) if lo is None else np.array(lo, float)
+    hi = np.broadcast_to(np.asarray(hi, float), (K,)).copy()
+    clo = np.zeros(K, np.int64) if c_lo is None else np.array(c_lo, np.int64)
+    chi = np.broadcast_to(np.asarray(c_hi, np.int64), (K,)).copy()
+    force = passes < 200  # shrink isolated brackets too (polishing fallback)
+    for _ in range(passes):
+        iso = (clo == targets) & (chi == targets + 1) & (not force)
+        todo = ~(iso | ((hi - lo) <= rtol * hi))
         if not todo.any():
             break
-        keys = {}
-        for i in np.flatnonzero(todo):
-            keys.setdefault((lo[i], hi[i]), []).append(i)
-        pts = []
-        for (a, b), members in keys.items():
-            npts = min(m_per * len(members), 4096)
-            pts.append(a + (b - a) * np.arange(1, npts + 1) / (npts + 1))
+        idx = np.flatnonzero(todo)
+        # targets sharing a bracket are contiguous (brackets are nested by count)
+        starts = np.flatnonzero(np.r_[True, (lo[idx][1:] != lo[idx][:-1]) | (hi[idx][1:] != hi[idx][:-1])])
+        sizes = np.diff(np.r_[starts, len(idx)])
+        pts = [_grid(lo[idx[s]], hi[idx[s]], min(per_root * int(z) + 1, 4096))
+               for s, z in zip(starts, sizes)]
         pts = np.unique(np.concatenate(pts))
         cnt = system.count(pts)
-        for i in np.flatnonzero(todo):
-            sel = (pts > lo[i]) & (pts < hi[i])
-            p, c = pts[sel], cnt[sel]
-            below = c <= targets[i]
-            if below.any():
-                j = np.flatnonzero(below)[-1]
-                lo[i], clo[i] = p[j], c[j]
-            above = ~below
-            if above.any():
-                j = np.flatnonzero(above)[0]
-                hi[i], chi[i] = p[j], c[j]
-    # distributed members: keep the clamped count constant inside the bracket,
-    # so that the determinant has no pole there
-    if system.asm.distributed:
-        for _ in range(200):
-            j_lo = clamped_count(system.asm.members, lo)
-            j_hi = clamped_count(system.asm.members, hi)
-            bad = (j_lo != j_hi) & ((hi - lo) > rtol * hi)
-            if not bad.any():
-                break
-            mid = 0.5 * (lo + hi)
-            c = system.count(mid)
-            go_lo = bad & (c <= targets)
-            go_hi = bad & ~(c <= targets)
-            lo[go_lo] = mid[go_lo]
-            hi[go_hi] = mid[go_hi]
-    # phase 2: Illinois regula falsi on the determinant, bracket kept by the count
+        # for each target: the last point with count <= target and the first above
+        j = np.searchsorted(cnt, targets[idx], side="right")  # counts ascend with omega
+        below = j > 0
+        jl = np.maximum(j - 1, 0)
+        new_lo = np.where(below, pts[jl], -np.inf)
+        upd = below & (new_lo > lo[idx])
+        lo[idx[upd]] = new_lo[upd]
+        clo[idx[upd]] = cnt[jl][upd]
+        above = j < len(pts)
+        jh = np.minimum(j, len(pts) - 1)
+        new_hi = np.where(above, pts[jh], np.inf)
+        upd = above & (new_hi < hi[idx])
+        hi[idx[upd]] = new_hi[upd]
+        chi[idx[upd]] = cnt[jh][upd]
+    return lo, hi, clo, chi
+
+
+def _polish_lumped(system: DynamicSystem, targets, lo, hi, rtol: float = 1e-9):
+    """Safeguarded Rayleigh-quotient iteration inside count-isolated brackets.
+
+    Each step factors K - sigma M once (its negative pivots tighten the bracket,
+    Sylvester's law of inertia), solves for the next iterate and takes its
+    Rayleigh quotient; a quotient outside the bracket is replaced by the
+    bracket's midpoint, so the iteration can only converge to the bracketed
+    root.  Convergence is cubic near a root (B. N. Parlett, The Symmetric
+    Eigenvalue Problem, 1980, ch. 4), so a step changing omega by less than
+    ``rtol`` leaves the result at rounding level.  Returns omega and the
+    (elimination order) mode vectors.
+    """
+    K = len(targets)
+    n = system.n_dof
+    lo, hi = lo.copy(), hi.copy()
+    rng = np.random.default_rng(12345)
+    x = rng.uniform(0.5, 1.5, size=(n, K))
+    w = np.where(lo > 0, np.sqrt(lo * hi), 0.5 * hi)
+    active = np.ones(K, bool)
+    for _ in range(60):
+        idx = np.flatnonzero(active)
+        if not len(idx):
+            break
+        sig = w[idx]
+        c, y = system.shifted_solve(sig, system.J[:, None] * x[:, idx])
+        below = c <= targets[idx]  # the root lies above sigma
+        lo[idx] = np.where(below, np.maximum(lo[idx], sig), lo[idx])
+        hi[idx] = np.where(below, hi[idx], np.minimum(hi[idx], sig))
+        y /= np.abs(y).max(axis=0, keepdims=True)
+        x[:, idx] = y
+        rho = system.rayleigh(y)
+        w_new = np.sqrt(np.maximum(rho, 0.0))
+        # at convergence sigma sits on the root and the count may put it on
+        # either side, so the bracket test allows rounding
+        slack = 1e-12 * w_new
+        inside = (w_new > lo[idx] - slack) & (w_new < hi[idx] + slack)
+        done = inside & (np.abs(w_new - sig) <= rtol * w_new)
+        narrow = (hi[idx] - lo[idx]) <= 4e-16 * hi[idx]
+        w[idx] = w_new
+        out = idx[~inside & ~narrow]
+        if len(out):
+            # the iterate drifted to a neighbouring root: shrink the bracket by
+            # multisection on the count and restart from a fresh vector
+            lo[out], hi[out], _, _ = _isolate(system, targets[out], hi[out], targets[out] + 1,
+                                              lo=lo[out], c_lo=targets[out], passes=1, per_root=8)
+            w[out] = 0.5 * (lo[out] + hi[out])
+            x[:, out] = rng.uniform(0.5, 1.5, size=(n, len(out)))
+        active[idx[done | narrow]] = False
+    return w, x
+
+
+def _polish_distributed(system: DynamicSystem, targets, lo, hi, rtol: float = 4e-16):
+    """Illinois regula falsi on the determinant inside isolated brackets (distributed members).
+
+    The clamped-member count J0 is first made constant inside every bracket, so
+    det K(omega) has no pole there and changes sign exactly once.
+    """
+    K = len(targets)
+    lo, hi = lo.copy(), hi.copy()
+    for _ in range(200):
+        j_lo = clamped_count(system.asm.members, lo)
+        j_hi = clamped_count(system.asm.members, hi)
+        bad = (j_lo != j_hi) & ((hi - lo) > rtol * hi)
+        if not bad.any():
+            break
+        mid = 0.5 * (lo + hi)
+        c = system.count(mid)
+        go_lo = bad & (c <= targets)
+        go_hi = bad & ~(c <= targets)
+        lo[go_lo] = mid[go_lo]
+        hi[go_hi] = mid[go_hi]
     _, ld_lo, neg_lo, _ = system.evaluate(lo)
     _, ld_hi, neg_hi, _ = system.evaluate(hi)
     ref = np.maximum(ld_lo, ld_hi)
@@ -245,9 +413,26 @@ def _find_roots(system: DynamicSystem, targets: np.ndarray, hi: float, rtol: flo
     return 0.5 * (lo + hi)
 
 
+def _find_roots(system: DynamicSystem, targets: np.ndarray, hi: float, c_hi: int | None = None):
+    """omega of the natural frequencies with the given 0-based count indices, and
+    the node mode vectors (original node order, columns per root)."""
+    if c_hi is None:
+        c_hi = int(system.count(hi)[0])
+    lo, hi_, clo, chi = _isolate(system, targets, hi, c_hi)
+    if system.asm.distributed:
+        omega = _polish_distributed(system, targets, lo, hi_)
+        x = _inverse_iteration(system, omega)
+    else:
+        omega, x = _polish_lumped(system, targets, lo, hi_)
+    x = _separate_repeated(system, omega, x)
+    phi = np.empty_like(x)
+    phi[system.schedule.order] = x
+    return omega, phi
+
+
 # ----------------------------------------------------------------- modes
-def _node_shapes(system: DynamicSystem, omega: np.ndarray) -> np.ndarray:
-    """Referred node amplitudes (n_nodes, k) by inverse iteration near each root."""
+def _inverse_iteration(system: DynamicSystem, omega: np.ndarray) -> np.ndarray:
+    """Node amplitudes (elimination order, (n_nodes, k)) by inverse iteration at each root."""
     n = system.n_dof
     if omega.size == 0:
         return np.zeros((n, 0))
@@ -255,9 +440,37 @@ def _node_shapes(system: DynamicSystem, omega: np.ndarray) -> np.ndarray:
     x = rng.uniform(0.5, 1.5, size=(n, omega.size))
     shift = omega * (1.0 + 1e-9) + 1e-12
     for _ in range(2):
-        _, _, _, fac = system.evaluate(shift, keep=True)
-        x = solve(system.schedule, fac, x)
+        _, _, _, fac = system.evaluate(shift, logdet=False, keep=True)
+        x = system.solve(fac, x)
         x /= np.abs(x).max(axis=0, keepdims=True)
+    return x
+
+
+def _separate_repeated(system: DynamicSystem, omega: np.ndarray, x: np.ndarray) -> np.ndarray:
+    """Make the vectors of a repeated root (twin branches) M-orthogonal (Gram-Schmidt).
+
+    Inverse iteration from different starts gives independent vectors of the
+    root's eigenspace; orthogonalising them in the inertia inner product makes
+    them distinct modes.  Groups: roots equal to 1e-9 relative.
+    """
+    if len(omega) < 2:
+        return x
+    same = np.abs(np.diff(omega)) <= 1e-9 * np.maximum(omega[1:], 1e-300)
+    if not same.any():
+        return x
+    J = np.where(system.J > 0, system.J, 1.0)  # massless junctions: plain weight
+    i = 0
+    while i < len(omega):
+        j = i
+        while j < len(same) and same[j]:
+            j += 1
+        for a in range(i + 1, j + 1):
+            v = x[:, a]
+            for b in range(i, a):
+                u = x[:, b]
+                v = v - u * ((J * u) @ v) / ((J * u) @ u)
+            x[:, a] = v / np.abs(v).max()
+        i = j + 1
     return x
 
 
@@ -293,17 +506,44 @@ def _member_torques(k, x, ta, tb, samples: int = 33):
     Returns (torque at the a-end, torque at the b-end, signed torque of largest
     magnitude along the member); a spring (x = 0) carries k (ta - tb) throughout.
     """
-    small = x < 1e-4
-    xs = np.where(small, 1.0, x)
-    sn = np.sin(xs)
-    sn = np.where(np.abs(sn) < 1e-300, 1e-300, sn)
-    s = np.linspace(0.0, 1.0, samples)[:, None, None]
-    # dtheta/ds = x (-ta cos(x (1 - s)) + tb cos(x s)) / sin x
-    T = -k * xs * (-ta * np.cos(xs * (1 - s)) + tb * np.cos(xs * s)) / sn
-    T = np.where(small, k * (ta - tb), T)
-    j = np.argmax(np.abs(T), axis=0)
-    tmax = np.take_along_axis(T, j[None], axis=0)[0]
-    return T[0], T[-1], tmax
+    spring = k * (ta - tb)
+    Ta, Tb, Tm = spring.copy(), spring.copy(), spring.copy()
+    rows = np.flatnonzero((x >= 1e-4).any(axis=1))  # distributed members only
+    if len(rows):
+        k, x, ta, tb = k[rows], x[rows], ta[rows], tb[rows]
+        small = x < 1e-4
+        xs = np.where(small, 1.0, x)
+        sn = np.sin(xs)
+        sn = np.where(np.abs(sn) < 1e-300, 1e-300, sn)
+        s = np.linspace(0.0, 1.0, samples)[:, None, None]
+        # dtheta/ds = x (-ta cos(x (1 - s)) + tb cos(x s)) / sin x
+        T = -k * xs * (-ta * np.cos(xs * (1 - s)) + tb * np.cos(xs * s)) / sn
+        T = np.where(small, k * (ta - tb), T)
+        j = np.argmax(np.abs(T), axis=0)
+        Tm[rows] = np.take_along_axis(T, j[None], axis=0)[0]
+        Ta[rows], Tb[rows] = T[0], T[-1]
+    return Ta, Tb, Tm
+
+
+def _link_torques(mem, nl, Ta, Tb, Tm):
+    """Per link: the signed torque of largest magnitude over its members, and the
+    torques at its `from` and `to` ends.  Most links are one member; only
+    multi-segment distributed shafts need the loop."""
+    k = Ta.shape[1]
+    torque = np.zeros((nl, k))
+    t_from = np.zeros((nl, k))
+    t_to = np.zeros((nl, k))
+    n_mem = np.bincount(mem.link, minlength=nl)
+    single = n_mem[mem.link] == 1
+    li = mem.link[single]
+    torque[li], t_from[li], t_to[li] = Tm[single], Ta[single], Tb[single]
+    for l in np.flatnonzero(n_mem > 1):
+        ms = np.flatnonzero(mem.link == l)
+        j = np.argmax(np.abs(Tm[ms]), axis=0)
+        torque[l] = Tm[ms][j, np.arange(k)]
+        first, last = (ms[-1], ms[0]) if mem.flip[ms[0]] else (ms[0], ms[-1])
+        t_from[l], t_to[l] = Ta[first], Tb[last]
+    return torque, t_from, t_to
 
 
 def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray):
@@ -333,21 +573,11 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
     sgn = np.where(mem.flip, -1.0, 1.0)[:, None]
     Ta, Tb, Tm = Ta * sgn, Tb * sgn, Tm * sgn
     Ta, Tb = np.where(mem.flip[:, None], Tb, Ta), np.where(mem.flip[:, None], Ta, Tb)
-    strain = np.zeros((nl, omega.size))
-    link_kin = np.zeros((nl, omega.size))
-    np.add.at(strain, mem.link, U)
-    np.add.at(link_kin, mem.link, np.where(mem.L_over_c[:, None] > 0, Tk, 0.0))
-    torque = np.zeros((nl, omega.size))
-    t_from = np.zeros((nl, omega.size))
-    t_to = np.zeros((nl, omega.size))
-    for li in range(nl):
-        ms = np.flatnonzero(mem.link == li)
-        if not len(ms):
-            continue
-        j = np.argmax(np.abs(Tm[ms]), axis=0)
-        torque[li] = Tm[ms][j, np.arange(omega.size)]
-        first, last = (ms[-1], ms[0]) if mem.flip[ms[0]] else (ms[0], ms[-1])
-        t_from[li], t_to[li] = Ta[first], Tb[last]
+    per_link = sp.csr_matrix((np.ones(len(mem.link)), (mem.link, np.arange(len(mem.link)))),
+                             shape=(nl, len(mem.link)))
+    strain = per_link @ U
+    link_kin = per_link @ np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
+    torque, t_from, t_to = _link_torques(mem, nl, Ta, Tb, Tm)
     # disc inertia as the equations of motion see it (lumped shaft halves included)
     J_eff = np.array([d.inertia for d in train.discs])
     index = {d: i for i, d in enumerate(train.disc_ids)}
@@ -446,8 +676,10 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         hi = _upper_bound(system, want) if want > rb else 1.0
         targets = np.arange(rb, want)
         requested = f"lowest {N} elastic modes"
-    omega = _find_roots(system, targets, hi) if len(targets) else np.zeros(0)
-    phi = _node_shapes(system, omega)
+    if len(targets):
+        omega, phi = _find_roots(system, targets, hi, total if max_frequency_hz is not None else None)
+    else:
+        omega, phi = np.zeros(0), np.zeros((system.n_dof, 0))
     if rb:
         omega = np.r_[0.0, omega]
         phi = np.c_[np.ones(system.n_dof), phi]
