@@ -52,9 +52,16 @@ class Assembly:
 
 
 def assemble(train: Train) -> Assembly:
-    discs = train.discs
+    """Referred nodes and members of ``train`` (numpy over links; a Python loop
+    only over rigid meshes and the segments of distributed shafts)."""
+    discs, links = train.discs, train.links
     index = {d.id: i for i, d in enumerate(discs)}
-    s = np.array([train.speed_factor[d.id] for d in discs])
+    index[GROUND] = -1
+    s = np.array([train.speed_factor[d.id] for d in discs], float)
+    J = np.array([d.inertia for d in discs], float)
+    fi = np.array([index[l.from_id] for l in links], np.int64)
+    ti = np.array([index[l.to_id] for l in links], np.int64)
+    rigid = np.array([l.is_rigid for l in links], bool)
     # merge discs joined by rigid gear meshes
     parent = list(range(len(discs)))
 
@@ -64,69 +71,75 @@ def assemble(train: Train) -> Assembly:
             i = parent[i]
         return i
 
-    for l in train.links:
-        if l.is_rigid:
-            parent[find(index[l.from_id])] = find(index[l.to_id])
-    roots = {}
-    disc_node = np.empty(len(discs), int)
-    for i in range(len(discs)):
-        disc_node[i] = roots.setdefault(find(i), len(roots))
-    inertia = [0.0] * len(roots)
-    for i, d in enumerate(discs):
-        inertia[disc_node[i]] += d.inertia * s[i] ** 2
+    for li in np.flatnonzero(rigid):
+        parent[find(int(fi[li]))] = find(int(ti[li]))
+    if rigid.any():
+        roots = {}
+        disc_node = np.array([roots.setdefault(find(i), len(roots)) for i in range(len(discs))],
+                             np.int64)
+        n_nodes = len(roots)
+    else:
+        disc_node = np.arange(len(discs), dtype=np.int64)
+        n_nodes = len(discs)
+    inertia = np.bincount(disc_node, weights=J * s * s, minlength=n_nodes)
 
-    ma, mb, mk, mlc, mlink, mscale, mflip = [], [], [], [], [], [], []
-
-    def node_of(disc_id):
-        return -1 if disc_id == GROUND else int(disc_node[index[disc_id]])
-
-    def add(a, b, k, lc, li, sc):
-        flip = a == -1
-        if flip:  # keep the ground end as b
-            a, b = b, a
-        ma.append(a); mb.append(b); mk.append(k); mlc.append(lc); mlink.append(li); mscale.append(sc)
-        mflip.append(flip)
-
-    distributed = False
-    for li, l in enumerate(train.links):
-        if l.is_rigid:
-            continue
-        a, b = node_of(l.from_id), node_of(l.to_id)
-        end = l.from_id if l.from_id != GROUND else l.to_id
-        sc = float(s[index[end]])  # speed factor of this link's shaft
-        if l.kind == "gear_mesh":
-            # mesh stiffness is given referred to the `from` shaft
-            sc = float(s[index[l.from_id]])
-            add(a, b, l.stiffness * sc ** 2, 0.0, li, sc)
-        elif l.mass == "distributed":
-            distributed = True
-            G, rho = l.material.shear_modulus, l.material.density
-            c = (G / rho) ** 0.5
-            prev = a
-            for j, seg in enumerate(l.segments):
-                if j < len(l.segments) - 1:
-                    nxt = len(inertia)
-                    inertia.append(0.0)
-                else:
-                    nxt = b
-                add(prev, nxt, seg.stiffness(G) * sc ** 2, seg.length / c, li, sc)
-                prev = nxt
-        else:
-            if l.mass == "lumped":
-                half = 0.5 * l.own_inertia * sc ** 2
-                for n in (a, b):
-                    if n >= 0:
-                        inertia[n] += half
-            add(a, b, l.total_stiffness * sc ** 2, 0.0, li, sc)
-    members = Members(np.array(ma, int), np.array(mb, int), np.array(mk, float),
-                      np.array(mlc, float), np.array(mlink, int), np.array(mscale, float),
-                      np.array(mflip, bool))
+    nd = np.where(fi >= 0, disc_node[np.maximum(fi, 0)], -1)  # node at `from` (-1 ground)
+    nt = np.where(ti >= 0, disc_node[np.maximum(ti, 0)], -1)
+    gear = np.array([l.kind == "gear_mesh" for l in links], bool)
+    dist = np.array([l.mass == "distributed" for l in links], bool)
+    lumped = np.array([l.mass == "lumped" for l in links], bool)
+    # speed factor of each link's shaft; a mesh stiffness is referred to its `from` shaft
+    end = np.where((fi >= 0) | gear, fi, ti)
+    sc = s[np.maximum(end, 0)] if len(links) else np.zeros(0)
+    simple = ~rigid & ~dist
+    ks = np.array([l.stiffness if l.kind == "gear_mesh" else l.total_stiffness
+                   for l in np.asarray(links, object)[simple]], float) if simple.any() else np.zeros(0)
+    if lumped.any():
+        half = np.zeros(len(links))
+        half[lumped] = [0.5 * links[li].own_inertia for li in np.flatnonzero(lumped)]
+        half *= sc * sc
+        for ends in (nd, nt):
+            ok = lumped & (ends >= 0)
+            inertia += np.bincount(ends[ok], weights=half[ok], minlength=n_nodes)
+    li_s = np.flatnonzero(simple)
+    ma, mb = nd[li_s], nt[li_s]
+    mk, mlc, mlink, msc = ks * sc[li_s] ** 2, np.zeros(len(li_s)), li_s, sc[li_s]
+    # distributed shafts: a chain of exact uniform members with massless junctions
+    da, db, dk, dlc, dlink, dsc = [], [], [], [], [], []
+    extra = 0
+    for li in np.flatnonzero(dist):
+        l = links[li]
+        G, rho = l.material.shear_modulus, l.material.density
+        c = (G / rho) ** 0.5
+        prev = int(nd[li])
+        for j, seg in enumerate(l.segments):
+            if j < len(l.segments) - 1:
+                nxt = n_nodes + extra
+                extra += 1
+            else:
+                nxt = int(nt[li])
+            da.append(prev); db.append(nxt); dk.append(seg.stiffness(G) * sc[li] ** 2)
+            dlc.append(seg.length / c); dlink.append(li); dsc.append(sc[li])
+            prev = nxt
+    if extra:
+        inertia = np.r_[inertia, np.zeros(extra)]
+    ma = np.r_[ma, np.array(da, np.int64)].astype(np.int64)
+    mb = np.r_[mb, np.array(db, np.int64)].astype(np.int64)
+    mk = np.r_[mk, dk].astype(float)
+    mlc = np.r_[mlc, dlc].astype(float)
+    mlink = np.r_[mlink, np.array(dlink, np.int64)].astype(np.int64)
+    msc = np.r_[msc, dsc].astype(float)
+    o = np.argsort(mlink, kind="stable")  # members in link order
+    ma, mb, mk, mlc, mlink, msc = ma[o], mb[o], mk[o], mlc[o], mlink[o], msc[o]
+    flip = ma == -1  # keep the ground end as b
+    ma, mb = np.where(flip, mb, ma), np.where(flip, -1, mb)
+    members = Members(ma, mb, mk, mlc, mlink, msc, flip)
     tree = members.b >= 0
-    member_edge = np.full(len(ma), -1, int)
+    member_edge = np.full(len(ma), -1, np.int64)
     member_edge[tree] = np.arange(int(tree.sum()))
-    return Assembly(len(inertia), np.array(inertia, float), disc_node, s, members,
+    return Assembly(n_nodes + extra, np.asarray(inertia, float), disc_node, s, members,
                     members.a[tree], members.b[tree], member_edge,
-                    bool(np.any(~tree)), distributed)
+                    bool(np.any(~tree)), bool(dist.any()))
 
 
 def member_stiffness(members: Members, omega):

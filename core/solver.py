@@ -228,8 +228,9 @@ class Modes:
 
 
 # ----------------------------------------------------------------- root finding
-def _upper_bound(system: DynamicSystem, need: int) -> float:
-    """An omega with at least ``need`` natural frequencies below it (or all finite ones)."""
+def _upper_bound(system: DynamicSystem, need: int) -> tuple[float, int]:
+    """An omega with at least ``need`` natural frequencies below it (or all finite
+    ones), and the count there."""
     a = system.asm
     J = a.node_inertia
     k = a.members.k
@@ -242,8 +243,9 @@ def _upper_bound(system: DynamicSystem, need: int) -> float:
     target = need if finite is None else min(need, finite)
     w = max(w, 1e-6)
     for _ in range(400):
-        if system.count(w)[0] >= target:
-            return w
+        c = int(system.count(w)[0])
+        if c >= target:
+            return w, c
         w *= 3.7  # not a power of two: keeps clear of exact member poles
     raise RuntimeError("could not bracket the requested modes")
 
@@ -303,7 +305,7 @@ def _isolate(system: DynamicSystem, targets: np.ndarray, hi, c_hi, rtol: float =
     return lo, hi, clo, chi
 
 
-def _polish_lumped(system: DynamicSystem, targets, lo, hi, rtol: float = 1e-9):
+def _polish_lumped(system: DynamicSystem, targets, lo, hi):
     """Safeguarded Rayleigh-quotient iteration inside count-isolated brackets.
 
     Each step factors K - sigma M once (its negative pivots tighten the bracket,
@@ -311,8 +313,11 @@ def _polish_lumped(system: DynamicSystem, targets, lo, hi, rtol: float = 1e-9):
     Rayleigh quotient; a quotient outside the bracket is replaced by the
     bracket's midpoint, so the iteration can only converge to the bracketed
     root.  Convergence is cubic near a root (B. N. Parlett, The Symmetric
-    Eigenvalue Problem, 1980, ch. 4), so a step changing omega by less than
-    ``rtol`` leaves the result at rounding level.  Returns omega and the
+    Eigenvalue Problem, 1980, ch. 4): the error after a step is about
+    e^3 / g^2 (e the shift's relative error, g the relative gap to the next
+    root), so a step changing omega by less than 1e-6 g^(2/3) leaves the new
+    value at rounding level.  Gaps come from the neighbouring roots and the
+    isolating brackets (the next root lies outside).  Returns omega and the
     (elimination order) mode vectors.
     """
     K = len(targets)
@@ -322,7 +327,13 @@ def _polish_lumped(system: DynamicSystem, targets, lo, hi, rtol: float = 1e-9):
     x = rng.uniform(0.5, 1.5, size=(n, K))
     w = np.where(lo > 0, np.sqrt(lo * hi), 0.5 * hi)
     active = np.ones(K, bool)
+    lo0, hi0 = lo.copy(), hi.copy()
     for _ in range(60):
+        gap = np.minimum(w - lo0, hi0 - w)
+        if K > 1:
+            d = np.abs(np.diff(w))
+            gap = np.minimum(gap, np.minimum(np.r_[np.inf, d], np.r_[d, np.inf]))
+        rtol = np.clip(1e-6 * (gap / np.maximum(w, 1e-300)) ** (2 / 3), 1e-15, 1e-6)
         idx = np.flatnonzero(active)
         if not len(idx):
             break
@@ -339,17 +350,13 @@ def _polish_lumped(system: DynamicSystem, targets, lo, hi, rtol: float = 1e-9):
         # either side, so the bracket test allows rounding
         slack = 1e-12 * w_new
         inside = (w_new > lo[idx] - slack) & (w_new < hi[idx] + slack)
-        done = inside & (np.abs(w_new - sig) <= rtol * w_new)
+        done = inside & (np.abs(w_new - sig) <= rtol[idx] * w_new)
         narrow = (hi[idx] - lo[idx]) <= 4e-16 * hi[idx]
         w[idx] = w_new
         out = idx[~inside & ~narrow]
-        if len(out):
-            # the iterate drifted to a neighbouring root: shrink the bracket by
-            # multisection on the count and restart from a fresh vector
-            lo[out], hi[out], _, _ = _isolate(system, targets[out], hi[out], targets[out] + 1,
-                                              lo=lo[out], c_lo=targets[out], passes=1, per_root=8)
-            w[out] = 0.5 * (lo[out] + hi[out])
-            x[:, out] = rng.uniform(0.5, 1.5, size=(n, len(out)))
+        # the quotient left the bracket (the iterate still leans to a neighbour):
+        # bisect instead; the bracket has just shrunk by the count at sigma
+        w[out] = 0.5 * (lo[out] + hi[out])
         active[idx[done | narrow]] = False
     return w, x
 
@@ -479,8 +486,15 @@ def _segment_energies(k, x, ta, tb):
 
     theta(s) = (ta sin(x(1-s)) + tb sin(x s)) / sin x along the member.  Returns
     U = 1/2 G Ip int theta'^2, and T/omega^2 = 1/2 rho Ip int theta^2, both in
-    terms of k = G Ip / L (rho Ip L = k x^2 / omega^2).
+    terms of k = G Ip / L (rho Ip L = k x^2 / omega^2).  Springs (x = 0 for
+    every mode) take the static limit directly.
     """
+    U = 0.5 * k * (ta - tb) ** 2
+    Tk = 0.5 * k * x ** 2 * (ta ** 2 + ta * tb + tb ** 2) / 3.0
+    rows = np.flatnonzero((x >= 1e-4).any(axis=1))  # distributed members only
+    if not len(rows):
+        return U, Tk
+    k, x, ta, tb = k[rows], x[rows], ta[rows], tb[rows]
     small = x < 1e-4
     xs = np.where(small, 1.0, x)
     s, c = np.sin(xs), np.cos(xs)
@@ -492,11 +506,8 @@ def _segment_energies(k, x, ta, tb):
     C2 = 0.5 * (s / xs + c)
     int_t2 = ((ta ** 2 + tb ** 2) * I1 + 2 * ta * tb * I2) / s2  # int theta^2 ds
     int_d2 = xs ** 2 * ((ta ** 2 + tb ** 2) * C1 - 2 * ta * tb * C2) / s2  # int (dtheta/ds)^2 ds
-    U = 0.5 * k * int_d2
-    Tk = 0.5 * k * xs ** 2 * int_t2  # = 1/2 rho Ip L omega^2 int theta^2 ds
-    # static limit: linear twist
-    U = np.where(small, 0.5 * k * (ta - tb) ** 2, U)
-    Tk = np.where(small, 0.5 * k * x ** 2 * (ta ** 2 + ta * tb + tb ** 2) / 3.0, Tk)
+    U[rows] = np.where(small, U[rows], 0.5 * k * int_d2)
+    Tk[rows] = np.where(small, Tk[rows], 0.5 * k * xs ** 2 * int_t2)  # 1/2 rho Ip L w^2 int theta^2
     return U, Tk
 
 
@@ -580,9 +591,10 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
     torque, t_from, t_to = _link_torques(mem, nl, Ta, Tb, Tm)
     # disc inertia as the equations of motion see it (lumped shaft halves included)
     J_eff = np.array([d.inertia for d in train.discs])
-    index = {d: i for i, d in enumerate(train.disc_ids)}
-    for l in train.links:
-        if l.mass == "lumped":
+    lumped = [l for l in train.links if l.mass == "lumped"]
+    if lumped:
+        index = {d: i for i, d in enumerate(train.disc_ids)}
+        for l in lumped:
             for end in (l.from_id, l.to_id):
                 if end in index:
                     J_eff[index[end]] += 0.5 * l.own_inertia
@@ -673,11 +685,11 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         if finite is not None and want > finite:
             notes.append(f"the lumped model has only {finite - rb} elastic modes")
             want = finite
-        hi = _upper_bound(system, want) if want > rb else 1.0
+        hi, total = _upper_bound(system, want) if want > rb else (1.0, None)
         targets = np.arange(rb, want)
         requested = f"lowest {N} elastic modes"
     if len(targets):
-        omega, phi = _find_roots(system, targets, hi, total if max_frequency_hz is not None else None)
+        omega, phi = _find_roots(system, targets, hi, total)
     else:
         omega, phi = np.zeros(0), np.zeros((system.n_dof, 0))
     if rb:
