@@ -36,6 +36,11 @@ def fit_text(text: str, width: float, size: float, font: str = FONT) -> str:
     return text + "…"
 
 
+def drawing(width: float, height: float) -> Drawing:
+    """A drawing whose initial font is the embedded one (the default would name Helvetica)."""
+    return Drawing(width, height, initialFontName=FONT, initialFontSize=7)
+
+
 class Plot:
     """A plot box inside a drawing, with value axes that map data to points."""
 
@@ -156,6 +161,17 @@ def _legend(d: Drawing, x0: float, y_top: float, width: float, items, size=6.5) 
 
 
 # ----------------------------------------------------------------- Campbell
+def merged_intervals(intervals):
+    """Union of (lo, hi) intervals as a sorted list of disjoint intervals."""
+    out = []
+    for lo, hi in sorted(intervals):
+        if out and lo <= out[-1][1]:
+            out[-1] = (out[-1][0], max(out[-1][1], hi))
+        else:
+            out.append((lo, hi))
+    return out
+
+
 def source_colours(lines) -> dict:
     names = []
     for l in lines:
@@ -165,7 +181,8 @@ def source_colours(lines) -> dict:
 
 
 def campbell_drawing(screening, width: float, plot_height: float = 300.0,
-                     y_max_hz: float | None = None, title: str | None = None) -> Drawing:
+                     y_max_hz: float | None = None, title: str | None = None,
+                     with_legend: bool = True) -> Drawing:
     """Interference diagram: reference rpm on x, Hz on y.
 
     Natural frequencies as horizontal lines with their margin band (the
@@ -200,18 +217,20 @@ def campbell_drawing(screening, width: float, plot_height: float = 300.0,
     if op.trip_speed:
         legend.append(("line", RANGE_EDGE, (1.5, 1.5), "trip speed"))
     n_cols = 2 if width > 300 else 1
+    if not with_legend:
+        legend = []
     legend_h = math.ceil(len(legend) / n_cols) * 10.0 + 4
     top_pad, left, right, bottom = (14 if title else 4) + 12, 44, 30, 30
     height = top_pad + plot_height + bottom + legend_h
-    d = Drawing(width, height)
+    d = drawing(width, height)
     p = Plot(d, left, bottom + legend_h, width - left - right, plot_height, (0.0, x_max), (0.0, y_max_hz),
              x_title=f"speed of the reference shaft '{op.reference}' (rpm)", y_title="frequency (Hz)")
     if title:
         d.add(String(left, height - 11, title, fontName=BOLD, fontSize=8, fillColor=INK))
     # filled areas under the grid
     p.vband(fmt.rad_s_to_rpm(s.speed_min), fmt.rad_s_to_rpm(s.speed_max), RANGE_FILL, RANGE_EDGE)
-    for _, f in nat:
-        p.hband(f / (1 + m), f / (1 - m) if m < 1 else y_max_hz, BAND_FILL)
+    for lo, hi in merged_intervals([(f / (1 + m), f / (1 - m) if m < 1 else y_max_hz) for _, f in nat]):
+        p.hband(lo, hi, BAND_FILL)  # merged, so that overlapping bands do not darken each other
     p.draw_axes()
     if op.trip_speed:
         xt = fmt.rad_s_to_rpm(op.trip_speed)
@@ -277,7 +296,7 @@ def mode_shape_drawing(modes, i: int, placement, width: float, height: float, li
     Each link is drawn as a segment between its two discs, so a branch
     (own row in the schematic, own colour here) shows as its own line.
     """
-    d = Drawing(width, height)
+    d = drawing(width, height)
     ids = list(modes.disc_ids)
     shape = modes.shape[i]
     col = np.array([placement.column.get(x, 0) for x in ids], float)
@@ -332,7 +351,7 @@ def response_drawing(speed_rpm, values, permissible, width: float, height: float
     and the operating range shaded (one small plot per link, each on its own scale)."""
     colour = colour or PALETTE[0]
     left, right, bottom, top = 40, 8, 26, 14
-    d = Drawing(width, height)
+    d = drawing(width, height)
     speed_rpm = np.asarray(speed_rpm, float)
     v = np.asarray(values, float)
     y_top = float(np.nanmax(v)) if np.isfinite(v).any() else 0.0

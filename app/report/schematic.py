@@ -16,7 +16,7 @@ from reportlab.graphics.shapes import Circle, Drawing, Line, Polygon, Rect, Stri
 from reportlab.lib import colors
 
 from ..schematic_layout import place_document
-from .charts import fit_text
+from .charts import drawing, fit_text
 from .styles import FONT, GREY, INK, ITALIC
 
 DISC_FILL = colors.HexColor("#c9d6e8")
@@ -101,7 +101,7 @@ def schematic_drawings(doc: dict, train, width: float) -> list[Drawing]:
         row_pos = {r: i for i, r in enumerate(used_rows)}
         n_rows = len(used_rows)
         height = n_rows * ROW_H + (12 if len(bands) > 1 else 4)
-        d = Drawing(width, height)
+        d = drawing(width, height)
         top = height - (12 if len(bands) > 1 else 4)
 
         def X(col):
@@ -189,7 +189,7 @@ def schematic_drawings(doc: dict, train, width: float) -> list[Drawing]:
 
 def legend_drawing(width: float) -> Drawing:
     """Key to the schematic symbols (one line)."""
-    d = Drawing(width, 18)
+    d = drawing(width, 18)
     y = 8
     x = 4
     items = []

@@ -250,7 +250,8 @@ def title_block(data: SheetData, width, author, revision, date_text):
              ("SHA-256", f'<font size="6.8">{data.sha256}</font><br/>'
                          f'<font color="{GREY.hexval()}" size="6.5">{escape(data.hash_note)}</font>')]
     t = Table([[P(f"<b>{k}</b>"), P(v)] for k, v in rows], colWidths=[70, width - 70], hAlign="LEFT")
-    t.setStyle(TableStyle([("VALIGN", (0, 0), (-1, -1), "TOP"),
+    t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT),
+                           ("VALIGN", (0, 0), (-1, -1), "TOP"),
                            ("LINEABOVE", (0, 0), (-1, 0), 0.8, INK),
                            ("LINEBELOW", (0, -1), (-1, -1), 0.8, INK),
                            ("TOPPADDING", (0, 0), (-1, -1), 1.5), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
@@ -281,8 +282,10 @@ def verdict_block(data: SheetData, width):
         lines.append(f"<b>Required separation margin:</b> {fmt.percent(s.margin)} % between every natural "
                      f"frequency and every excitation frequency over the operating range.")
         n_el = sum(1 for i in range(len(s.modes)) if s.modes.elastic[i] and s.modes.frequency_hz[i] <= s.cap_hz)
+        n_src = len({l.source for l in s.lines})
         lines.append(f"<b>Modes screened:</b> {n_el} elastic modes up to {fmt.hz(s.cap_hz)} Hz against "
-                     f"{len(s.lines)} excitation lines from {len({l.source for l in s.lines})} sources.")
+                     f"{len(s.lines)} excitation line{'s' if len(s.lines) != 1 else ''} from {n_src} "
+                     f"source{'s' if n_src != 1 else ''}.")
     if data.response is not None:
         n_ex = len(data.response_exceedances)
         checked = [p for p in data.response_summary if p.passed is not None]
@@ -308,7 +311,8 @@ def verdict_block(data: SheetData, width):
     body += [[Paragraph(l, st["body"])] for l in lines]
     body.append([Paragraph(f"<i>{escape(CAUTION)}</i>", st["small"])])
     t = Table(body, colWidths=[width], hAlign="LEFT")
-    t.setStyle(TableStyle([("BACKGROUND", (0, 0), (-1, 0), fill),
+    t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT),
+                           ("BACKGROUND", (0, 0), (-1, 0), fill),
                            ("BOX", (0, 0), (-1, -1), 0.8, ink),
                            ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
                            ("LEFTPADDING", (0, 0), (-1, -1), 5)]))
@@ -347,7 +351,7 @@ def model_block(data: SheetData, width, system: str):
     head = ["Link", "Kind", "From / to", f"Stiffness ({unit_of(u.STIFFNESS, system)})",
             f"Geometry: length × outer dia. / bore ({L})", "Material", "Mass model", "Speed ratio",
             "Damping, limits"]
-    w = [0.13, 0.07, 0.13, 0.1, 0.15, 0.1, 0.085, 0.065, 0.17]
+    w = [0.15, 0.08, 0.14, 0.09, 0.14, 0.09, 0.09, 0.06, 0.16]
     rows = []
     kinds = {"shaft": "shaft", "coupling": "coupling", "gear_mesh": "gear mesh"}
     for l in train.links:
@@ -436,7 +440,8 @@ def mode_shape_block(data: SheetData, width):
     grid = [cells[k:k + per_row] for k in range(0, len(cells), per_row)]
     grid[-1] += [""] * (per_row - len(grid[-1]))
     t = Table(grid, colWidths=[cw] * per_row, hAlign="LEFT")
-    t.setStyle(TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0),
+    t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT),
+                           ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0),
                            ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2)]))
     note = ("Twist angle of each disc, normalised to the largest (+1), against its column in the schematic; "
             "a branch is drawn in its own colour, a geared branch in the angle of its own shaft. "
@@ -450,20 +455,22 @@ def campbell_block(data: SheetData, width, frame_h):
     s = data.screening
     if s is None:
         return []
-    dwg = charts.campbell_drawing(s, width, plot_height=min(330.0, frame_h * 0.5))
+    # a detail of the lowest modes when the full chart squeezes them together
+    nat = [float(s.modes.frequency_hz[i]) for i in range(len(s.modes))
+           if s.modes.elastic[i] and s.modes.frequency_hz[i] <= s.cap_hz]
+    detail = len(nat) >= 2 and s.cap_hz > 12 * nat[min(2, len(nat) - 1)]
+    dwg = charts.campbell_drawing(s, width, plot_height=frame_h * (0.3 if detail else 0.44))
     note = ("Excitation lines are labelled with their order at the edge where they leave the chart; "
             "the margin band around each natural frequency holds the excitation frequencies f_e with "
             f"|f_n - f_e| / f_e below {fmt.percent(s.margin)} %.")
     out = [KeepTogether([Paragraph("Interference (Campbell) diagram", st["h1"]),
                          fit_frame(dwg, width, frame_h),
                          Paragraph(note, st["note"])])]
-    # a detail of the lowest modes when the full chart squeezes them together
-    nat = [float(s.modes.frequency_hz[i]) for i in range(len(s.modes))
-           if s.modes.elastic[i] and s.modes.frequency_hz[i] <= s.cap_hz]
-    if len(nat) >= 2 and s.cap_hz > 12 * nat[min(2, len(nat) - 1)]:
+    if detail:
         y_detail = nat[min(2, len(nat) - 1)] * 1.6
-        dwg2 = charts.campbell_drawing(s, width, plot_height=min(250.0, frame_h * 0.4), y_max_hz=y_detail,
-                                       title=f"Detail up to {y_detail:.0f} Hz")
+        dwg2 = charts.campbell_drawing(s, width, plot_height=frame_h * 0.26, y_max_hz=y_detail,
+                                       title=f"Detail up to {y_detail:.0f} Hz (key as above)",
+                                       with_legend=False)
         out.append(fit_frame(dwg2, width, frame_h))
     return out
 
@@ -556,7 +563,8 @@ def response_block(data: SheetData, width, system: str):
         grid = [cells[k:k + 2] for k in range(0, len(cells), 2)]
         grid[-1] += [""] * (2 - len(grid[-1]))
         t = Table(grid, colWidths=[cw, cw], hAlign="LEFT")
-        t.setStyle(TableStyle([("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0)]))
+        t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT),
+                           ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0)]))
         out.append(KeepTogether([t, Paragraph(
             f"Combined vibratory torque amplitude against the speed of the reference shaft '{escape(op.reference)}', "
             "for the links nearest their permissible value (else the largest); operating range shaded, "
@@ -618,6 +626,10 @@ class _NumberedCanvas(pdfcanvas.Canvas):
     header_text = ""
 
     def __init__(self, *args, **kw):
+        register_fonts()
+        # else every page opens with the non-embedded Helvetica (the template passes None)
+        kw["initialFontName"] = kw.get("initialFontName") or FONT
+        kw["initialFontSize"] = kw.get("initialFontSize") or 8.5
         super().__init__(*args, **kw)
         self._pages = []
 

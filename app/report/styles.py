@@ -61,7 +61,7 @@ def styles() -> dict[str, ParagraphStyle]:
         "kicker": ParagraphStyle("kicker", parent=base, fontSize=8, leading=10, textColor=GREY,
                                  spaceAfter=1),
         "h1": ParagraphStyle("h1", parent=base, fontName=BOLD, fontSize=11, leading=14, spaceBefore=10,
-                             spaceAfter=4),
+                             spaceAfter=4, keepWithNext=1),
         "verdict": ParagraphStyle("verdict", parent=base, fontName=BOLD, fontSize=11, leading=14,
                                   spaceAfter=2),
     }
