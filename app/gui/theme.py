@@ -100,7 +100,9 @@ def series_pen(i: int, width: float = LINE_WIDTH):
 
 
 def natural_frequency_pen(selected: bool = False):
-    return pen(ACCENT if selected else NATURAL_FREQUENCY, BOLD_WIDTH if selected else LINE_WIDTH)
+    """Ink lines; the selected mode is marked by weight, not hue, so it is never
+    mistaken for an excitation series."""
+    return pen(NATURAL_FREQUENCY, BOLD_WIDTH + 0.8 if selected else LINE_WIDTH)
 
 
 def trip_pen():

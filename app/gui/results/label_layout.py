@@ -1,0 +1,49 @@
+"""Greedy placement of plot labels so they do not overlap (Qt-free).
+
+Each label offers candidate spots in priority order; the first spot whose
+box stays inside the plot and clear of every label already placed wins, and
+a label with no free spot is hidden (its line keeps its tooltip and legend
+entry).  Coordinates are pixels, y downwards, as on screen.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+
+@dataclass(frozen=True)
+class Spot:
+    x: float  # anchor point, px
+    y: float
+    ax: float  # anchor of the text box at (x, y): 0 left/top, 1 right/bottom
+    ay: float
+
+
+def _box(spot: Spot, w: float, h: float, pad: float):
+    left = spot.x - spot.ax * w
+    top = spot.y - spot.ay * h
+    return (left - pad, top - pad, left + w + pad, top + h + pad)
+
+
+def _overlap(a, b) -> bool:
+    return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
+
+
+def place_labels(labels, width: float, height: float, pad: float = 1.5, blocked=()):
+    """``labels``: list of (w, h, [Spot, ...]) in priority order.  ``blocked``:
+    boxes (x0, y0, x1, y1) to keep clear (e.g. the legend).  Returns, per label,
+    the chosen Spot or None."""
+    placed = list(blocked)
+    chosen = []
+    for w, h, spots in labels:
+        pick = None
+        for s in spots:
+            b = _box(s, w, h, pad)
+            if b[0] < 0 or b[1] < 0 or b[2] > width or b[3] > height:
+                continue
+            if any(_overlap(b, o) for o in placed):
+                continue
+            pick = s
+            placed.append(b)
+            break
+        chosen.append(pick)
+    return chosen

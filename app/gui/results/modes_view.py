@@ -1,0 +1,226 @@
+"""Natural-frequency table and the selected mode's shape, torque and energy shares."""
+from __future__ import annotations
+
+import numpy as np
+import pyqtgraph as pg
+from PySide6 import QtCore, QtWidgets
+
+from app import formatting as fmt
+from app.gui import theme
+
+from . import rows as R
+from .plotting import PlotCanvas, column_ticks, new_plot, side_by_side, train_line
+from .table import RowsModel, fit_columns, make_table_view
+
+SHOW_TWIST = "Twist angle and modal torque"
+SHOW_ENERGY = "Energy shares"
+
+
+class ModesView(QtWidgets.QWidget):
+    """Left: the frequency table.  Right: plots of the selected mode, the upper
+    one per disc along the train, the lower one per link, x axes linked."""
+
+    modeSelected = QtCore.Signal(int)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        self.modes = None
+        self.cap_hz = None
+        self._index = -1
+        self._line = None
+
+        self.table_model = RowsModel(R.FREQUENCY_HEADERS, self, numeric_columns=(0, 1, 2))
+        self.table = make_table_view(self.table_model, self)
+        self.table.setToolTip("Natural frequencies, lowest first. Select a row to draw its mode shape.")
+        self.table.selectionModel().currentRowChanged.connect(self._row_changed)
+
+        self.show_box = QtWidgets.QComboBox(self)
+        self.show_box.addItems([SHOW_TWIST, SHOW_ENERGY])
+        self.show_box.setToolTip("Twist angle per disc and modal torque per link, or the share of the "
+                                 "mode's kinetic energy (discs) and strain energy (links).")
+        self.show_box.currentIndexChanged.connect(lambda _i: self._draw())
+        self.title = QtWidgets.QLabel(self)
+        self.title.setFont(theme.font(theme.BASE_POINT_SIZE, bold=True))
+        self.hover = QtWidgets.QLabel(self)
+        self.hover.setStyleSheet(f"color: {theme.INK_MUTED};")
+        self.hover.setTextInteractionFlags(QtCore.Qt.TextSelectableByMouse)
+
+        self.canvas = PlotCanvas(self)
+        self.canvas.export_title = "Mode shape"
+        self.upper = new_plot(self.canvas, 0, "", "Twist angle (normalised)")
+        self.lower = new_plot(self.canvas, 1, "Along the train (discs in schematic order)", "")
+        self.lower.setXLink(self.upper)
+        self.upper.getAxis("left").setWidth(72)
+        self.lower.getAxis("left").setWidth(72)
+        self.canvas.ci.layout.setRowStretchFactor(0, 3)
+        self.canvas.ci.layout.setRowStretchFactor(1, 2)
+        self.lower.vb.sigResized.connect(self._update_ticks)
+        self.key = QtWidgets.QLabel(self)  # colour key of the main line and branches
+        self.key.setTextFormat(QtCore.Qt.RichText)
+
+        top = QtWidgets.QHBoxLayout()
+        top.addWidget(self.title)
+        top.addSpacing(12)
+        top.addWidget(self.key, 1)
+        top.addSpacing(12)
+        top.addWidget(QtWidgets.QLabel("Show:"))
+        top.addWidget(self.show_box)
+        right = QtWidgets.QWidget(self)
+        rl = QtWidgets.QVBoxLayout(right)
+        rl.setContentsMargins(0, 0, 0, 0)
+        rl.addLayout(top)
+        rl.addWidget(self.canvas, 1)
+        rl.addWidget(self.hover)
+
+        split = QtWidgets.QSplitter(QtCore.Qt.Horizontal, self)
+        split.addWidget(self.table)
+        split.addWidget(right)
+        split.setStretchFactor(0, 2)
+        split.setStretchFactor(1, 3)
+        split.setSizes([460, 640])
+        split.setChildrenCollapsible(False)
+        self.splitter = split
+        lay = QtWidgets.QVBoxLayout(self)
+        lay.setContentsMargins(0, 0, 0, 0)
+        lay.addWidget(split)
+
+    # ------------------------------------------------------------ data
+    def set_modes(self, modes, cap_hz=None, select: int | None = None) -> None:
+        self.modes, self.cap_hz = modes, cap_hz
+        self._line = train_line(modes.train)
+        self.table_model.set_rows(R.frequency_rows(modes, cap_hz))
+        fit_columns(self.table)
+        n = len(modes)
+        if select is None or not 0 <= select < n:
+            elastic = np.flatnonzero(modes.elastic)
+            select = int(elastic[0]) if elastic.size else (0 if n else -1)
+        self._index = -1
+        self.select_mode(select)
+
+    def clear(self) -> None:
+        self.modes, self._line, self._index = None, None, -1
+        self.table_model.set_rows([])
+        self.upper.clear()
+        self.lower.clear()
+        self.title.setText("")
+
+    def select_mode(self, index: int) -> None:
+        if self.modes is None or not 0 <= index < len(self.modes):
+            return
+        if index != self.table.currentIndex().row():
+            self.table.selectRow(index)  # fires _row_changed
+        if index != self._index:
+            self._index = index
+            self._draw()
+
+    def current_index(self) -> int:
+        return self._index
+
+    def _row_changed(self, current, _previous) -> None:
+        i = current.row()
+        if self.modes is not None and 0 <= i < len(self.modes) and i != self._index:
+            self._index = i
+            self._draw()
+            self.modeSelected.emit(i)
+
+    # ------------------------------------------------------------ drawing
+    def _draw(self) -> None:
+        self.upper.clear()
+        self.lower.clear()
+        m, i, line = self.modes, self._index, self._line
+        if m is None or i < 0 or line is None:
+            return
+        train = m.train
+        f = float(m.frequency_hz[i])
+        kind = "rigid-body mode" if m.rigid_body[i] else f"{fmt.hz(f)} Hz, {fmt.cpm(f)} cpm"
+        self.title.setText(f"Mode {int(m.number[i])}: {kind}")
+        self.canvas.export_title = f"{train.title}: mode {int(m.number[i])}, {kind}"
+        if len(line.series) > 1:
+            parts = []
+            for s, members in enumerate(line.series):
+                label = "main line" if s == 0 else f"branch to {train.discs[members[-1]].id}"
+                parts.append(f"<span style='color:{theme.series_color(s)}'>&#9632;</span>&nbsp;{label}")
+            self.key.setText("&nbsp;&nbsp;&nbsp;".join(parts))
+        else:
+            self.key.setText("")
+        energy = self.show_box.currentText() == SHOW_ENERGY
+        names = [d.name or d.id for d in train.discs]
+        self._update_ticks()
+        self.upper.getAxis("bottom").setStyle(showValues=False)
+        if energy:
+            self._draw_energy(m, i, line, names)
+        else:
+            self._draw_twist(m, i, line, names)
+        self.upper.setXRange(-0.7, line.n_columns - 0.3, padding=0)
+
+    def _update_ticks(self, *_args) -> None:
+        if self.modes is None or self._line is None:
+            return
+        w = float(self.lower.vb.width())
+        ticks = column_ticks(self.modes.train, self._line, w if w > 40 else 600.0,
+                             theme.font(theme.SMALL_POINT_SIZE))
+        self.lower.getAxis("bottom").setTicks(ticks)
+        self.upper.getAxis("bottom").setTicks(ticks)
+
+    def _draw_twist(self, m, i, line, names) -> None:
+        shape = m.shape[i]
+        self.upper.setLabel("left", "Twist angle (largest = 1)")
+        self.upper.addItem(pg.InfiniteLine(0, angle=0, pen=theme.pen(theme.INK_MUTED, theme.THIN_WIDTH)))
+        for s, members in enumerate(line.series):
+            self.upper.plot(line.disc_x[members], shape[members], pen=theme.series_pen(s, theme.BOLD_WIDTH))
+        for j, di, gx in line.ground:  # a grounded link ends at zero twist
+            self.upper.plot([line.disc_x[di], gx], [shape[di], 0.0],
+                            pen=theme.pen(theme.INK_MUTED, theme.LINE_WIDTH, QtCore.Qt.DashLine))
+            self.upper.plot([gx], [0.0], pen=None, symbol="t1", symbolSize=11,
+                            symbolBrush=theme.brush(theme.INK_MUTED), symbolPen=None)
+        colors = [theme.series_color(s) for s in range(len(line.series))]
+        brushes = [theme.brush(colors[min(r, len(colors) - 1)]) for r in line.disc_row]
+        spots = pg.ScatterPlotItem(
+            line.disc_x, shape, size=10, brush=brushes, pen=theme.pen(theme.BACKGROUND, 1.0),
+            data=[f"{names[k]} ({m.train.discs[k].id})" for k in range(len(names))],
+            hoverable=True, hoverSize=14,
+            tip=lambda x, y, data: f"{data}\ntwist {y:+.3f} (largest = 1)")
+        self.upper.addItem(spots)
+        self.upper.setYRange(-1.1, 1.1, padding=0)
+
+        torque = np.nan_to_num(m.link_torque[i], nan=0.0, posinf=0.0, neginf=0.0)
+        self.lower.setLabel("left", "Modal torque", units="N·m/rad")
+        self.lower.getAxis("left").enableAutoSIPrefix(True)
+        self._bars(self.lower, line, torque, lambda j, v: (
+            f"{m.link_ids[j]}: modal torque {v:+.4g} N·m per rad of largest twist"))
+
+    def _draw_energy(self, m, i, line, names) -> None:
+        ke = 100.0 * m.kinetic_share[i]
+        se = 100.0 * m.strain_share[i]
+        self.upper.setLabel("left", "Kinetic energy, %")
+        self.lower.setLabel("left", "Strain energy, %")
+        self.lower.getAxis("left").enableAutoSIPrefix(False)
+        colors = [theme.series_color(s) for s in range(len(line.series))]
+        bx, bw = side_by_side(line.disc_x, 0.55)
+        bar = pg.BarGraphItem(x=bx, height=ke, width=bw,
+                              brushes=[theme.brush(colors[min(r, len(colors) - 1)]) for r in line.disc_row],
+                              pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(ke))
+        self.upper.addItem(bar)
+        spots = pg.ScatterPlotItem(bx, ke, size=14, brush=theme.brush((0, 0, 0, 0)), pen=None,
+                                   data=names, hoverable=True,
+                                   tip=lambda x, y, data: f"{data}\n{y:.1f} % of the kinetic energy")
+        self.upper.addItem(spots)
+        self.upper.setYRange(0, max(5.0, float(np.nanmax(ke)) * 1.1 if ke.size else 5.0), padding=0)
+        self._bars(self.lower, line, se, lambda j, v: f"{m.link_ids[j]}: {v:.1f} % of the strain energy")
+
+    def _bars(self, plot, line, values, tip) -> None:
+        if not len(values):
+            return
+        colors = [theme.series_color(s) for s in range(len(line.series))]
+        brushes = [theme.brush(colors[min(r, len(colors) - 1)]) for r in line.link_row]
+        plot.addItem(pg.InfiniteLine(0, angle=0, pen=theme.pen(theme.INK_MUTED, theme.THIN_WIDTH)))
+        bx, bw = side_by_side(line.link_x, 0.45)
+        plot.addItem(pg.BarGraphItem(x=bx, height=values, width=bw, brushes=brushes,
+                                     pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(values)))
+        # invisible hover targets at the bar tops: a tooltip per link
+        plot.addItem(pg.ScatterPlotItem(bx, values, size=16, brush=theme.brush((0, 0, 0, 0)),
+                                        pen=None, data=list(range(len(values))), hoverable=True,
+                                        tip=lambda x, y, data: tip(data, y)))
+        lo, hi = float(np.min(values)), float(np.max(values))
+        span = max(hi - lo, abs(hi), abs(lo), 1e-12)
+        plot.setYRange(min(0.0, lo) - 0.08 * span, max(0.0, hi) + 0.08 * span, padding=0)

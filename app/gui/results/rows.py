@@ -1,0 +1,164 @@
+"""Table rows of the result views, as plain text (Qt-free).
+
+The same rows fill the on-screen tables and the CSV exports, and every number
+goes through :mod:`app.formatting`, so the screen, the CSV, the command line
+and the review sheet print the same digits.  Nothing is computed here that
+core already computes: separations, crossings and bands come from
+:mod:`core.screening`, energy shares from :mod:`core.solver`.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from app import formatting as fmt
+from core import units
+
+FREQUENCY_HEADERS = ("Mode", "Hz", "cpm", "Rigid body", "Largest strain energy",
+                     "Largest kinetic energy")
+COINCIDENCE_HEADERS = ("Mode", "Natural Hz", "Excitation", "Order", "Crossing rpm",
+                       "Margin %", "Band rpm", "Status")
+CURSOR_HEADERS = ("Excitation", "Order", "Excitation Hz", "Nearest mode", "Natural Hz",
+                  "Separation %")
+
+
+@dataclass
+class Row:
+    """One table row: display texts, plus what the views need beside the text."""
+
+    cells: list
+    tooltip: str = ""
+    status: str | None = None  # "pass" | "fail" | "muted" | None: colours the row
+    key: object = None  # e.g. the mode index this row selects
+    extra: dict = field(default_factory=dict)
+
+
+def _name(train, element_id: str | None) -> str:
+    """Display name of a disc (its name) or link (its id) for tables."""
+    if element_id is None:
+        return "—"
+    for d in train.discs:
+        if d.id == element_id:
+            return d.name or d.id
+    return element_id
+
+
+def mode_label(modes, i: int) -> str:
+    """'2' for elastic mode number 2; rigid-body modes show their number too."""
+    return f"{int(modes.number[i])}"
+
+
+def frequency_rows(modes, cap_hz: float | None = None) -> list[Row]:
+    """One row per mode: number, Hz, cpm, rigid-body mark, dominant link and disc."""
+    rows = []
+    train = modes.train
+    for i in range(len(modes)):
+        f = float(modes.frequency_hz[i])
+        rigid = bool(modes.rigid_body[i])
+        if rigid:
+            strain = "—"
+        else:
+            li = modes.dominant_link(i)
+            strain = f"{li} ({fmt.percent(float(modes.strain_share[i].max()))} %)" if li else "—"
+        if len(modes.disc_ids):
+            di = modes.dominant_disc(i)
+            kinetic = f"{di} ({fmt.percent(float(modes.kinetic_share[i].max()))} %)"
+        else:
+            kinetic = "—"
+        above = cap_hz is not None and cap_hz > 0 and f > cap_hz
+        tip = ("Rigid-body mode: the whole train turns as one; not screened." if rigid else
+               f"Mode {int(modes.number[i])}: {fmt.hz(f)} Hz = {fmt.cpm(f)} cycles per minute.")
+        if len(modes.disc_ids):
+            tip += f" Largest kinetic energy in {_name(train, modes.dominant_disc(i))}."
+        if above:
+            tip += f" Above the screening cap of {fmt.hz(cap_hz)} Hz: shown, not screened."
+        rows.append(Row([mode_label(modes, i), fmt.hz(f), fmt.cpm(f), "yes" if rigid else "",
+                         strain, kinetic], tip, "muted" if (rigid or above) else None, i))
+    return rows
+
+
+def mode_index(modes, number: int) -> int | None:
+    """Index into ``modes`` of solve mode number ``number`` (None if not solved)."""
+    hit = np.flatnonzero(np.asarray(modes.number) == number)
+    return int(hit[0]) if hit.size else None
+
+
+def band_text(band) -> str:
+    if band is None:
+        return "—"
+    lo, hi = band
+    if lo <= 0 and not math.isfinite(hi):
+        return "all speeds"
+    return f"{fmt.rpm(lo)}–{fmt.rpm(hi)}"
+
+
+def coincidence_rows(screening, modes=None) -> list[Row]:
+    """Coincidences in core's order (worst first)."""
+    modes = modes if modes is not None else screening.modes
+    rows = []
+    for c in screening.coincidences:
+        idx = mode_index(modes, c.mode)
+        where = ("fixed frequency" if c.order is None else
+                 f"order {fmt.order(c.order)} of '{c.line.at}'")
+        tip = (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
+               f"smallest separation {fmt.percent(c.separation)} % over the operating range "
+               f"(required {fmt.percent(screening.margin)} %) at {fmt.rpm(c.worst_speed)} rpm. "
+               "Click to show this mode.")
+        rows.append(Row([str(c.mode), fmt.hz(c.frequency_hz), c.source, fmt.order(c.order),
+                         fmt.rpm(c.crossing_speed), fmt.percent(c.separation), band_text(c.band),
+                         c.status.upper()], tip, c.status, idx, {"coincidence": c}))
+    return rows
+
+
+def cursor_rows(nearest: list[dict], margin: float) -> list[Row]:
+    """Speed-cursor read-out from :func:`core.screening.nearest_at_speed`."""
+    rows = []
+    for r in nearest:
+        line = r["line"]
+        sep = r["separation"]
+        status = None if sep is None else ("fail" if sep < margin else "pass")
+        rows.append(Row([line.source, fmt.order(line.order), fmt.hz(r["excitation_hz"]),
+                         "—" if r["mode"] is None else str(r["mode"]),
+                         "—" if r["natural_hz"] is None else fmt.hz(r["natural_hz"]),
+                         "—" if sep is None else fmt.percent(sep)],
+                        "", status, r["mode"], {"nearest": r}))
+    return rows
+
+
+def response_rows(summary, unit_system: str = "SI") -> list[Row]:
+    """Peak vibratory torque and stress per link from ``core.response.response_summary``.
+
+    SI shows kN*m and MPa through :mod:`app.formatting` (the digits of the
+    command line and the sheet); US customary converts with :mod:`core.units`.
+    """
+    if unit_system == "SI":
+        torque, stress = fmt.torque_knm, fmt.stress_mpa
+    else:
+        tu = units.display_unit(units.TORQUE, unit_system)
+        su = units.display_unit(units.STRESS, unit_system)
+        torque = lambda v: _converted(v, units.TORQUE, tu)  # noqa: E731
+        stress = lambda v: _converted(v, units.STRESS, su)  # noqa: E731
+    rows = []
+    for p in summary:
+        status = None if p.passed is None else ("pass" if p.passed else "fail")
+        rows.append(Row([p.link_id, p.kind, torque(p.peak_torque), fmt.rpm(p.speed_at_peak_torque),
+                         torque(p.permissible_torque), stress(p.peak_stress), fmt.rpm(p.speed_at_peak_stress),
+                         stress(p.permissible_stress), "—" if status is None else status.upper()],
+                        "Peak of the combined (sum over orders) amplitude across the computed speeds.",
+                        status, p.link_id))
+    return rows
+
+
+def response_headers(unit_system: str = "SI") -> tuple:
+    tu = "kN*m" if unit_system == "SI" else units.display_unit(units.TORQUE, unit_system)
+    su = "MPa" if unit_system == "SI" else units.display_unit(units.STRESS, unit_system)
+    return ("Link", "Kind", f"Peak torque, {tu}", "at rpm", f"Permissible, {tu}",
+            f"Peak stress, {su}", "at rpm", f"Permissible, {su}", "Status")
+
+
+def _converted(value, kind, unit: str) -> str:
+    if value is None or not math.isfinite(value):
+        return "—"
+    return f"{units.convert(value, kind, unit):.3g}"

@@ -1,0 +1,357 @@
+"""Result views of the desktop program (app.gui.results), offscreen with pytest-qt.
+
+The views must show exactly what core computed: the expected values here are
+core's own results (core.solver, core.screening) printed through
+app.formatting, which is the contract of the views (issue 4, item 5).
+"""
+from __future__ import annotations
+
+import csv
+import math
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+pytest.importorskip("pytestqt")
+from PySide6 import QtCore, QtGui  # noqa: E402
+
+from app import formatting as fmt  # noqa: E402
+from app.cli import CAUTION  # noqa: E402
+from app.gui.results import ResultsPanel  # noqa: E402
+from app.gui.results import rows as R  # noqa: E402
+from app.gui.results.campbell_view import RPM, margin_band_hz  # noqa: E402
+from app.gui.results.label_layout import Spot, place_labels  # noqa: E402
+from core.project import build_train, load_document  # noqa: E402
+from core.screening import nearest_at_speed, screen  # noqa: E402
+from core.solver import natural_modes  # noqa: E402
+
+SAMPLES = sorted((Path(__file__).resolve().parent.parent / "sample_projects").glob("*.json"))
+IDS = [p.stem for p in SAMPLES]
+
+
+def _solve(path):
+    train = build_train(load_document(path))
+    s = screen(train)
+    return train, s.modes, s
+
+
+@pytest.fixture(params=SAMPLES, ids=IDS)
+def solved(request):
+    return _solve(request.param)
+
+
+@pytest.fixture
+def panel(qtbot):
+    p = ResultsPanel()
+    qtbot.addWidget(p)
+    p.resize(1200, 800)
+    p.show()
+    return p
+
+
+def _shown(model, row, col):
+    return model.data(model.index(row, col), QtCore.Qt.DisplayRole)
+
+
+# ------------------------------------------------------------ frequency table
+def test_frequency_table_rows_equal_core_frequencies(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s, None, 0.003)
+    model = panel.modes_view.table_model
+    assert model.rowCount() == len(modes)
+    for i in range(len(modes)):
+        f = float(modes.frequency_hz[i])
+        assert _shown(model, i, 0) == str(int(modes.number[i]))
+        assert _shown(model, i, 1) == fmt.hz(f)
+        assert _shown(model, i, 2) == fmt.cpm(f)
+        assert _shown(model, i, 3) == ("yes" if modes.rigid_body[i] else "")
+        if not modes.rigid_body[i]:
+            assert _shown(model, i, 4).startswith(modes.dominant_link(i) + " (")
+        assert _shown(model, i, 5).startswith(modes.dominant_disc(i) + " (")
+
+
+def test_selecting_a_frequency_row_draws_that_mode_and_emits(panel, qtbot, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    target = len(modes) - 1
+    view = panel.modes_view.table
+    rect = view.visualRect(panel.modes_view.table_model.index(target, 1))
+    with qtbot.waitSignal(panel.modeSelected, timeout=2000) as sig:
+        qtbot.mouseClick(view.viewport(), QtCore.Qt.LeftButton, pos=rect.center())
+    assert sig.args == [target]
+    assert panel.current_mode_index() == target
+    assert f"Mode {int(modes.number[target])}" in panel.modes_view.title.text()
+
+
+def test_select_mode_is_quiet_and_sticks(panel, qtbot, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    with qtbot.assertNotEmitted(panel.modeSelected):
+        panel.select_mode(1)
+    assert panel.current_mode_index() == 1
+    # a live re-solve keeps the same mode number selected
+    panel.set_results(train, modes, s)
+    assert panel.current_mode_index() == 1
+
+
+def test_mode_shape_plot_shows_the_core_shape(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    i = panel.current_mode_index()
+    import pyqtgraph as pg
+    curves = [c for c in panel.modes_view.upper.listDataItems() if isinstance(c, pg.PlotDataItem)]
+    plotted = {}
+    line = panel.modes_view._line
+    for members in line.series:
+        for d in members:
+            plotted[d] = None
+    assert set(plotted) == set(range(len(train.discs)))  # every disc is on a drawn line
+    ys = np.concatenate([c.yData for c in curves])
+    for d in range(len(train.discs)):
+        assert np.any(np.isclose(ys, modes.shape[i, d]))
+    panel.modes_view.show_box.setCurrentIndex(1)  # energy shares
+    assert "Kinetic energy" in panel.modes_view.upper.getAxis("left").labelText
+
+
+# ------------------------------------------------------------ interference diagram
+def test_campbell_has_one_line_per_elastic_mode_under_the_cap(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    cv = panel.campbell_view
+    expected = [i for i in range(len(modes)) if modes.elastic[i] and modes.frequency_hz[i] <= s.cap_hz]
+    assert sorted(cv._mode_lines) == expected
+    for i, item in cv._mode_lines.items():
+        assert item.angle == 0
+        assert cv._y_inv(item.value()) == pytest.approx(modes.frequency_hz[i], rel=1e-12)
+
+
+def test_campbell_has_one_line_per_excitation_order(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    cv = panel.campbell_view
+    drawn = [c for c in cv.plot.listDataItems() if c.toolTip()]
+    assert [c.toolTip() for c in drawn] == [l.label for l in s.lines]
+    for c, line in zip(drawn, s.lines):
+        x, y = np.asarray(c.xData), np.asarray(c.yData)  # rpm, Hz (raw data, before any log axis)
+        # excitation frequency = order x shaft speed ratio x reference rpm / 60 (definition of an order)
+        assert np.allclose(y, line.frequency(x * RPM), rtol=1e-12)
+
+
+def test_campbell_axis_ranges(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    cv = panel.campbell_view
+    (x0, x1), (y0, y1) = cv.plot.vb.viewRange()
+    top = max(s.speed_max, train.operating.trip_speed or 0.0) / RPM
+    assert x0 == pytest.approx(0.0, abs=1e-6) and x1 == pytest.approx(1.2 * top, rel=1e-6)
+    assert cv._y_inv(y1) == pytest.approx(s.cap_hz, rel=1e-6)
+
+
+def test_coincidence_table_lists_core_coincidences_in_order(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    model = panel.campbell_view.coincidence_model
+    assert model.rowCount() == len(s.coincidences)
+    for r, c in enumerate(s.coincidences):
+        assert _shown(model, r, 0) == str(c.mode)
+        assert _shown(model, r, 2) == c.source
+        assert _shown(model, r, 3) == fmt.order(c.order)
+        assert _shown(model, r, 4) == fmt.rpm(c.crossing_speed)
+        assert _shown(model, r, 5) == fmt.percent(c.separation)
+        assert _shown(model, r, 7) == c.status.upper()
+    rings = panel.campbell_view.rings
+    assert (rings is None) == (not s.coincidences)
+    if rings is not None:
+        assert len(rings.points()) == len(s.coincidences)
+
+
+def _mode_index(modes, number):
+    return int(np.flatnonzero(modes.number == number)[0])
+
+
+def test_clicking_a_coincidence_row_selects_its_mode(panel, qtbot, solved):
+    train, modes, s = solved
+    if not s.coincidences:
+        pytest.skip("no coincidence in this sample")
+    panel.set_results(train, modes, s)
+    panel.tabs.setCurrentIndex(1)
+    view = panel.campbell_view.coincidence_table
+    for r in (len(s.coincidences) - 1, 0):
+        rect = view.visualRect(panel.campbell_view.coincidence_model.index(r, 2))
+        with qtbot.waitSignal(panel.modeSelected, timeout=2000) as sig:
+            qtbot.mouseClick(view.viewport(), QtCore.Qt.LeftButton, pos=rect.center())
+        assert sig.args == [_mode_index(modes, s.coincidences[r].mode)]
+        assert panel.current_mode_index() == sig.args[0]
+
+
+def test_clicking_a_coincidence_ring_selects_its_mode(panel, qtbot, solved):
+    train, modes, s = solved
+    if not s.coincidences:
+        pytest.skip("no coincidence in this sample")
+    panel.set_results(train, modes, s)
+    panel.tabs.setCurrentIndex(1)
+    qtbot.wait(50)
+    cv = panel.campbell_view
+    n = len(s.coincidences) - 1
+    pt = cv.rings.points()[n]
+    scene_pos = cv.plot.vb.mapViewToScene(pt.pos())
+    widget_pos = cv.canvas.mapFromScene(scene_pos)
+    if not cv.canvas.viewport().rect().contains(widget_pos):
+        pytest.skip("ring outside the visible window")
+    hits = [p for p in cv.rings.pointsAt(pt.pos()) if p.data() == n]
+    if not hits:  # another ring drawn on top of it: click through the handler instead
+        pytest.skip("ring hidden under another")
+    with qtbot.waitSignal(cv.modeSelected, timeout=2000) as sig:
+        qtbot.mouseClick(cv.canvas.viewport(), QtCore.Qt.LeftButton, pos=widget_pos)
+    clicked = sig.args[0]
+    assert int(modes.number[clicked]) in {c.mode for c in s.coincidences}
+    assert panel.current_mode_index() == clicked
+
+
+def test_speed_cursor_reads_out_nearest_at_speed(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    cv = panel.campbell_view
+    assert cv.cursor.movable
+    for rpm in (0.5 * s.speed_max / RPM, s.speed_min / RPM, 1.1 * s.speed_max / RPM):
+        cv.set_cursor_rpm(rpm)
+        expected = nearest_at_speed(s, rpm * RPM)
+        model = cv.cursor_model
+        assert model.rowCount() == len(expected)
+        for r, e in enumerate(expected):
+            assert _shown(model, r, 0) == e["line"].source
+            assert _shown(model, r, 2) == fmt.hz(e["excitation_hz"])
+            assert _shown(model, r, 3) == ("—" if e["mode"] is None else str(e["mode"]))
+            assert _shown(model, r, 4) == ("—" if e["natural_hz"] is None else fmt.hz(e["natural_hz"]))
+            assert _shown(model, r, 5) == ("—" if e["separation"] is None else fmt.percent(e["separation"]))
+        assert fmt.rpm(rpm * RPM) in cv.cursor_title.text()
+
+
+def test_margin_band_is_core_separation_band():
+    # sep = |f_n - f_e| / f_e < m  <=>  f_n/(1+m) < f_e < f_n/(1-m)  (separation relative to the
+    # excitation, as core.screening defines it after API 684 -- from memory)
+    lo, hi = margin_band_hz(100.0, 0.1)
+    assert lo == pytest.approx(100.0 / 1.1) and hi == pytest.approx(100.0 / 0.9)
+
+
+def test_log_axis_chosen_for_wide_frequency_span_and_user_can_override(panel):
+    train, modes, s = _solve(SAMPLES[IDS.index("compressor_train")])
+    panel.set_results(train, modes, s)
+    cv = panel.campbell_view
+    assert cv.log_box.isChecked()  # a 151st mesh order would flatten the low modes
+    cv.log_box.setChecked(False)
+    panel.set_results(train, modes, s)
+    assert not cv.log_box.isChecked()
+    (y0, y1), = [cv.plot.vb.viewRange()[1]]
+    assert y1 == pytest.approx(s.cap_hz, rel=1e-6)
+
+
+# ------------------------------------------------------------ verdict, no operating data, clear
+def test_verdict_line_follows_core(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s, None, 0.0123)
+    text = panel.verdict.text()
+    assert text.startswith("PASS" if s.passed else "FAIL")
+    assert "12.3 ms" in panel.details.text()
+    assert f"{len(modes)} modes" in panel.details.text()
+
+
+def test_without_operating_data_only_frequencies(panel):
+    doc = load_document(SAMPLES[IDS.index("pump_set")])
+    for key in ("reference", "operating_speed", "excitations", "margin_percent"):
+        doc.pop(key, None)
+    train = build_train(doc)
+    modes = natural_modes(train, n_modes=4)
+    panel.set_results(train, modes, None)
+    assert panel.modes_view.table_model.rowCount() == len(modes)
+    assert panel.campbell_view.message.isVisibleTo(panel.campbell_view)
+    assert "No operating data" in panel.campbell_view.message.text()
+    assert not panel.tabs.isTabEnabled(2)
+
+
+def test_clear_results_shows_the_message(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    panel.clear_results("The model cannot be solved: link 'x' stiffness: not a number")
+    assert "cannot be solved" in panel.verdict.text()
+    assert panel.modes_view.table_model.rowCount() == 0
+    assert panel.current_mode_index() == -1
+
+
+def test_caution_is_visible_by_default(panel):
+    assert panel.caution.isVisible() and panel.caution.text() == CAUTION
+
+
+# ------------------------------------------------------------ exports
+def _csv_rows(path):
+    with open(path, newline="", encoding="utf-8") as fh:
+        rows = list(csv.reader(fh))
+    notes = [r for r in rows if r and r[0].startswith("#")]
+    return notes, [r for r in rows if r and not r[0].startswith("#")]
+
+
+def test_csv_exports_write_the_rows(panel, solved, tmp_path):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    f = tmp_path / "freq.csv"
+    panel.export_frequency_csv(str(f))
+    notes, rows = _csv_rows(f)
+    assert any(CAUTION in n[0] for n in notes)
+    assert rows[0] == list(R.FREQUENCY_HEADERS)
+    assert [r[1] for r in rows[1:]] == [fmt.hz(v) for v in modes.frequency_hz]
+    c = tmp_path / "coinc.csv"
+    panel.export_coincidence_csv(str(c))
+    _notes, rows = _csv_rows(c)
+    assert rows[0] == list(R.COINCIDENCE_HEADERS)
+    assert [(r[0], r[2], r[5]) for r in rows[1:]] == [
+        (str(x.mode), x.source, fmt.percent(x.separation)) for x in s.coincidences]
+
+
+@pytest.mark.parametrize("which", ["modes", "campbell"])
+@pytest.mark.parametrize("ext", ["png", "svg"])
+def test_plot_exports_write_files(panel, which, ext, tmp_path):
+    train, modes, s = _solve(SAMPLES[IDS.index("engine_genset")])
+    panel.set_results(train, modes, s)
+    out = tmp_path / f"{which}.{ext}"
+    panel.export_plot(which, str(out))
+    assert out.stat().st_size > 1000
+    if ext == "png":
+        img = QtGui.QImage(str(out))
+        assert img.width() >= 1000 and img.height() > 300
+    else:
+        text = out.read_text(encoding="utf-8")
+        assert "<svg" in text and "licensed engineer" in text
+    # the export leaves the on-screen layout as it was (no title or caution rows left behind)
+    canvas = {"modes": panel.modes_view.canvas, "campbell": panel.campbell_view.canvas}[which]
+    assert all(not hasattr(item, "text") or CAUTION not in getattr(item, "text", "")
+               for item in canvas.ci.items)
+
+
+def test_export_menu_actions(panel, qtbot):
+    actions = panel.export_menu_actions(panel)
+    texts = [a.text() for a in actions if not a.isSeparator()]
+    assert "Natural frequencies as CSV…" in texts and "Coincidences as CSV…" in texts
+    for plot in ("Mode shape plot", "Interference diagram", "Forced response plot"):
+        assert f"{plot} as PNG…" in texts and f"{plot} as SVG…" in texts
+    assert all(isinstance(a, QtGui.QAction) for a in actions)
+
+
+# ------------------------------------------------------------ label placement (pure)
+def test_labels_do_not_overlap_and_fall_back_or_hide():
+    spots = [Spot(10, 10, 0, 0), Spot(10, 40, 0, 0)]
+    chosen = place_labels([(50, 12, spots), (50, 12, spots), (50, 12, spots)], 200, 100)
+    assert chosen[0] == spots[0] and chosen[1] == spots[1] and chosen[2] is None
+    assert place_labels([(50, 12, [Spot(190, 10, 0, 0)])], 200, 100) == [None]  # would leave the plot
+
+
+# ------------------------------------------------------------ look (rendered offscreen)
+def test_every_view_renders(panel, solved):
+    train, modes, s = solved
+    panel.set_results(train, modes, s)
+    for tab in range(panel.tabs.count()):
+        if panel.tabs.isTabEnabled(tab):
+            panel.tabs.setCurrentIndex(tab)
+            img = panel.grab().toImage()
+            assert not img.isNull() and img.width() == panel.width()
+    assert math.isfinite(panel.solve_time_s)
