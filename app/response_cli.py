@@ -1,0 +1,186 @@
+"""``twistwise response FILE [--speeds MIN:MAX:COUNT] [--json]``: damped forced response.
+
+Speeds are rpm of the reference shaft.  Exit codes: 0 no permissible value is
+exceeded, 1 at least one is, 2 bad input (raised as ModelError, turned into one
+line on stderr by :mod:`app.cli`).
+"""
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+
+from core.errors import ModelError
+
+from . import formatting as fmt
+
+EXIT_OK, EXIT_FAIL = 0, 1
+RPM = 2.0 * math.pi / 60.0  # rad/s per rpm
+
+
+def parse_speeds(text: str) -> np.ndarray:
+    """'MIN:MAX:COUNT' in rpm -> reference speeds in rad/s (raises ModelError)."""
+    where, fld = "option", "--speeds"
+    parts = str(text).split(":")
+    if len(parts) != 3:
+        raise ModelError(f"give MIN:MAX:COUNT in rpm, e.g. 300:1800:400; got '{text}'", where, fld)
+    try:
+        lo, hi = float(parts[0]), float(parts[1])
+    except ValueError:
+        raise ModelError(f"MIN and MAX must be numbers in rpm, got '{text}'", where, fld) from None
+    try:
+        count = int(parts[2])
+    except ValueError:
+        raise ModelError(f"COUNT must be a whole number, got '{parts[2]}'", where, fld) from None
+    if not (math.isfinite(lo) and math.isfinite(hi)):
+        raise ModelError(f"MIN and MAX must be finite, got '{text}'", where, fld)
+    if lo < 0 or hi < 0:
+        raise ModelError(f"speeds must not be negative, got '{text}'", where, fld)
+    if lo > hi:
+        raise ModelError(f"MIN {lo:g} rpm is greater than MAX {hi:g} rpm", where, fld)
+    if count < 2:
+        raise ModelError(f"COUNT must be at least 2, got {count}", where, fld)
+    if count > 200_000:
+        raise ModelError(f"COUNT {count} is more than 200000 speeds", where, fld)
+    return np.linspace(lo, hi, count) * RPM
+
+
+def _num(v):
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def _list(a):
+    return [_num(v) for v in a]
+
+
+def response_to_json(resp, peaks, over) -> dict:
+    from .cli import CAUTION
+    op = resp.train.operating
+    links = {}
+    for i, lid in enumerate(resp.link_ids):
+        has_stress = bool(np.any(np.isfinite(resp.link_stress[i])))
+        pk = peaks[i]
+        links[lid] = {
+            "kind": resp.link_kinds[i],
+            "torque_amplitude_nm": _list(resp.link_torque[i]),
+            "torque_amplitude_phased_nm": _list(resp.link_torque_phased[i]),
+            "stress_amplitude_pa": _list(resp.link_stress[i]) if has_stress else None,
+            "stress_amplitude_phased_pa": _list(resp.link_stress_phased[i]) if has_stress else None,
+            "dissipated_power_w": _list(resp.link_power[i]),
+            "permissible_torque_nm": _num(resp.permissible_torque[i]),
+            "permissible_stress_pa": _num(resp.permissible_stress[i]),
+            "orders": {label: {"torque_amplitude_nm": _list(resp.order_link_torque[g, i])}
+                       for g, label in enumerate(resp.orders)},
+            "peak": _peak_json(pk),
+        }
+    discs = {d: {"angle_amplitude_rad": _list(resp.disc_angle[j]),
+                 "dissipated_power_w": _list(resp.disc_power[j])}
+             for j, d in enumerate(resp.disc_ids)}
+    return {
+        "title": resp.train.title,
+        "reference": op.reference,
+        "operating_speed_rpm": {"min": fmt.rad_s_to_rpm(op.speed_min), "max": fmt.rad_s_to_rpm(op.speed_max)},
+        "combination": "torque_amplitude_nm and stress_amplitude_pa are the sum of the order "
+                       "amplitudes (conservative); *_phased_* are the peaks of the summed time signal",
+        "speed_rpm": _list(resp.speed_rpm),
+        "orders": [{"label": g.label, "sources": list(g.sources), "order": g.order,
+                    "frequency_hz": _list(resp.order_frequency_hz[k]) if g.fixed_omega is None
+                    else _num(g.fixed_omega / (2 * math.pi))}
+                   for k, g in enumerate(resp.order_groups)],
+        "links": links,
+        "discs": discs,
+        "peaks": [dict(link=p.link_id, **_peak_json(p)) for p in peaks],
+        "exceedances": [{"link": e.link_id, "quantity": e.quantity,
+                         "peak": e.peak, "permissible": e.permissible,
+                         "unit": "N*m" if e.quantity == "torque" else "Pa",
+                         "ratio": e.ratio, "speed_rpm": fmt.rad_s_to_rpm(e.speed),
+                         "exceeded_from_rpm": fmt.rad_s_to_rpm(e.speed_band[0]),
+                         "exceeded_to_rpm": fmt.rad_s_to_rpm(e.speed_band[1])} for e in over],
+        "verdict": "fail" if over else ("pass" if any(p.passed is not None for p in peaks)
+                                        else "no permissible values given"),
+        "notes": list(resp.notes),
+        "caution": CAUTION,
+    }
+
+
+def _peak_json(p) -> dict:
+    rpm = fmt.rad_s_to_rpm
+    return {
+        "kind": p.kind,
+        "peak_torque_nm": _num(p.peak_torque),
+        "peak_torque_phased_nm": _num(p.peak_torque_phased),
+        "speed_at_peak_torque_rpm": rpm(p.speed_at_peak_torque),
+        "permissible_torque_nm": p.permissible_torque,
+        "peak_stress_pa": None if p.peak_stress is None else _num(p.peak_stress),
+        "peak_stress_phased_pa": None if p.peak_stress_phased is None else _num(p.peak_stress_phased),
+        "speed_at_peak_stress_rpm": None if p.speed_at_peak_stress is None else rpm(p.speed_at_peak_stress),
+        "permissible_stress_pa": p.permissible_stress,
+        "peak_power_w": _num(p.peak_power),
+        "passed": p.passed,
+    }
+
+
+def _status(p) -> str:
+    return "—" if p.passed is None else ("PASS" if p.passed else "FAIL")
+
+
+def print_table(resp, peaks, over, path: str) -> None:
+    from .cli import CAUTION
+    train = resp.train
+    op = train.operating
+    rpm = resp.speed_rpm
+    print(f"{train.title} — {path}")
+    print(f"Damped forced response, {len(rpm)} speeds {rpm[0]:.0f}–{rpm[-1]:.0f} rpm of "
+          f"'{op.reference}' (operating range {fmt.rpm(op.speed_min)}–{fmt.rpm(op.speed_max)} rpm), "
+          f"{len(resp.orders)} excitation orders with amplitudes")
+    print("Vibratory amplitudes are the sum over orders (conservative); 'phased' is the peak of the "
+          "summed time signal.")
+    head = (f"{'link':<20} {'kind':<9} {'torque kN*m':>11} {'phased':>8} {'at rpm':>7} {'perm.':>8}  "
+            f"{'stress MPa':>10} {'phased':>7} {'at rpm':>7} {'perm.':>7}  {'power kW':>8}  status")
+    print(head)
+    for p in peaks:
+        stress = p.peak_stress is not None
+        print(f"{p.link_id[:20]:<20} {p.kind:<9} {fmt.torque_knm(p.peak_torque):>11} "
+              f"{fmt.torque_knm(p.peak_torque_phased):>8} {fmt.rpm(p.speed_at_peak_torque):>7} "
+              f"{fmt.torque_knm(p.permissible_torque):>8}  "
+              f"{fmt.stress_mpa(p.peak_stress) if stress else '—':>10} "
+              f"{fmt.stress_mpa(p.peak_stress_phased) if stress else '—':>7} "
+              f"{fmt.rpm(p.speed_at_peak_stress) if stress else '—':>7} "
+              f"{fmt.stress_mpa(p.permissible_stress):>7}  {fmt.power_kw(p.peak_power):>8}  {_status(p)}")
+    for n in resp.notes:
+        print(f"Note: {n}")
+    if over:
+        print(f"Verdict: FAIL — {len(over)} permissible value{'s' if len(over) > 1 else ''} exceeded:")
+        for e in over:
+            if e.quantity == "torque":
+                val, lim, unit = fmt.torque_knm(e.peak), fmt.torque_knm(e.permissible), "kN*m"
+            else:
+                val, lim, unit = fmt.stress_mpa(e.peak), fmt.stress_mpa(e.permissible), "MPa"
+            print(f"  {e.link_id}: vibratory {e.quantity} {val} {unit} > permissible {lim} {unit} "
+                  f"at {fmt.rpm(e.speed)} rpm (exceeded {fmt.rpm(e.speed_band[0])}–"
+                  f"{fmt.rpm(e.speed_band[1])} rpm)")
+    elif any(p.passed is not None for p in peaks):
+        print("Verdict: PASS — no permissible vibratory torque or stress is exceeded at the speeds computed.")
+    else:
+        print("Verdict: none — no link has a permissible vibratory torque or stress.")
+    print(CAUTION)
+
+
+def cmd_response(args) -> int:
+    from core.project import build_train, load_document
+    from core.response import exceedances, forced_response, response_summary
+    train = build_train(load_document(args.file))
+    if train.operating is None:
+        raise ModelError("the project has no operating data: give reference, operating_speed and "
+                         "excitations", "operating data", "operating_speed")
+    speeds = parse_speeds(args.speeds) if getattr(args, "speeds", None) else None
+    resp = forced_response(train, speeds)
+    peaks = response_summary(resp)
+    over = exceedances(resp)
+    if args.json:
+        print(json.dumps(response_to_json(resp, peaks, over), indent=1))
+    else:
+        print_table(resp, peaks, over, args.file)
+    return EXIT_FAIL if over else EXIT_OK

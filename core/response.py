@@ -1,0 +1,771 @@
+"""Damped forced response: vibratory torque, shaft stress and dissipated power
+across the speed range.
+
+Method
+------
+Steady-state harmonic response of the damped train, solved directly (no modal
+truncation).  For every excitation frequency omega the complex dynamic
+stiffness
+
+    Z(omega) = K(omega) - omega^2 M + i omega C + i H
+
+is factored on the train's tree (:mod:`core.elimination`, O(n) per frequency,
+vectorised over all speeds and orders together) and solved for the phasor of
+every disc angle, theta = Z^-1 T.  (Harmonic response by complex dynamic
+stiffness: e.g. W. T. Thomson, Theory of Vibration with Applications, ch.
+"forced harmonic vibration" and "complex stiffness" — from memory.)
+
+* Damping: a disc's ``damping`` is a viscous dashpot to ground; a link's
+  ``damping`` is a relative viscous dashpot across it; a link's ``loss_factor``
+  (or relative damping psi = 2 pi eta, or dynamic magnifier M = 1 / eta) makes
+  its stiffness hysteretic, k (1 + i eta).  On a shaft with distributed mass
+  both act as a complex shear modulus G (1 + i eta + i omega c / k) (a
+  Kelvin-Voigt material carrying the link's dashpot in proportion to
+  stiffness, which is exact for a massless shaft).
+* Excitation: each order of an excitation source acts on its ``at`` disc (or,
+  with ``cylinders``, on every throw with phase ``phase_deg - order * firing_deg``,
+  the vector-sum method of engine torsional analysis); a fixed-frequency source
+  acts on its ``applied_at`` disc.  Torques on geared shafts are referred with
+  the speed factor like everything else (:mod:`core.assembly`).  Amplitudes with
+  ``"scaling": "speed_squared"`` are A (n / n_at)^2 with n the source shaft speed.
+* Harmonics of the same frequency (the same order seen on the reference shaft,
+  from several sources or throws) are superposed with their phases and
+  reported as one order.
+* Per link: the vibratory torque amplitude (largest along a distributed shaft,
+  sampled at 11 stations per segment); for a shaft given by geometry the shear
+  stress amplitude tau = T r / Ip times the stress concentration factor (for a
+  massless or lumped shaft in its smallest section, where T r / Ip is largest);
+  the power dissipated, P = omega/2 Im(theta^H Z_link theta) per order, summed
+  over orders (time averages of different frequencies add).
+* Combining orders: the sum of the order amplitudes (conservative, common
+  practice, no source) is the headline value.  Alongside, the phase-aware
+  synthesis: harmonics whose frequencies stand in small whole-number ratios
+  repeat with a common period and are summed as a time signal over it (peak
+  of |sum| found on a grid of 8 points per shortest period, then polished by
+  Newton steps); groups of harmonics with no such ratio drift in relative phase
+  and eventually line up (Kronecker's approximation theorem, e.g. Hardy &
+  Wright, An Introduction to the Theory of Numbers, ch. 23 — from memory), so
+  their peaks add.
+
+Units: SI throughout — speeds rad/s of the reference shaft, torque N*m,
+stress Pa, angle rad, power W.
+"""
+from __future__ import annotations
+
+import math
+import time
+from dataclasses import dataclass, field
+from fractions import Fraction
+
+import numpy as np
+import scipy.sparse as sp
+
+from .assembly import assemble
+from .elimination import build_schedule, eliminate, solve
+from .errors import ModelError
+from .model import Train
+
+TWO_PI = 2.0 * np.pi
+STATIONS_PER_SEGMENT = 11  # torque samples along a distributed shaft segment
+DEFAULT_SPEED_COUNT = 400
+_MAX_RATIO_DENOMINATOR = 24  # harmonics in ratio p/q, q <= 24, share a period
+_MAX_HARMONIC = 240  # longer common periods are treated as incommensurate (conservative)
+
+
+# ----------------------------------------------------------------- input
+@dataclass(frozen=True)
+class Harmonic:
+    """One harmonic excitation torque on one disc."""
+
+    group: int  # index into the order groups
+    disc: int  # index into train.discs
+    amplitude: float  # N*m (at at_speed for speed_squared scaling)
+    phase: float  # rad
+    at_speed: float | None  # rad/s of the source shaft, for speed_squared scaling
+    source_ratio: float  # source shaft speed per unit reference speed
+
+
+@dataclass(frozen=True)
+class OrderGroup:
+    """Harmonics of one frequency: omega = multiplier * reference speed, or fixed."""
+
+    label: str
+    multiplier: float  # rad/s of excitation per rad/s of reference speed (0 when fixed)
+    fixed_omega: float | None  # rad/s, fixed-frequency sources
+    sources: tuple[str, ...]
+    order: float | None  # order on the source shaft (first source), None if fixed
+
+    def omega(self, speed: np.ndarray) -> np.ndarray:
+        if self.fixed_omega is not None:
+            return np.full(np.shape(speed), self.fixed_omega)
+        return self.multiplier * np.asarray(speed, float)
+
+
+def has_amplitudes(train: Train) -> bool:
+    """True when any excitation order or fixed-frequency source carries an amplitude."""
+    op = train.operating
+    if op is None:
+        return False
+    for e in op.excitations:
+        if e.frequency is not None:
+            if e.amplitude is not None:
+                return True
+        elif any(o.amplitude is not None for o in e.orders):
+            return True
+    return False
+
+
+def excitation_harmonics(train: Train) -> tuple[list[OrderGroup], list[Harmonic]]:
+    """Order groups and the harmonic torques of every excitation with an amplitude."""
+    op = train.operating
+    if op is None:
+        raise ModelError("the project has no operating data: give reference, operating_speed and "
+                         "excitations", "operating data", "operating_speed")
+    index = {d: i for i, d in enumerate(train.disc_ids)}
+    keys: dict = {}
+    labels: list[list] = []
+    harmonics: list[Harmonic] = []
+
+    def group_of(key, label, multiplier, fixed, source, order):
+        if key not in keys:
+            keys[key] = len(labels)
+            labels.append([label, multiplier, fixed, [source], order])
+        else:
+            g = labels[keys[key]]
+            if source not in g[3]:
+                g[3].append(source)
+        return keys[key]
+
+    for e in op.excitations:
+        ew = f"excitation '{e.name}'"
+        if e.frequency is not None:
+            if e.amplitude is None:
+                continue
+            if e.applied_at is None:
+                raise ModelError("a fixed-frequency source with an amplitude needs 'applied_at' (the disc "
+                                 "its torque acts on) for the forced response", ew, "applied_at")
+            w = TWO_PI * e.frequency
+            g = group_of(("fixed", round(w, 9)), f"{e.name} ({e.frequency:g} Hz)", 0.0, w, e.name, None)
+            harmonics.append(Harmonic(g, index[e.applied_at], e.amplitude, math.radians(e.phase_deg),
+                                      None, 1.0))
+            continue
+        ratio = train.relative_speed(e.at, op.reference)
+        throws = e.cylinders or ((e.at, 0.0),)
+        for o in e.orders:
+            if o.amplitude is None:
+                continue
+            mult = o.order * ratio
+            g = group_of(("order", float(f"{mult:.12g}")), f"{e.name}, order {o.order:g}", mult, None,
+                         e.name, o.order)
+            at_speed = o.at_speed if o.scaling == "speed_squared" else None
+            for disc, firing_deg in throws:
+                phase = math.radians(o.phase_deg - o.order * firing_deg)
+                harmonics.append(Harmonic(g, index[disc], o.amplitude, phase, at_speed, ratio))
+    if not harmonics:
+        raise ModelError("no excitation carries an amplitude; give orders as {\"order\": 3, "
+                         "\"amplitude\": \"1.2 kN*m\"} for a forced response", "operating data",
+                         "excitations")
+    groups = []
+    for label, mult, fixed, sources, order in labels:
+        if len(sources) > 1:
+            label = " + ".join(sources) + (f" ({fixed / TWO_PI:g} Hz)" if fixed is not None
+                                           else f", {mult:g} x reference speed")
+        groups.append(OrderGroup(label, mult, fixed, tuple(sources), order))
+    return groups, harmonics
+
+
+def default_speeds(train: Train, groups: list[OrderGroup] | None = None,
+                   count: int = DEFAULT_SPEED_COUNT) -> np.ndarray:
+    """Reference speeds (rad/s) spanning the operating range widened by the margin
+    (up to the trip speed if higher), with every crossing of an order with an
+    undamped natural frequency in that span added, so no resonance peak is
+    stepped over."""
+    op = train.operating
+    if op is None:
+        raise ModelError("the project has no operating data", "operating data", "operating_speed")
+    lo = op.speed_min * (1.0 - op.margin)
+    hi = max(op.speed_max * (1.0 + op.margin), op.trip_speed or 0.0)
+    lo = max(lo, 0.01 * hi)
+    speeds = np.linspace(lo, hi, count)
+    if groups is None:
+        groups = excitation_harmonics(train)[0]
+    mults = np.array([g.multiplier for g in groups if g.fixed_omega is None and g.multiplier > 0])
+    if mults.size:
+        from .solver import natural_modes
+        modes = natural_modes(train, max_frequency_hz=float(mults.max() * hi / TWO_PI) * 1.05)
+        wn = TWO_PI * modes.frequency_hz[modes.elastic]
+        cross = (wn[:, None] / mults[None, :]).ravel()
+        cross = cross[(cross > lo) & (cross < hi)]
+        speeds = np.unique(np.r_[speeds, cross])
+    return speeds
+
+
+# ----------------------------------------------------------------- result
+@dataclass(eq=False)
+class Response:
+    """Forced response over reference speeds; arrays (first axis links/discs/orders, last speeds).
+
+    ``link_torque_phased`` / ``link_stress_phased`` (phase-aware synthesis) are
+    computed on first access, so callers that need only the amplitudes do not
+    pay for the time-signal synthesis.
+    """
+
+    train: Train
+    speed: np.ndarray  # (n_s,) rad/s of the reference shaft
+    link_ids: list
+    disc_ids: list
+    link_kinds: list
+    link_torque: np.ndarray  # (n_links, n_s) N*m, sum of order amplitudes
+    link_stress: np.ndarray  # (n_links, n_s) Pa, NaN rows without geometry
+    disc_angle: np.ndarray  # (n_discs, n_s) rad, sum of order amplitudes
+    link_power: np.ndarray  # (n_links, n_s) W dissipated (time average, all orders)
+    orders: list  # labels
+    order_groups: list
+    order_frequency_hz: np.ndarray  # (n_orders, n_s)
+    order_link_torque: np.ndarray  # (n_orders, n_links, n_s) N*m
+    order_link_stress: np.ndarray  # (n_orders, n_links, n_s) Pa
+    order_disc_angle: np.ndarray  # (n_orders, n_discs, n_s) rad
+    permissible_torque: np.ndarray  # (n_links,) N*m, NaN when not given
+    permissible_stress: np.ndarray  # (n_links,) Pa, NaN when not given
+    disc_power: np.ndarray  # (n_discs, n_s) W dissipated by disc dampers
+    solve_time_s: float = 0.0
+    notes: list = field(default_factory=list)
+    _station: tuple | None = field(default=None, repr=False)
+    _phased: tuple | None = field(default=None, repr=False)
+
+    @property
+    def speed_rpm(self) -> np.ndarray:
+        return self.speed * 60.0 / TWO_PI
+
+    def _synthesise(self):
+        if self._phased is None:
+            t0 = time.perf_counter()
+            Tst, st_link, factor = self._station
+            n_st, ng, ns = Tst.shape
+            nl = len(self.link_ids)
+            peak = _phased_peak(np.moveaxis(Tst, 1, 0).reshape(ng, -1),
+                                _families(self.order_groups)).reshape(n_st, ns)
+            torque = _link_max(peak, st_link, nl)
+            stress = _link_max(peak * np.where(np.isfinite(factor), factor, 0.0)[:, None], st_link, nl)
+            stress[np.all(np.isnan(self.link_stress), axis=1)] = np.nan
+            self._phased = (torque, stress, time.perf_counter() - t0)
+        return self._phased
+
+    @property
+    def link_torque_phased(self) -> np.ndarray:
+        """(n_links, n_s) N*m: peak of the summed time signal (phase-aware synthesis)."""
+        return self._synthesise()[0]
+
+    @property
+    def link_stress_phased(self) -> np.ndarray:
+        """(n_links, n_s) Pa, phase-aware like :attr:`link_torque_phased`."""
+        return self._synthesise()[1]
+
+    @property
+    def synthesis_time_s(self) -> float:
+        return self._synthesise()[2]
+
+
+@dataclass(frozen=True)
+class LinkPeak:
+    link_id: str
+    kind: str
+    peak_torque: float  # N*m, sum of order amplitudes
+    speed_at_peak_torque: float  # rad/s of the reference shaft
+    permissible_torque: float | None
+    peak_stress: float | None  # Pa
+    speed_at_peak_stress: float | None
+    permissible_stress: float | None
+    passed: bool | None  # None when nothing permissible is given
+    peak_torque_phased: float = math.nan
+    peak_stress_phased: float | None = None
+    peak_power: float = 0.0  # W
+    speed_at_peak_power: float | None = None
+
+
+@dataclass(frozen=True)
+class Exceedance:
+    link_id: str
+    quantity: str  # "torque" | "stress"
+    peak: float
+    permissible: float
+    speed: float  # rad/s of the reference shaft, at the peak
+    speed_band: tuple[float, float] = (math.nan, math.nan)  # first and last speed above the limit
+
+    @property
+    def ratio(self) -> float:
+        return self.peak / self.permissible
+
+
+# ----------------------------------------------------------------- solver
+def _complex_members(members, link_factor, omega):
+    """Member end stiffness (K_aa = K_bb, K_ab), complex, shapes (n_members, m).
+
+    ``link_factor`` (n_members, m) is the complex modulus factor 1 + i eta + i omega c / k.
+    Distributed members use the exact field of the torsional wave equation with the
+    complex modulus: k* = k mu, x* = omega L / c / sqrt(mu) (see core.assembly.member_stiffness).
+    """
+    k = members.k[:, None] * link_factor
+    kab = -k
+    dist = members.L_over_c > 0
+    if dist.any():
+        x = members.L_over_c[dist, None] * omega[None, :] / np.sqrt(link_factor[dist])
+        sinc = np.sinc(x / np.pi)
+        sinc = np.where(sinc == 0.0, 1e-300, sinc)
+        kab[dist] = -k[dist] / sinc
+        kaa = -kab.copy()
+        kaa[dist] = -kab[dist] * np.cos(x)
+        return kaa, kab, x
+    return -kab, kab, None
+
+
+def _section_factor(link) -> float:
+    """Largest r / Ip over a shaft's segments, 1/m^3 (NaN without geometry)."""
+    if not link.segments:
+        return math.nan
+    return max(0.5 * s.outer_diameter / s.polar_moment for s in link.segments)
+
+
+def _rigid_mesh_torques(train, asm, omega, phi, forcing, end_torque):
+    """Torque through rigid gear meshes from the equations of motion of their discs.
+
+    For disc d: (-omega^2 J_d + i omega c_d) theta_d - T_ext,d = sum of the link
+    torques acting on it, where a link acts on its `from` disc with -T_from and on
+    its `to` disc with T_to / r (r the speed ratio; power is conserved through a
+    mesh).  A rigid mesh is resolved once every other link at one of its discs is
+    known.  ``end_torque[li] = (T_from, T_to)`` phasors, filled in here for meshes.
+    """
+    links = train.links
+    idx = {d: i for i, d in enumerate(train.disc_ids)}
+    J = np.array([d.inertia for d in train.discs])
+    for l in links:
+        if l.mass == "lumped":
+            for end in (l.from_id, l.to_id):
+                if end in idx:
+                    J[idx[end]] += 0.5 * l.own_inertia
+    c = np.array([d.damping for d in train.discs])
+    theta = asm.disc_scale[:, None] * phi[asm.disc_node]
+    at_disc = {d: [] for d in idx}
+    for li, l in enumerate(links):
+        for end in (l.from_id, l.to_id):
+            if end in at_disc:
+                at_disc[end].append(li)
+
+    def acting_on(lj, d):
+        m = links[lj]
+        r = m.speed_ratio if m.kind == "gear_mesh" else 1.0
+        t_from, t_to = end_torque[lj]
+        return t_to / r if m.to_id == d else -t_from
+
+    pending = [li for li, l in enumerate(links) if l.is_rigid]
+    while pending:
+        progress = False
+        for li in list(pending):
+            l = links[li]
+            for end in (l.from_id, l.to_id):
+                others = [lj for lj in at_disc[end] if lj != li]
+                if not all(lj in end_torque for lj in others):
+                    continue
+                i = idx[end]
+                rest = (-omega ** 2 * J[i] + 1j * omega * c[i]) * theta[i] - forcing[i]
+                for lj in others:
+                    rest = rest - acting_on(lj, end)
+                T = -rest if end == l.from_id else rest * l.speed_ratio
+                end_torque[li] = (T, T)
+                pending.remove(li)
+                progress = True
+                break
+        if not progress:  # a closed gear train cannot be peeled; report no torque
+            for li in pending:
+                nan = np.full(omega.shape, np.nan + 0j)
+                end_torque[li] = (nan, nan)
+            break
+
+
+def _families(groups: list[OrderGroup]):
+    """Split order groups into families of commensurate frequencies.
+
+    Returns a list of (group indices, integer harmonic numbers h) where each
+    group's frequency is h times the family's fundamental; singletons get h = [1].
+    """
+    n = len(groups)
+    parent = list(range(n))
+
+    def find(i):
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    def value(g):
+        return g.fixed_omega if g.fixed_omega is not None else g.multiplier
+
+    def ratio(a, b):
+        r = value(groups[a]) / value(groups[b])
+        f = Fraction(r).limit_denominator(_MAX_RATIO_DENOMINATOR)
+        return f if f and abs(float(f) - r) <= 1e-9 * r else None
+
+    for i in range(n):
+        for j in range(i + 1, n):
+            if (groups[i].fixed_omega is None) != (groups[j].fixed_omega is None):
+                continue  # a fixed frequency drifts against speed-proportional orders
+            if value(groups[i]) <= 0 or value(groups[j]) <= 0:
+                continue
+            if ratio(i, j) is not None:
+                parent[find(i)] = find(j)
+    fams: dict[int, list[int]] = {}
+    for i in range(n):
+        fams.setdefault(find(i), []).append(i)
+    out = []
+    for members in fams.values():
+        if len(members) == 1:
+            out.append((members, [1]))
+            continue
+        base = min(members, key=lambda i: value(groups[i]))
+        fr = [Fraction(value(groups[i]) / value(groups[base])).limit_denominator(_MAX_RATIO_DENOMINATOR)
+              for i in members]
+        L = math.lcm(*(f.denominator for f in fr))
+        h = [int(f * L) for f in fr]
+        g = math.gcd(*h)
+        h = [x // g for x in h]
+        if max(h) > _MAX_HARMONIC:  # too long a common period: treat as drifting (conservative)
+            out.extend(([i], [1]) for i in members)
+        else:
+            out.append((members, h))
+    return out
+
+
+def _family_peak(A: np.ndarray, h: np.ndarray, chunk_cells: int = 2_000_000,
+                 candidates: int = 3) -> np.ndarray:
+    """max over tau of |sum_j Re(A_j exp(i h_j tau))|, A: (n_h, cols) complex, h integers.
+
+    The signal is sampled at 8 points per period of its highest harmonic; the
+    ``candidates`` largest local maxima of |f| on that grid are then polished by
+    Newton steps on f'(tau) = 0, so two nearly equal peaks cannot hide the larger.
+    """
+    n_h, cols = A.shape
+    n_t = max(16, 8 * int(h.max()))
+    tau = np.arange(n_t) * (TWO_PI / n_t)
+    ht = h[None, :] * tau[:, None]
+    E = np.concatenate([np.cos(ht), -np.sin(ht)], axis=1)  # (n_t, 2 n_h)
+    hf = h.astype(float)[:, None, None]
+    out = np.empty(cols)
+    step = max(1, chunk_cells // n_t)
+    kc = min(candidates, n_t)
+    for c0 in range(0, cols, step):
+        a = A[:, c0:c0 + step]
+        S = np.abs(E @ np.concatenate([a.real, a.imag], axis=0))  # (n_t, chunk)
+        local = (S >= np.roll(S, 1, axis=0)) & (S >= np.roll(S, -1, axis=0))
+        j = np.argpartition(np.where(local, S, -1.0), n_t - kc, axis=0)[n_t - kc:]  # (kc, chunk)
+        best = S.max(axis=0)
+        t = tau[j]
+        ar, ai = a.real[:, None, :], a.imag[:, None, :]
+        for _ in range(4):  # Newton on f'(tau) = 0 from each candidate
+            ph = hf * t[None]
+            cs, sn = np.cos(ph), np.sin(ph)
+            d1 = (-hf * (ar * sn + ai * cs)).sum(0)
+            d2 = (-hf ** 2 * (ar * cs - ai * sn)).sum(0)
+            dt = np.divide(d1, d2, out=np.zeros_like(d1), where=d2 != 0)
+            t = t - np.clip(dt, -TWO_PI / n_t, TWO_PI / n_t)  # stay near the grid point
+        ph = hf * t[None]
+        f = np.abs((ar * np.cos(ph) - ai * np.sin(ph)).sum(0)).max(axis=0)
+        out[c0:c0 + step] = np.maximum(best, f)
+    return out
+
+
+def _phased_peak(Tg: np.ndarray, families) -> np.ndarray:
+    """Phase-aware peak of the summed signal; Tg: (n_groups, cols) complex phasors."""
+    total = np.zeros(Tg.shape[1])
+    for members, h in families:
+        if len(members) == 1:
+            total += np.abs(Tg[members[0]])
+        else:
+            total += _family_peak(Tg[members], np.asarray(h))
+    return total
+
+
+def _link_max(values: np.ndarray, station_link: np.ndarray, n_links: int, fill=0.0) -> np.ndarray:
+    """Largest value over each link's stations; values (n_stations, ...) -> (n_links, ...)."""
+    out = np.full((n_links,) + values.shape[1:], fill, dtype=float)
+    if len(station_link) and len(np.unique(station_link)) == len(station_link):
+        out[station_link] = values  # one station per link: nothing to reduce
+    elif len(station_link):
+        order = np.argsort(station_link, kind="stable")
+        sl = station_link[order]
+        starts = np.flatnonzero(np.r_[True, sl[1:] != sl[:-1]])
+        out[sl[starts]] = np.maximum.reduceat(values[order], starts, axis=0)
+    return out
+
+
+class _Setup:
+    """Everything about the train that does not depend on frequency."""
+
+    def __init__(self, train: Train):
+        self.asm = asm = assemble(train)
+        mem = asm.members
+        self.schedule = build_schedule(asm.n_nodes, asm.edges_a, asm.edges_b)
+        self.tree = mem.b >= 0
+        n_mem = len(mem.k)
+        # node <- member scatter as sparse incidence matrices (each member touches a and b)
+        rows = np.r_[mem.a, mem.b[self.tree]]
+        cols = np.r_[np.arange(n_mem), np.flatnonzero(self.tree)]
+        self.incidence = sp.csr_matrix((np.ones(len(rows)), (rows, cols)), shape=(asm.n_nodes, n_mem))
+        nd = len(train.discs)
+        # actual disc torque -> referred node load (times the disc's speed factor)
+        self.disc_to_node = sp.csr_matrix((asm.disc_scale, (asm.disc_node, np.arange(nd))),
+                                          shape=(asm.n_nodes, nd))
+        self.member_to_link = sp.csr_matrix((np.ones(n_mem), (mem.link, np.arange(n_mem))),
+                                            shape=(len(train.links), n_mem))
+        self.eta = np.array([l.loss_factor for l in train.links])[mem.link]
+        self.c_over_k = np.array([l.damping / l.total_stiffness if not l.is_rigid and l.damping else 0.0
+                                  for l in train.links])[mem.link]
+        self.damped = bool(np.any(self.eta) or np.any(self.c_over_k))
+        node_c = np.zeros(asm.n_nodes)
+        np.add.at(node_c, asm.disc_node, np.array([d.damping for d in train.discs]) * asm.disc_scale ** 2)
+        self.node_c = node_c
+        scale = max(float(mem.k.max()) if n_mem else 1.0, 1e-300)
+        self.tiny = 1e-14 * scale
+        self.dist = mem.L_over_c > 0
+        # stations: one per spring member, STATIONS_PER_SEGMENT along each distributed member
+        di = np.flatnonzero(self.dist)
+        s = np.linspace(0.0, 1.0, STATIONS_PER_SEGMENT)
+        self.st_member = np.r_[np.flatnonzero(~self.dist), np.tile(di, len(s))].astype(int)
+        self.st_pos = np.r_[np.zeros(int((~self.dist).sum())), np.repeat(s, len(di))]
+        self.rigid = [li for li, l in enumerate(train.links) if l.is_rigid]
+        self.st_link = np.r_[mem.link[self.st_member], self.rigid].astype(int)
+        factor = [_section_factor(train.links[li]) * train.links[li].stress_concentration
+                  for li in mem.link[self.st_member]]
+        self.st_factor = np.r_[np.array(factor, float), np.full(len(self.rigid), np.nan)]
+
+
+def _solve_chunk(train, st: _Setup, w, forcing):
+    """Node phasors and station torque phasors for frequencies w (m,) and actual disc
+    torques ``forcing`` (n_discs, m)."""
+    asm, mem = st.asm, st.asm.members
+    m = w.size
+    mu = 1.0 + 1j * (st.eta[:, None] + st.c_over_k[:, None] * w[None, :]) if st.damped \
+        else np.ones((len(mem.k), 1), complex)
+    kaa, kab, x_dist = _complex_members(mem, np.broadcast_to(mu, (len(mem.k), m)), w)
+    D = st.incidence @ kaa
+    D += -asm.node_inertia[:, None] * (w * w)[None, :] + 1j * st.node_c[:, None] * w[None, :]
+    W = kab[st.tree]
+    rhs = st.disc_to_node @ forcing
+    _, _, factors = eliminate(st.schedule, D, W, st.tiny, keep=True)
+    phi = solve(st.schedule, factors, rhs)
+    Tst = _station_torques(mem, np.broadcast_to(mu, (len(mem.k), m)), x_dist, phi, st)
+    if st.rigid:
+        Tst = np.concatenate([Tst, _mesh_torques(train, st, w, phi, forcing, Tst)])
+    return phi, kaa, kab, Tst
+
+
+def _member_power(st: _Setup, w, phi, kaa, kab):
+    """Time-average power dissipated in each member, omega/2 Im(u^H Z u), W (n_members, m).
+
+    Only damped members are evaluated; a spring's u^H Z u is k* |theta_a - theta_b|^2.
+    """
+    mem = st.asm.members
+    out = np.zeros((len(mem.k), w.size))
+    lossy = np.flatnonzero(((st.eta != 0) | (st.c_over_k != 0)) & st.dist)  # springs: from |T|
+    if not len(lossy):
+        return out
+    a = phi[mem.a[lossy]]
+    tree = st.tree[lossy]
+    b = np.where(tree[:, None], phi[np.maximum(mem.b[lossy], 0)], 0.0)
+    im = kaa[lossy].imag * (np.abs(a) ** 2 + np.abs(b) ** 2) + 2 * kab[lossy].imag * (np.conj(a) * b).real
+    out[lossy] = 0.5 * w[None, :] * im
+    return out
+
+
+def _station_torques(members, mu, x_dist, phi, st: _Setup):
+    """Torque phasors at every station, in the member's own shaft (n_stations, m).
+
+    A spring carries k* (theta_a - theta_b) throughout; a distributed member
+    T(s) = -k* x* (-theta_a cos(x*(1-s)) + theta_b cos(x* s)) / sin x* (field
+    solution of the wave equation, see core.transfer.shaft_field_matrix).
+    """
+    springs = np.flatnonzero(~st.dist)
+    # actual torque of a spring member = referred stiffness * referred twist / scale
+    twist = phi[members.a[springs]]
+    grounded = ~st.tree[springs]
+    if not grounded.all():
+        twist[~grounded] -= phi[members.b[springs[~grounded]]]
+    gain = (members.k[springs] / members.scale[springs])[:, None]
+    out = [twist * (gain * mu[springs]) if st.damped else twist * gain]
+    if st.dist.any():
+        pa = phi[members.a]
+        pb = np.where(st.tree[:, None], phi[np.maximum(members.b, 0)], 0.0)
+        sc = members.scale[:, None]
+        k_act = (members.k / members.scale ** 2)[:, None] * mu
+        di = np.flatnonzero(st.dist)
+        x = x_dist
+        sn = np.sin(x)
+        sn = np.where(sn == 0.0, 1e-300, sn)
+        small = np.abs(x) < 1e-6
+        ta, tb, k = pa[di] * sc[di], pb[di] * sc[di], k_act[di]
+        for sj in np.linspace(0.0, 1.0, STATIONS_PER_SEGMENT):
+            T = -k * x * (-ta * np.cos(x * (1 - sj)) + tb * np.cos(x * sj)) / sn
+            out.append(np.where(small, k * (ta - tb), T))
+    return np.concatenate(out)
+
+
+def _mesh_torques(train, st: _Setup, w, phi, forcing, Tst):
+    """Torque phasors through the rigid gear meshes, (n_rigid, m)."""
+    mem = st.asm.members
+    sgn = np.where(mem.flip, -1.0, 1.0)
+    end_torque = {}
+
+    def at(member, pos):  # a spring has one station: its torque is uniform
+        sel = np.flatnonzero((st.st_member == member) & (np.isclose(st.st_pos, pos) | ~st.dist[member]))
+        return Tst[sel[0]] * sgn[member]
+
+    for li in range(len(train.links)):
+        ms = np.flatnonzero(mem.link == li)
+        if len(ms):
+            first, last = ms[0], ms[-1]
+            end_torque[li] = (at(first, 1.0 if mem.flip[first] else 0.0),
+                              at(last, 0.0 if mem.flip[last] else 1.0))
+    _rigid_mesh_torques(train, st.asm, w, phi, forcing, end_torque)
+    return np.stack([end_torque[li][0] for li in st.rigid])
+
+
+def forced_response(train: Train, speeds=None, chunk_columns: int = 4096) -> Response:
+    """Steady-state damped response to every excitation with an amplitude.
+
+    ``speeds``: reference-shaft speeds in rad/s (default :func:`default_speeds`).
+    Frequencies are solved in chunks of about ``chunk_columns`` (speed x order)
+    columns, which keeps the working arrays in cache.  Raises ModelError when the
+    train has no operating data or no amplitudes.
+    """
+    t0 = time.perf_counter()
+    groups, harmonics = excitation_harmonics(train)
+    speeds = default_speeds(train, groups) if speeds is None else np.asarray(speeds, float).ravel()
+    if speeds.size == 0 or np.any(~np.isfinite(speeds)) or np.any(speeds < 0):
+        raise ModelError("speeds must be finite and not negative", "option", "speeds")
+    st = _Setup(train)
+    asm, mem = st.asm, st.asm.members
+    nd, nl, ng, ns = len(train.discs), len(train.links), len(groups), speeds.size
+    n_st = len(st.st_link)
+    omega = np.stack([g.omega(speeds) for g in groups])  # (ng, ns)
+    geom = np.array([l.has_geometry for l in train.links], bool)
+    geom_st = np.flatnonzero(np.isfinite(st.st_factor))  # stations that carry a stress
+    springs = np.flatnonzero(~st.dist)  # spring members are the first stations
+    ks = (mem.k / mem.scale ** 2)[springs][:, None]
+    damped_discs = np.flatnonzero([d.damping > 0 for d in train.discs])
+    disc_c = np.array([d.damping for d in train.discs])[damped_discs][:, None]
+    Tst_all = np.empty((n_st, ng, ns), complex)  # kept for the phase-aware synthesis
+    order_link_torque = np.zeros((ng, nl, ns))
+    order_link_stress = np.full((ng, nl, ns), np.nan)
+    link_torque = np.zeros((nl, ns))
+    link_stress = np.full((nl, ns), np.nan)
+    theta_abs = np.empty((nd, ng, ns))
+    power = np.zeros((nl, ns))
+    disc_power = np.zeros((nd, ns))
+    geom_links = np.unique(st.st_link[geom_st])
+    step = max(1, chunk_columns // ng)
+    for s0 in range(0, ns, step):
+        s1 = min(ns, s0 + step)
+        cs = s1 - s0
+        sp_ = speeds[s0:s1]
+        om = omega[:, s0:s1]
+        forcing = np.zeros((nd, ng, cs), complex)
+        for hm in harmonics:
+            amp = hm.amplitude if hm.at_speed is None else \
+                hm.amplitude * (sp_ * hm.source_ratio / hm.at_speed) ** 2
+            forcing[hm.disc, hm.group] += amp * np.exp(1j * hm.phase)
+        forcing[:, om == 0.0] = 0.0  # an order has no vibratory part at standstill
+        w = om.ravel()
+        forcing = forcing.reshape(nd, -1)
+        phi, kaa, kab, Tst = _solve_chunk(train, st, w, forcing)
+        Tst_all[:, :, s0:s1] = Tst.reshape(n_st, ng, cs)
+        absT = np.abs(Tst)  # (n_st, m)
+        a3 = absT.reshape(n_st, ng, cs)
+        order_link_torque[:, :, s0:s1] = np.moveaxis(_link_max(a3, st.st_link, nl), 1, 0)
+        link_torque[:, s0:s1] = _link_max(a3.sum(1), st.st_link, nl)
+        if len(geom_st):
+            sf = st.st_factor[geom_st][:, None, None]
+            ols = _link_max(a3[geom_st] * sf, st.st_link[geom_st], nl)
+            order_link_stress[:, geom_links, s0:s1] = np.moveaxis(ols[geom_links], 1, 0)
+            link_stress[geom_links, s0:s1] = _link_max((a3[geom_st] * sf).sum(1),
+                                                       st.st_link[geom_st], nl)[geom_links]
+        theta = asm.disc_scale[:, None] * phi[asm.disc_node]
+        theta_abs[:, :, s0:s1] = np.abs(theta).reshape(nd, ng, cs)
+        if len(damped_discs):
+            disc_power[damped_discs, s0:s1] = (0.5 * disc_c * w[None, :] ** 2 * theta_abs[
+                damped_discs, :, s0:s1].reshape(len(damped_discs), -1) ** 2).reshape(-1, ng, cs).sum(1)
+        if st.damped:  # dissipated power, omega/2 Im(u^H Z u) per member; orders add
+            p_mem = _member_power(st, w, phi, kaa, kab)
+            # springs: omega/2 Im(k*) |twist|^2 = omega/2 Im(k*) / |k*|^2 |T|^2
+            loss = st.eta[springs][:, None] + st.c_over_k[springs][:, None] * w[None, :]
+            p_mem[springs] = 0.5 * w[None, :] * loss / (ks * (1.0 + loss ** 2)) * absT[:len(springs)] ** 2
+            power[:, s0:s1] = (st.member_to_link @ p_mem).reshape(nl, ng, cs).sum(1)
+    link_stress[~geom] = np.nan
+    notes = []
+    if st.rigid and not np.all(np.isfinite(Tst_all[len(st.st_member):])):
+        notes.append("a closed gear train: torque through some rigid meshes is not resolved")
+
+    def permissible(attr):
+        return np.array([getattr(l, attr) if getattr(l, attr) is not None else np.nan
+                         for l in train.links], float)
+
+    resp = Response(train, speeds, train.link_ids, train.disc_ids, [l.kind for l in train.links],
+                    link_torque, link_stress, theta_abs.sum(1), np.maximum(power, 0.0),
+                    [g.label for g in groups], groups, omega / TWO_PI, order_link_torque,
+                    order_link_stress, np.moveaxis(theta_abs, 1, 0), permissible("permissible_torque"),
+                    permissible("permissible_stress"), disc_power,
+                    time.perf_counter() - t0, notes)
+    resp._station = (Tst_all, st.st_link, st.st_factor)
+    return resp
+
+
+# ----------------------------------------------------------------- summaries
+def _opt(v) -> float | None:
+    v = float(v)
+    return v if math.isfinite(v) else None
+
+
+def response_summary(resp: Response) -> list[LinkPeak]:
+    """Peak values per link over the computed speeds, with pass/fail against the
+    permissible values (sum of order amplitudes, the conservative combination)."""
+    out = []
+    for i, lid in enumerate(resp.link_ids):
+        T = resp.link_torque[i]
+        jt = int(np.nanargmax(T)) if np.any(np.isfinite(T)) else 0
+        S = resp.link_stress[i]
+        has_s = bool(np.any(np.isfinite(S)))
+        js = int(np.nanargmax(S)) if has_s else None
+        P = resp.link_power[i]
+        jp = int(np.argmax(P)) if P.size else None
+        pt, ps = _opt(resp.permissible_torque[i]), _opt(resp.permissible_stress[i])
+        checks = []
+        if pt is not None:
+            checks.append(bool(T[jt] <= pt))
+        if ps is not None and has_s:
+            checks.append(bool(S[js] <= ps))
+        out.append(LinkPeak(lid, resp.link_kinds[i], float(T[jt]), float(resp.speed[jt]), pt,
+                            float(S[js]) if has_s else None,
+                            float(resp.speed[js]) if has_s else None, ps,
+                            all(checks) if checks else None,
+                            float(np.nanmax(resp.link_torque_phased[i])),
+                            float(np.nanmax(resp.link_stress_phased[i])) if has_s else None,
+                            float(P[jp]) if jp is not None else 0.0,
+                            float(resp.speed[jp]) if jp is not None else None))
+    return out
+
+
+def exceedances(resp: Response) -> list[Exceedance]:
+    """Every link and quantity whose combined amplitude exceeds its permissible value,
+    worst (largest ratio) first."""
+    out = []
+    for i, lid in enumerate(resp.link_ids):
+        for qty, values, limit in (("torque", resp.link_torque[i], resp.permissible_torque[i]),
+                                   ("stress", resp.link_stress[i], resp.permissible_stress[i])):
+            if not math.isfinite(limit) or not np.any(np.isfinite(values)):
+                continue
+            over = np.flatnonzero(values > limit)
+            if not len(over):
+                continue
+            j = int(np.nanargmax(values))
+            out.append(Exceedance(lid, qty, float(values[j]), float(limit), float(resp.speed[j]),
+                                  (float(resp.speed[over[0]]), float(resp.speed[over[-1]]))))
+    out.sort(key=lambda e: -e.ratio)
+    return out
