@@ -164,7 +164,7 @@ class ModesView(QtWidgets.QWidget):
 
     def _draw_twist(self, m, i, line, names) -> None:
         shape = m.shape[i]
-        self.upper.setLabel("left", "Twist angle (largest = 1)")
+        self.upper.setLabel("left", "Twist angle (largest = 1)", siPrefixEnableRanges=())
         self.upper.addItem(pg.InfiniteLine(0, angle=0, pen=theme.pen(theme.INK_MUTED, theme.THIN_WIDTH)))
         for s, members in enumerate(line.series):
             self.upper.plot(line.disc_x[members], shape[members], pen=theme.series_pen(s, theme.BOLD_WIDTH))
@@ -185,16 +185,14 @@ class ModesView(QtWidgets.QWidget):
 
         torque = np.nan_to_num(m.link_torque[i], nan=0.0, posinf=0.0, neginf=0.0)
         self.lower.setLabel("left", "Modal torque", units="N·m/rad")
-        self.lower.getAxis("left").enableAutoSIPrefix(True)
         self._bars(self.lower, line, torque, lambda j, v: (
             f"{m.link_ids[j]}: modal torque {v:+.4g} N·m per rad of largest twist"))
 
     def _draw_energy(self, m, i, line, names) -> None:
         ke = 100.0 * m.kinetic_share[i]
         se = 100.0 * m.strain_share[i]
-        self.upper.setLabel("left", "Kinetic energy, %")
-        self.lower.setLabel("left", "Strain energy, %")
-        self.lower.getAxis("left").enableAutoSIPrefix(False)
+        self.upper.setLabel("left", "Kinetic energy, %", siPrefixEnableRanges=())
+        self.lower.setLabel("left", "Strain energy, %", siPrefixEnableRanges=())
         colors = [theme.series_color(s) for s in range(len(line.series))]
         bx, bw = side_by_side(line.disc_x, 0.55)
         bar = pg.BarGraphItem(x=bx, height=ke, width=bw,

@@ -21,7 +21,7 @@ from .plotting import PlotCanvas, new_plot
 from .table import RowsModel, fit_columns, make_table_view
 
 RPM = 2.0 * math.pi / 60.0
-TORQUE, STRESS = "Vibratory torque", "Vibratory shear stress"
+TORQUE, STRESS, SHARE = "Vibratory torque", "Vibratory shear stress", "Share of permissible"
 SUM, PHASED = "Sum of order amplitudes (conservative)", "Phase-aware synthesis"
 MAX_DEFAULT_LINKS = 4
 
@@ -45,9 +45,11 @@ class ResponseView(QtWidgets.QWidget):
         self.unit_system = "SI"
 
         self.quantity = QtWidgets.QComboBox(self)
-        self.quantity.addItems([TORQUE, STRESS])
-        self.quantity.setToolTip("Vibratory torque amplitude in each chosen link, or the shear stress "
-                                 "amplitude (shafts with geometry, times their stress concentration factor).")
+        self.quantity.addItems([TORQUE, STRESS, SHARE])
+        self.quantity.setToolTip("Vibratory torque amplitude in each chosen link; the shear stress amplitude "
+                                 "(shafts with geometry, times their stress concentration factor); or the "
+                                 "amplitude as a share of the link's permissible torque or stress, so links "
+                                 "of very different size read on one scale.")
         self.combination = QtWidgets.QComboBox(self)
         self.combination.setToolTip("How the orders are combined: the plain sum of amplitudes is "
                                     "conservative; the phase-aware synthesis uses the given phases. "
@@ -64,6 +66,7 @@ class ResponseView(QtWidgets.QWidget):
         self.canvas.export_title = "Forced response"
         self.plot = new_plot(self.canvas, 0, "Reference speed, rpm", "")
         self.plot.getAxis("left").setWidth(72)
+        self._rpm, self._plotted = None, []
         self.legend = self.plot.addLegend(offset=(8, 8), labelTextColor=theme.INK,
                                           brush=theme.brush((255, 255, 255, 220)))
         self.hover = QtWidgets.QLabel(self)
@@ -134,14 +137,19 @@ class ResponseView(QtWidgets.QWidget):
         self.canvas.export_title = f"{train.title}: forced response"
 
         has_stress = bool(np.isfinite(np.asarray(resp.link_stress, float)).any())
+        has_limits = any(p.passed is not None for p in self.summary)
         self.quantity.model().item(1).setEnabled(has_stress)
-        if not has_stress and self.quantity.currentIndex() == 1:
+        self.quantity.model().item(2).setEnabled(has_limits)
+        if (not has_stress and self.quantity.currentIndex() == 1) or \
+                (not has_limits and self.quantity.currentIndex() == 2):
             self.quantity.setCurrentIndex(0)
 
         self.combination.blockSignals(True)
         keep = self.combination.currentText()
         self.combination.clear()
-        self.combination.addItems([SUM, PHASED] + [f"Order {o} alone" for o in resp.orders])
+        self.combination.addItems([SUM, PHASED] + [f"Only {o}" for o in resp.orders])
+        for k, o in enumerate(resp.orders):
+            self.combination.setItemData(2 + k, o, QtCore.Qt.ToolTipRole)
         i = self.combination.findText(keep)
         self.combination.setCurrentIndex(max(i, 0))
         self.combination.blockSignals(False)
@@ -205,21 +213,33 @@ class ResponseView(QtWidgets.QWidget):
 
     # ------------------------------------------------------------ drawing
     def _quantity_changed(self) -> None:
-        stress = self.quantity.currentText() == STRESS
-        self.combination.setEnabled(not stress)  # stress is given for the summed amplitudes only
         self._draw()
 
-    def _series(self, j: int, stress: bool):
+    def _torque_or_stress(self, j: int, stress: bool):
+        """Amplitude of link j over speed for the chosen combination of orders (N*m or Pa)."""
         r = self.response
-        if stress:
-            return np.asarray(r.link_stress[j], float)
         text = self.combination.currentText()
         if text == PHASED:
-            return np.asarray(r.link_torque_phased[j], float)
-        if text.startswith("Order ") and text.endswith(" alone"):
-            k = [f"Order {o} alone" for o in r.orders].index(text)
-            return np.asarray(r.order_link_torque[k, j], float)
-        return np.asarray(r.link_torque[j], float)
+            name = "link_stress_phased" if stress else "link_torque_phased"
+            if hasattr(r, name):
+                return np.asarray(getattr(r, name)[j], float)
+        elif text.startswith("Only "):
+            k = self.combination.currentIndex() - 2
+            name = "order_link_stress" if stress else "order_link_torque"
+            if hasattr(r, name) and 0 <= k < len(r.orders):
+                return np.asarray(getattr(r, name)[k, j], float)
+        return np.asarray((r.link_stress if stress else r.link_torque)[j], float)
+
+    def _share(self, j: int, peak):
+        """Largest of torque / permissible torque and stress / permissible stress, in %."""
+        parts = []
+        if peak is not None and peak.permissible_torque:
+            parts.append(self._torque_or_stress(j, False) / peak.permissible_torque)
+        if peak is not None and peak.permissible_stress:
+            parts.append(self._torque_or_stress(j, True) / peak.permissible_stress)
+        if not parts:
+            return None
+        return 100.0 * np.nanmax(np.vstack(parts), axis=0)
 
     def _draw(self) -> None:
         p = self.plot
@@ -228,17 +248,23 @@ class ResponseView(QtWidgets.QWidget):
         r = self.response
         if r is None:
             return
-        stress = self.quantity.currentText() == STRESS
-        kind = units.STRESS if stress else units.TORQUE
-        unit = units.display_unit(kind, self.unit_system)
-        if self.unit_system == "SI":
-            scale, axis_unit = 1.0, ("Pa" if stress else "N·m")
-            p.getAxis("left").enableAutoSIPrefix(True)
+        quantity = self.quantity.currentText()
+        stress = quantity == STRESS
+        share = quantity == SHARE
+        if share:
+            scale = 1.0
+            p.setLabel("left", f"{quantity}, %", siPrefixEnableRanges=())
         else:
-            scale, axis_unit = units.convert(1.0, kind, unit), unit
-            p.getAxis("left").enableAutoSIPrefix(False)
-        p.setLabel("left", STRESS if stress else TORQUE, units=axis_unit)
+            kind = units.STRESS if stress else units.TORQUE
+            unit = units.display_unit(kind, self.unit_system)
+            if self.unit_system == "SI":  # N*m or Pa with an automatic k / M prefix
+                scale = 1.0
+                p.setLabel("left", quantity, units="Pa" if stress else "N·m")
+            else:
+                scale = units.convert(1.0, kind, unit)
+                p.setLabel("left", f"{quantity}, {unit}", siPrefixEnableRanges=())
         rpm = np.asarray(r.speed, float) / RPM
+        self._rpm = rpm
         op = self.train.operating if self.train is not None else None
         if op is not None:
             lo, hi = op.speed_min / RPM, op.speed_max / RPM
@@ -246,39 +272,56 @@ class ResponseView(QtWidgets.QWidget):
                 band = pg.LinearRegionItem((lo, hi), movable=False, brush=theme.brush(theme.OPERATING_BAND),
                                            pen=theme.pen(theme.PASS, theme.THIN_WIDTH))
             else:
-                band = pg.InfiniteLine(lo, angle=90, pen=theme.pen(theme.PASS, theme.BOLD_WIDTH))
+                band = pg.InfiniteLine(lo, angle=90, pen=theme.pen(theme.OPERATING_BAND[:3] + (110,), 7.0))
             band.setZValue(-20)
             band.setToolTip(f"{op.range_name}: {fmt.rpm(op.speed_min)}–{fmt.rpm(op.speed_max)} rpm")
             p.addItem(band)
             if op.trip_speed:
-                p.addItem(pg.InfiniteLine(op.trip_speed / RPM, angle=90, pen=theme.trip_pen(),
-                                          label="trip", labelOpts={"position": 0.95, "color": theme.INK_MUTED}))
-        links = {p_.link_id: p_ for p_ in self.summary}
+                trip = pg.InfiniteLine(op.trip_speed / RPM, angle=90, pen=theme.trip_pen())
+                trip.setToolTip(f"Trip speed {fmt.rpm(op.trip_speed)} rpm")
+                p.addItem(trip)
+        peaks = {p_.link_id: p_ for p_ in self.summary}
         top = 0.0
+        self._plotted = []
+        if share:
+            limit = pg.InfiniteLine(100.0, angle=0, pen=theme.permissible_pen(), label="permissible (100 %)",
+                                    labelOpts={"position": 0.98, "color": theme.PERMISSIBLE,
+                                               "anchors": [(1, 1), (1, 1)]})
+            p.addItem(limit)
+            top = 100.0
         for n, lid in enumerate(self.checked_links()):
             j = list(r.link_ids).index(lid)
-            y = self._series(j, stress) * scale
-            if not np.isfinite(y).any():
+            peak = peaks.get(lid)
+            y = self._share(j, peak) if share else self._torque_or_stress(j, stress) * scale
+            if y is None or not np.isfinite(y).any():
                 continue
             top = max(top, float(np.nanmax(y)))
             p.plot(rpm, y, pen=theme.series_pen(n, theme.BOLD_WIDTH), name=lid)
-            peak = links.get(lid)
-            allowed = None if peak is None else (peak.permissible_stress if stress else peak.permissible_torque)
+            self._plotted.append((lid, y))
+            if share or peak is None:
+                continue
+            allowed = peak.permissible_stress if stress else peak.permissible_torque
             if allowed is not None and math.isfinite(allowed):
                 a = allowed * scale
                 top = max(top, a)
                 p.addItem(pg.InfiniteLine(a, angle=0, pen=theme.pen(theme.series_color(n), theme.LINE_WIDTH,
                                                                     QtCore.Qt.DashLine),
                                           label=f"permissible, {lid}",
-                                          labelOpts={"position": 0.02, "color": theme.series_color(n),
-                                                     "anchors": [(0, 1), (0, 1)]}))
+                                          labelOpts={"position": 0.98, "color": theme.series_color(n),
+                                                     "anchors": [(1, 1), (1, 1)]}))
         if len(rpm):
             p.setXRange(float(rpm.min()), float(rpm.max()), padding=0)
-        p.setYRange(0.0, top * 1.1 if top > 0 else 1.0, padding=0)
+        p.setYRange(0.0, top * 1.12 if top > 0 else 1.0, padding=0)
 
     def _mouse_moved(self, ev) -> None:
         pos = ev[0]
         if self.response is None or not self.plot.sceneBoundingRect().contains(pos):
             return
         pt = self.plot.vb.mapSceneToView(pos)
-        self.hover.setText(f"Pointer: {pt.x():.0f} rpm, {pt.y():.4g}")
+        rpm = getattr(self, "_rpm", None)
+        if rpm is None or not len(rpm):
+            return
+        k = int(np.clip(np.searchsorted(rpm, pt.x()), 0, len(rpm) - 1))
+        unit = self.plot.getAxis("left").labelUnits
+        values = ", ".join(f"{lid} {y[k]:.4g}" for lid, y in getattr(self, "_plotted", []))
+        self.hover.setText(f"At {rpm[k]:.0f} rpm: {values}" + (f" ({unit})" if unit else ""))
