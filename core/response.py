@@ -61,7 +61,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from .assembly import assemble
-from .elimination import build_schedule, eliminate, solve
+from .elimination import build_schedule, factor, solve_factored
 from .errors import ModelError
 from .model import Train
 
@@ -316,7 +316,7 @@ def _complex_members(members, link_factor, omega):
         kaa = -kab.copy()
         kaa[dist] = -kab[dist] * np.cos(x)
         return kaa, kab, x
-    return -kab, kab, None
+    return k, kab, None  # springs: K_aa = k*, K_ab = -k*
 
 
 def _section_factor(link) -> float:
@@ -436,40 +436,51 @@ def _families(groups: list[OrderGroup]):
 
 
 def _family_peak(A: np.ndarray, h: np.ndarray, chunk_cells: int = 2_000_000,
-                 candidates: int = 3) -> np.ndarray:
+                 candidates: int = 3, fine: int = 17) -> np.ndarray:
     """max over tau of |sum_j Re(A_j exp(i h_j tau))|, A: (n_h, cols) complex, h integers.
 
-    The signal is sampled at 8 points per period of its highest harmonic; the
-    ``candidates`` largest local maxima of |f| on that grid are then polished by
-    Newton steps on f'(tau) = 0, so two nearly equal peaks cannot hide the larger.
+    The signal is sampled at 8 points per period of its highest harmonic; around
+    each of the ``candidates`` largest local maxima of |f| on that grid it is
+    sampled again at ``fine`` points over +-1 grid step (the shift is a constant
+    matrix exp(i h delta), so this is one small matrix product), and the peak is
+    read off by parabolic interpolation through the three best fine samples.
+    Two nearly equal peaks therefore cannot hide the larger one.
     """
     n_h, cols = A.shape
     n_t = max(16, 8 * int(h.max()))
-    tau = np.arange(n_t) * (TWO_PI / n_t)
-    ht = h[None, :] * tau[:, None]
-    E = np.concatenate([np.cos(ht), -np.sin(ht)], axis=1)  # (n_t, 2 n_h)
-    hf = h.astype(float)[:, None, None]
+    dt = TWO_PI / n_t
+    tau = np.arange(n_t) * dt
+    table = np.exp(1j * h[None, :] * tau[:, None])  # (n_t, n_h)
+    E = np.concatenate([table.real, -table.imag], axis=1).astype(np.float32)
+    delta = np.linspace(-dt, dt, fine)
+    P = np.exp(1j * h[:, None] * delta[None, :])  # (n_h, fine)
+    Pr, Pi = P.real, P.imag
     out = np.empty(cols)
     step = max(1, chunk_cells // n_t)
     kc = min(candidates, n_t)
     for c0 in range(0, cols, step):
         a = A[:, c0:c0 + step]
-        S = np.abs(E @ np.concatenate([a.real, a.imag], axis=0))  # (n_t, chunk)
-        local = (S >= np.roll(S, 1, axis=0)) & (S >= np.roll(S, -1, axis=0))
-        j = np.argpartition(np.where(local, S, -1.0), n_t - kc, axis=0)[n_t - kc:]  # (kc, chunk)
-        best = S.max(axis=0)
-        t = tau[j]
-        ar, ai = a.real[:, None, :], a.imag[:, None, :]
-        for _ in range(4):  # Newton on f'(tau) = 0 from each candidate
-            ph = hf * t[None]
-            cs, sn = np.cos(ph), np.sin(ph)
-            d1 = (-hf * (ar * sn + ai * cs)).sum(0)
-            d2 = (-hf ** 2 * (ar * cs - ai * sn)).sum(0)
-            dt = np.divide(d1, d2, out=np.zeros_like(d1), where=d2 != 0)
-            t = t - np.clip(dt, -TWO_PI / n_t, TWO_PI / n_t)  # stay near the grid point
-        ph = hf * t[None]
-        f = np.abs((ar * np.cos(ph) - ai * np.sin(ph)).sum(0)).max(axis=0)
-        out[c0:c0 + step] = np.maximum(best, f)
+        ch = a.shape[1]
+        # coarse grid in single precision: it only picks the candidates
+        S = np.abs(np.concatenate([a.real, a.imag], axis=0).T.astype(np.float32) @ E.T)  # (ch, n_t)
+        r = np.arange(ch)
+        j = []
+        for _ in range(kc):  # largest sample, then the largest away from the ones taken
+            jc = np.argmax(S, axis=1)
+            j.append(jc)
+            for off in (-2, -1, 0, 1, 2):
+                S[r, (jc + off) % n_t] = -1.0
+        best = np.zeros(ch)
+        for c in range(len(j)):
+            B = a * table[j[c]].T  # phasors shifted to the candidate grid point (n_h, ch)
+            F = np.abs(B.real.T @ Pr - B.imag.T @ Pi)  # (ch, fine)
+            m = np.clip(np.argmax(F, axis=1), 1, fine - 2)
+            y0, y1, y2 = F[r, m - 1], F[r, m], F[r, m + 1]
+            den = y0 - 2 * y1 + y2
+            shift = np.divide(y0 - y2, 2 * den, out=np.zeros(ch), where=den < 0)
+            peak = np.where(np.abs(shift) <= 1, y1 - 0.25 * (y0 - y2) * shift, y1)
+            best = np.maximum(best, np.maximum(peak, F.max(axis=1)))
+        out[c0:c0 + step] = best
     return out
 
 
@@ -480,7 +491,9 @@ def _phased_peak(Tg: np.ndarray, families) -> np.ndarray:
         if len(members) == 1:
             total += np.abs(Tg[members[0]])
         else:
-            total += _family_peak(Tg[members], np.asarray(h))
+            fam = Tg[members]
+            # the sum of amplitudes bounds the peak; interpolation must not step over it
+            total += np.minimum(_family_peak(fam, np.asarray(h)), np.abs(fam).sum(0))
     return total
 
 
@@ -514,6 +527,12 @@ class _Setup:
         # actual disc torque -> referred node load (times the disc's speed factor)
         self.disc_to_node = sp.csr_matrix((asm.disc_scale, (asm.disc_node, np.arange(nd))),
                                           shape=(asm.n_nodes, nd))
+        # assemble straight into the elimination order of core.elimination
+        order = self.schedule.order
+        self.position = self.schedule.position
+        self.incidence_e = self.incidence[order]
+        self.disc_to_node_e = self.disc_to_node[order]
+        self.inertia_e = asm.node_inertia[order][:, None]
         self.member_to_link = sp.csr_matrix((np.ones(n_mem), (mem.link, np.arange(n_mem))),
                                             shape=(len(train.links), n_mem))
         self.eta = np.array([l.loss_factor for l in train.links])[mem.link]
@@ -523,6 +542,7 @@ class _Setup:
         node_c = np.zeros(asm.n_nodes)
         np.add.at(node_c, asm.disc_node, np.array([d.damping for d in train.discs]) * asm.disc_scale ** 2)
         self.node_c = node_c
+        self.node_c_e = node_c[self.schedule.order][:, None]
         scale = max(float(mem.k.max()) if n_mem else 1.0, 1e-300)
         self.tiny = 1e-14 * scale
         self.dist = mem.L_over_c > 0
@@ -546,12 +566,17 @@ def _solve_chunk(train, st: _Setup, w, forcing):
     mu = 1.0 + 1j * (st.eta[:, None] + st.c_over_k[:, None] * w[None, :]) if st.damped \
         else np.ones((len(mem.k), 1), complex)
     kaa, kab, x_dist = _complex_members(mem, np.broadcast_to(mu, (len(mem.k), m)), w)
-    D = st.incidence @ kaa
-    D += -asm.node_inertia[:, None] * (w * w)[None, :] + 1j * st.node_c[:, None] * w[None, :]
-    W = kab[st.tree]
-    rhs = st.disc_to_node @ forcing
-    _, _, factors = eliminate(st.schedule, D, W, st.tiny, keep=True)
-    phi = solve(st.schedule, factors, rhs)
+    sch = st.schedule
+    D = st.incidence_e @ kaa  # diagonal, already in elimination order
+    D -= st.inertia_e * (w * w)[None, :]
+    if st.node_c.any():
+        D += 1j * st.node_c_e * w[None, :]
+    W = np.empty((sch.n_slots, m), complex)
+    if len(sch.slot_of_edge):
+        W[sch.slot_of_edge] = kab[st.tree]
+    rhs = (st.disc_to_node_e @ forcing).astype(complex)
+    _, _, factors = factor(sch, D, W, st.tiny, logdet=False, keep=True)
+    phi = solve_factored(sch, factors, rhs)[st.position]  # back to node order
     Tst = _station_torques(mem, np.broadcast_to(mu, (len(mem.k), m)), x_dist, phi, st)
     if st.rigid:
         Tst = np.concatenate([Tst, _mesh_torques(train, st, w, phi, forcing, Tst)])

@@ -121,8 +121,9 @@ def test_phase_aware_synthesis_matches_a_dense_time_signal():
     tau = np.linspace(0, 2 * np.pi, 20001)
     for j in range(len(speeds)):
         sig = (Tst[0, j] * np.exp(1j * tau) + Tst[1, j] * np.exp(2j * tau)).real
-        assert r.link_torque_phased[0, j] == pytest.approx(np.abs(sig).max(), rel=1e-6)
-    assert np.all(r.link_torque_phased[0] <= r.link_torque[0] * (1 + 1e-12))
+        # grid + parabolic interpolation: ~1e-5 of the peak
+        assert r.link_torque_phased[0, j] == pytest.approx(np.abs(sig).max(), rel=1e-4)
+    assert np.all(r.link_torque_phased[0] <= r.link_torque[0] * (1 + 1e-9))
 
 
 def test_phased_synthesis_of_incommensurate_sources_is_the_sum():
