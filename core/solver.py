@@ -81,6 +81,21 @@ class DynamicSystem:
         # diagonal = incidence @ K_aa (K_aa = K_bb for a uniform member)
         self._incidence = sp.csr_matrix((np.ones(len(rows)), (rows, cols)),
                                         shape=(a.n_nodes, len(mem.a)))
+        self._free_end, far_is_a = self._condensable(a)
+        if len(self._free_end):
+            # counting: a member with a free massless end is condensed exactly, so
+            # its far end takes -k x tan x, not K_aa - K_ab^2 / K_aa (that cancels
+            # near the member's poles, where a free-free shaft has its roots)
+            fe = self._free_end
+            drop_a = np.zeros(len(mem.a), bool)
+            drop_a[fe[far_is_a]] = True
+            drop_b = np.zeros(len(mem.a), bool)
+            drop_b[fe[~far_is_a]] = True
+            keep = ~np.r_[drop_a, drop_b[t]]
+            self._incidence_count = sp.csr_matrix(
+                (np.ones(int(keep.sum())), (rows[keep], cols[keep])), shape=(a.n_nodes, len(mem.a)))
+            self._free_far_pos = np.where(far_is_a, pa[fe], pb[fe])
+            self._free_slot = sch.slot_of_edge[a.member_edge[fe]]
         self._slot = sch.slot_of_edge[a.member_edge[t]]
         self._edge_slot = np.empty(0, np.int64)
         self._pa, self._pb = pa, pb
@@ -90,17 +105,40 @@ class DynamicSystem:
         # points per elimination pass: bounds the working arrays to a few MB
         self.chunk = int(np.clip(2 ** 21 // max(a.n_nodes, 1), 16, 1024))
 
-    def _arrays(self, w, squared: bool = False):
+    @staticmethod
+    def _condensable(a: Assembly):
+        """Distributed tree members with a massless end joined to nothing else
+        (a free end): member indices, and whether their far end is the `a` end."""
+        mem = a.members
+        t = mem.b >= 0
+        deg = np.bincount(np.r_[mem.a, mem.b[t]], minlength=a.n_nodes)
+        leaf = (a.node_inertia == 0) & (deg == 1)
+        dist = t & (mem.L_over_c > 0)
+        b_free = dist & leaf[np.maximum(mem.b, 0)]
+        a_free = dist & leaf[mem.a] & ~b_free
+        idx = np.flatnonzero(b_free | a_free)
+        return idx, b_free[idx]  # the far end is `a` when `b` is free
+
+    def _arrays(self, w, squared: bool = False, exact: bool = False):
         """Permuted diagonal (n, m) and slot array (n_slots, m) of K(omega)
-        (squared off-diagonals with ``squared``)."""
+        (squared off-diagonals with ``squared``).  ``exact``: the true matrix
+        (for solves); otherwise free massless ends may be condensed, which
+        keeps the inertia and the determinant."""
         sch = self.schedule
         Wp = np.empty((sch.n_slots, w.size))
         if self.asm.distributed:
             kaa, kab = member_stiffness(self.asm.members, w)
-            D = self._incidence @ kaa
+            cond = len(self._free_end) and not exact
+            D = (self._incidence_count if cond else self._incidence) @ kaa
             D -= self.J[:, None] * (w * w)[None, :]
             kab = kab[self._tree]
             Wp[self._slot] = kab * kab if squared else kab
+            if cond:
+                mem = self.asm.members
+                fe = self._free_end
+                x = mem.L_over_c[fe][:, None] * w[None, :]
+                np.subtract.at(D, self._free_far_pos, mem.k[fe][:, None] * x * np.tan(x))
+                Wp[self._free_slot] = 0.0
         else:
             D = np.multiply.outer(self.J, -(w * w))
             D += self._Kd[:, None]
@@ -119,7 +157,7 @@ class DynamicSystem:
 
     def _evaluate_piece(self, w, logdet: bool, keep: bool):
         count_only = not (logdet or keep)
-        D, Wp = self._arrays(w, squared=count_only)
+        D, Wp = self._arrays(w, squared=count_only, exact=keep)
         neg, ld, factors = factor(self.schedule, D, Wp, self.tiny, logdet, keep, squared=count_only)
         bad = neg < 0  # met 0 * inf in the unchecked count: redo with zero-pivot care
         if bad.any():
@@ -333,7 +371,8 @@ def _polish_lumped(system: DynamicSystem, targets, lo, hi):
         if K > 1:
             d = np.abs(np.diff(w))
             gap = np.minimum(gap, np.minimum(np.r_[np.inf, d], np.r_[d, np.inf]))
-        rtol = np.clip(1e-6 * (gap / np.maximum(w, 1e-300)) ** (2 / 3), 1e-15, 1e-6)
+        rel_gap = np.maximum(gap, 0.0) / np.maximum(w, 1e-300)
+        rtol = np.clip(1e-6 * rel_gap ** (2 / 3), 1e-15, 1e-6)
         idx = np.flatnonzero(active)
         if not len(idx):
             break
@@ -431,6 +470,8 @@ def _find_roots(system: DynamicSystem, targets: np.ndarray, hi: float, c_hi: int
         x = _inverse_iteration(system, omega)
     else:
         omega, x = _polish_lumped(system, targets, lo, hi_)
+    order = np.argsort(omega, kind="stable")  # a repeated root may come out a rounding apart
+    omega, x = omega[order], x[:, order]
     x = _separate_repeated(system, omega, x)
     phi = np.empty_like(x)
     phi[system.schedule.order] = x
@@ -569,7 +610,8 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
     sign = np.sign(theta[jmax, np.arange(theta.shape[1])])
     sign = np.where(sign == 0, 1.0, sign)
     norm = sign / big
-    theta = theta * norm
+    theta = np.clip(theta * norm, -1.0, 1.0)
+    theta[jmax, np.arange(theta.shape[1])] = 1.0  # exactly, not a rounding below
     phi = phi * norm
     # member end angles in actual units of the member's own shaft
     pa = phi[mem.a]

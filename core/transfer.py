@@ -16,12 +16,17 @@ import numpy as np
 
 
 def point_matrix(omega, inertia):
-    """Disc of polar inertia J: theta unchanged, T_right = T_left - omega^2 J theta."""
+    """Disc of polar inertia J: theta unchanged, T_right = T_left + omega^2 J theta.
+
+    The shaft on the left drives the disc with T_left, the one on the right
+    takes T_right: J theta'' = T_left - T_right, and theta'' = -omega^2 theta
+    (Holzer's table: T_i = sum of omega^2 J theta, Thomson -- from memory).
+    """
     w = np.asarray(omega, float)
     P = np.zeros(w.shape + (2, 2))
     P[..., 0, 0] = 1.0
     P[..., 1, 1] = 1.0
-    P[..., 1, 0] = -w ** 2 * inertia
+    P[..., 1, 0] = w ** 2 * inertia
     return P
 
 
