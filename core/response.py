@@ -543,6 +543,12 @@ class _Setup:
         np.add.at(node_c, asm.disc_node, np.array([d.damping for d in train.discs]) * asm.disc_scale ** 2)
         self.node_c = node_c
         self.node_c_e = node_c[self.schedule.order][:, None]
+        # springs without viscous link damping: the complex stiffness is the same at every omega
+        self.constant_stiffness = not (np.any(mem.L_over_c > 0) or np.any(self.c_over_k))
+        if self.constant_stiffness:
+            self.mu_static = (1.0 + 1j * self.eta)[:, None]
+            self.kmu_static = mem.k[:, None] * self.mu_static
+            self.diag_static = np.asarray(self.incidence_e @ self.kmu_static)
         scale = max(float(mem.k.max()) if n_mem else 1.0, 1e-300)
         self.tiny = 1e-14 * scale
         self.dist = mem.L_over_c > 0
@@ -558,28 +564,35 @@ class _Setup:
         self.st_factor = np.r_[np.array(factor, float), np.full(len(self.rigid), np.nan)]
 
 
-def _solve_chunk(train, st: _Setup, w, forcing):
-    """Node phasors and station torque phasors for frequencies w (m,) and actual disc
-    torques ``forcing`` (n_discs, m)."""
+def _solve_chunk(train, st: _Setup, w, forcing, forced):
+    """Node phasors and station torque phasors for frequencies w (m,); ``forcing``
+    (n_forced, m) are the actual torques on the discs with indices ``forced``."""
     asm, mem = st.asm, st.asm.members
     m = w.size
-    mu = 1.0 + 1j * (st.eta[:, None] + st.c_over_k[:, None] * w[None, :]) if st.damped \
-        else np.ones((len(mem.k), 1), complex)
-    kaa, kab, x_dist = _complex_members(mem, np.broadcast_to(mu, (len(mem.k), m)), w)
     sch = st.schedule
-    D = st.incidence_e @ kaa  # diagonal, already in elimination order
-    D -= st.inertia_e * (w * w)[None, :]
+    if st.constant_stiffness:  # springs with hysteretic damping only: k* does not vary
+        mu = st.mu_static
+        kaa, kab, x_dist = st.kmu_static, -st.kmu_static, None
+        D = st.diag_static - st.inertia_e * (w * w)[None, :]
+    else:
+        mu = 1.0 + 1j * (st.eta[:, None] + st.c_over_k[:, None] * w[None, :])
+        kaa, kab, x_dist = _complex_members(mem, mu, w)
+        D = st.incidence_e @ kaa  # diagonal, already in elimination order
+        D -= st.inertia_e * (w * w)[None, :]
     if st.node_c.any():
-        D += 1j * st.node_c_e * w[None, :]
+        D = D + 1j * st.node_c_e * w[None, :]
+    D = D.astype(complex, copy=False)
     W = np.empty((sch.n_slots, m), complex)
     if len(sch.slot_of_edge):
         W[sch.slot_of_edge] = kab[st.tree]
-    rhs = (st.disc_to_node_e @ forcing).astype(complex)
+    rhs = np.asarray(st.disc_to_node_e[:, forced] @ forcing, complex)
     _, _, factors = factor(sch, D, W, st.tiny, logdet=False, keep=True)
     phi = solve_factored(sch, factors, rhs)[st.position]  # back to node order
-    Tst = _station_torques(mem, np.broadcast_to(mu, (len(mem.k), m)), x_dist, phi, st)
+    Tst = _station_torques(mem, mu, x_dist, phi, st)
     if st.rigid:
-        Tst = np.concatenate([Tst, _mesh_torques(train, st, w, phi, forcing, Tst)])
+        full = np.zeros((len(train.discs), m), complex)
+        full[forced] = forcing
+        Tst = np.concatenate([Tst, _mesh_torques(train, st, w, phi, full, Tst)])
     return phi, kaa, kab, Tst
 
 
@@ -686,21 +699,23 @@ def forced_response(train: Train, speeds=None, chunk_columns: int = 4096) -> Res
     power = np.zeros((nl, ns))
     disc_power = np.zeros((nd, ns))
     geom_links = np.unique(st.st_link[geom_st])
+    forced = np.unique([hm.disc for hm in harmonics])
+    forced_row = {int(d): i for i, d in enumerate(forced)}
+    plain_discs = bool(np.array_equal(asm.disc_node, np.arange(nd)) and np.all(asm.disc_scale == 1.0))
     step = max(1, chunk_columns // ng)
     for s0 in range(0, ns, step):
         s1 = min(ns, s0 + step)
         cs = s1 - s0
         sp_ = speeds[s0:s1]
         om = omega[:, s0:s1]
-        forcing = np.zeros((nd, ng, cs), complex)
+        forcing = np.zeros((len(forced), ng, cs), complex)
         for hm in harmonics:
             amp = hm.amplitude if hm.at_speed is None else \
                 hm.amplitude * (sp_ * hm.source_ratio / hm.at_speed) ** 2
-            forcing[hm.disc, hm.group] += amp * np.exp(1j * hm.phase)
+            forcing[forced_row[hm.disc], hm.group] += amp * np.exp(1j * hm.phase)
         forcing[:, om == 0.0] = 0.0  # an order has no vibratory part at standstill
         w = om.ravel()
-        forcing = forcing.reshape(nd, -1)
-        phi, kaa, kab, Tst = _solve_chunk(train, st, w, forcing)
+        phi, kaa, kab, Tst = _solve_chunk(train, st, w, forcing.reshape(len(forced), -1), forced)
         Tst_all[:, :, s0:s1] = Tst.reshape(n_st, ng, cs)
         absT = np.abs(Tst)  # (n_st, m)
         a3 = absT.reshape(n_st, ng, cs)
@@ -712,7 +727,7 @@ def forced_response(train: Train, speeds=None, chunk_columns: int = 4096) -> Res
             order_link_stress[:, geom_links, s0:s1] = np.moveaxis(ols[geom_links], 1, 0)
             link_stress[geom_links, s0:s1] = _link_max((a3[geom_st] * sf).sum(1),
                                                        st.st_link[geom_st], nl)[geom_links]
-        theta = asm.disc_scale[:, None] * phi[asm.disc_node]
+        theta = phi[:nd] if plain_discs else asm.disc_scale[:, None] * phi[asm.disc_node]
         theta_abs[:, :, s0:s1] = np.abs(theta).reshape(nd, ng, cs)
         if len(damped_discs):
             disc_power[damped_discs, s0:s1] = (0.5 * disc_c * w[None, :] ** 2 * theta_abs[
