@@ -155,16 +155,15 @@ def compute(doc: dict, project_path=None) -> SheetData:
 
 # ----------------------------------------------------------------- helpers
 def num(value: float, digits: int = 4) -> str:
-    """A model value with ``digits`` significant digits, without exponent in the usual range."""
+    """A model value to ``digits`` significant digits, trailing zeros dropped, no exponent in the
+    usual range (310000, 0.045, 2738)."""
     if value is None or not math.isfinite(value):
         return "—"
     if value == 0:
         return "0"
-    mag = math.floor(math.log10(abs(value)))
-    if -3 <= mag < 7:
-        dec = max(0, digits - 1 - mag)
-        return f"{round(value, dec - 0 if dec else -(mag - digits + 1)):.{dec}f}" if dec else \
-            f"{round(value, -(mag - digits + 1)):.0f}"
+    rounded = float(f"{value:.{digits}g}")
+    if 1e-4 <= abs(rounded) < 1e9:
+        return np.format_float_positional(rounded, trim="-")
     m, e = f"{value:.{digits - 1}e}".split("e")
     return f"{m}×10^{int(e)}"
 
@@ -351,7 +350,7 @@ def model_block(data: SheetData, width, system: str):
     head = ["Link", "Kind", "From / to", f"Stiffness ({unit_of(u.STIFFNESS, system)})",
             f"Geometry: length × outer dia. / bore ({L})", "Material", "Mass model", "Speed ratio",
             "Damping, limits"]
-    w = [0.15, 0.08, 0.14, 0.09, 0.14, 0.09, 0.09, 0.06, 0.16]
+    w = [0.14, 0.075, 0.13, 0.10, 0.15, 0.09, 0.09, 0.06, 0.165]
     rows = []
     kinds = {"shaft": "shaft", "coupling": "coupling", "gear_mesh": "gear mesh"}
     for l in train.links:
@@ -383,7 +382,7 @@ def model_block(data: SheetData, width, system: str):
         rows.append([escape(l.id), kinds[l.kind], f"{escape(l.from_id)}<br/>{escape(l.to_id)}", k_text, geo,
                      escape(l.material.name) if l.material else "—", l.mass if l.kind == "shaft" else "—",
                      f"{l.speed_ratio:g}" if l.kind == "gear_mesh" else "—", "<br/>".join(extras) or "—"])
-    out.append(data_table(head, rows, [f * width for f in w], align_right=(3, 7)))
+    out.append(data_table(head, rows, [f * width for f in w], align_right=(3,)))
     mats = {l.material.name: l.material for l in train.links if l.material}
     if mats:
         txt = "; ".join(f"{escape(m.name)}: G = {qty(m.shear_modulus, u.MODULUS, system)} "
@@ -445,7 +444,8 @@ def mode_shape_block(data: SheetData, width):
                            ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2)]))
     note = ("Twist angle of each disc, normalised to the largest (+1), against its column in the schematic; "
             "a branch is drawn in its own colour, a geared branch in the angle of its own shaft. "
-            "Top right: the link with the largest share of strain energy.")
+            "Under each title: the link with the largest share of the mode's strain energy. Angles are shown "
+            "at the discs; the inside of a shaft with distributed mass is not drawn.")
     return [KeepTogether([Paragraph(f"Mode shapes (first {len(elastic)} elastic modes)", st["h1"]), t,
                           Paragraph(note, st["note"])])]
 
@@ -458,7 +458,9 @@ def campbell_block(data: SheetData, width, frame_h):
     # a detail of the lowest modes when the full chart squeezes them together
     nat = [float(s.modes.frequency_hz[i]) for i in range(len(s.modes))
            if s.modes.elastic[i] and s.modes.frequency_hz[i] <= s.cap_hz]
-    detail = len(nat) >= 2 and s.cap_hz > 12 * nat[min(2, len(nat) - 1)]
+    y_detail = nat[min(2, len(nat) - 1)] * 1.6 if nat else 0.0
+    detail = (len(nat) >= 2 and s.cap_hz > 8 * y_detail
+              and sum(c.frequency_hz <= y_detail for c in s.coincidences) >= 2)
     dwg = charts.campbell_drawing(s, width, plot_height=frame_h * (0.3 if detail else 0.44))
     note = ("Excitation lines are labelled with their order at the edge where they leave the chart; "
             "the margin band around each natural frequency holds the excitation frequencies f_e with "
@@ -467,7 +469,6 @@ def campbell_block(data: SheetData, width, frame_h):
                          fit_frame(dwg, width, frame_h),
                          Paragraph(note, st["note"])])]
     if detail:
-        y_detail = nat[min(2, len(nat) - 1)] * 1.6
         dwg2 = charts.campbell_drawing(s, width, plot_height=frame_h * 0.26, y_max_hz=y_detail,
                                        title=f"Detail up to {y_detail:.0f} Hz (key as above)",
                                        with_legend=False)
@@ -556,7 +557,7 @@ def response_block(data: SheetData, width, system: str):
         op = data.train.operating
         cw = width / 2
         cells = [charts.response_drawing(
-            speed_rpm, v, perm, cw - 4, 150, (fmt.rad_s_to_rpm(op.speed_min), fmt.rad_s_to_rpm(op.speed_max)),
+            speed_rpm, v, perm, cw - 4, 135, (fmt.rad_s_to_rpm(op.speed_min), fmt.rad_s_to_rpm(op.speed_max)),
             title=f"{lid}: peak {num(float(np.nanmax(v)))} {tu}", y_title=f"torque amplitude ({tu})",
             x_title="reference speed (rpm)", colour=charts.PALETTE[k % len(charts.PALETTE)])
             for k, (lid, v, perm) in enumerate(curves)]
@@ -616,7 +617,8 @@ def method_block(data: SheetData):
         "events (motor start-up, short circuit, run-through of a resonance during acceleration) are not "
         "analysed. Lateral and axial coupling, foundations and electrical stiffness of motors are outside "
         "the model.")
-    return [Paragraph("Method and assumptions", st["h1"])] + [Paragraph(p, st["body"]) for p in paras]
+    return [KeepTogether([Paragraph("Method and assumptions", st["h1"])] +
+                         [Paragraph(p, st["body"]) for p in paras])]
 
 
 # ----------------------------------------------------------------- page furniture
