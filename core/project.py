@@ -95,9 +95,10 @@ def _opt(obj: dict, key: str, kind, where: str):
     return None if value is None else u.parse(value, kind, where, key)
 
 
-def _positive(value: float, where: str, key: str, allow_zero: bool = False) -> float:
+def _positive(value: float, where: str, key: str, allow_zero: bool = False, unit: str = "") -> float:
     if value < 0 or (value == 0 and not allow_zero):
-        raise ModelError(f"must be {'zero or ' if allow_zero else ''}greater than zero, got {value:g}",
+        got = f"{value:g} {unit}".strip()
+        raise ModelError(f"must be {'zero or ' if allow_zero else ''}greater than zero, got {got}",
                          where, key)
     return value
 
@@ -110,9 +111,9 @@ def _material(spec, where: str) -> Material:
         return LIBRARY[spec]
     if isinstance(spec, dict):
         G = _positive(u.parse(spec.get("shear_modulus"), u.MODULUS, where, "material.shear_modulus"),
-                      where, "material.shear_modulus")
+                      where, "material.shear_modulus", unit="Pa")
         rho = _positive(u.parse(spec.get("density"), u.DENSITY, where, "material.density"),
-                        where, "material.density")
+                        where, "material.density", unit="kg/m^3")
         return Material(str(spec.get("name", "custom")), G, rho, "given in the project")
     raise ModelError("give a library name or {\"shear_modulus\": ..., \"density\": ...}",
                      where, "material")
@@ -168,7 +169,7 @@ def _link(obj, index: int) -> Link:
         ends.append(v)
     k = _opt(obj, "stiffness", u.STIFFNESS, where)
     if k is not None:
-        _positive(k, where, "stiffness")
+        _positive(k, where, "stiffness", unit="N*m/rad")
     segments: tuple[Segment, ...] = ()
     material = None
     mass = obj.get("mass")
@@ -185,11 +186,11 @@ def _link(obj, index: int) -> Link:
                 sw = f"{where} segment {i + 1}"
                 if not isinstance(s, dict):
                     raise ModelError("each segment must be a JSON object", sw)
-                L = _positive(u.parse(s.get("length"), u.LENGTH, sw, "length"), sw, "length")
+                L = _positive(u.parse(s.get("length"), u.LENGTH, sw, "length"), sw, "length", unit="m")
                 D = _positive(u.parse(s.get("outer_diameter"), u.LENGTH, sw, "outer_diameter"), sw,
-                              "outer_diameter")
+                              "outer_diameter", unit="m")
                 d = _opt(s, "inner_diameter", u.LENGTH, sw) or 0.0
-                _positive(d, sw, "inner_diameter", allow_zero=True)
+                _positive(d, sw, "inner_diameter", allow_zero=True, unit="m")
                 if d >= D:
                     raise ModelError(f"bore {d * 1e3:g} mm must be smaller than the outer diameter "
                                      f"{D * 1e3:g} mm", sw, "inner_diameter")
