@@ -258,3 +258,27 @@ def test_forced_response_section_when_amplitudes_are_given(tmp_path, capsys):
         assert fmt.rpm(peak.speed_at_peak_torque) in flat
     exceeded = bool(response.exceedances(response.forced_response(train)))
     assert code == (1 if exceeded or not screen(train).passed else 0)
+
+
+def test_branched_grounded_train_draws_every_disc(tmp_path):
+    # an invented geared train: a 40-disc main line, three geared branches, a torsion bar to ground
+    discs = [{"id": f"m{i:02d}", "inertia": f"{1 + i % 4} kg*m^2"} for i in range(40)]
+    links = [{"id": f"ms{i}", "kind": "shaft", "from": f"m{i:02d}", "to": f"m{i + 1:02d}",
+              "stiffness": "3 MN*m/rad"} for i in range(39)]
+    links.append({"id": "torsion_bar", "kind": "shaft", "from": "m00", "to": "ground", "stiffness": "0.5 MN*m/rad"})
+    for b, at in enumerate((8, 20, 33)):
+        ids = [f"b{b}_{j}" for j in range(6)]
+        discs += [{"id": i, "inertia": "0.5 kg*m^2"} for i in ids]
+        links.append({"id": f"mesh{b}", "kind": "gear_mesh", "from": f"m{at:02d}", "to": ids[0],
+                      "speed_ratio": 2.0 + b})
+        links += [{"id": f"b{b}s{j}", "kind": "coupling" if j == 2 else "shaft", "from": ids[j],
+                   "to": ids[j + 1], "stiffness": "1 MN*m/rad"} for j in range(5)]
+    doc = {"format": "twistwise-project", "version": 1, "title": "Geared branches", "discs": discs,
+           "links": links, "reference": "m00", "operating_speed": {"min": "1000 rpm", "max": "1500 rpm"},
+           "excitations": [{"name": "Once per rev", "at": "m00", "orders": [1]}]}
+    out = tmp_path / "b.pdf"
+    write_review_sheet(doc, None, out)
+    pages = pdf_pages(out)
+    schematic = "\n".join(p for p in pages if "Train schematic" in p or "part " in p)
+    toks = tokens(schematic)
+    assert all(d["id"] in toks for d in discs)

@@ -302,7 +302,7 @@ def mode_shape_drawing(modes, i: int, placement, width: float, height: float, li
     col = np.array([placement.column.get(x, 0) for x in ids], float)
     row = np.array([placement.row.get(x, 0) for x in ids])
     n_cols = max(placement.n_columns, 1)
-    bottom = 22 if label_discs and n_cols <= 14 else 12
+    bottom = 30 if label_discs and n_cols <= 14 else 12
     p = Plot(d, 22, bottom, width - 28, height - bottom - 24, (-0.5, n_cols - 0.5), (-1.15, 1.15),
              x_labels=False, grid=False, font_size=5.5)
     p.ya.valueStep = 1.0
@@ -336,7 +336,7 @@ def mode_shape_drawing(modes, i: int, placement, width: float, height: float, li
         for k, x in enumerate(ids):
             if row[k] != 0:
                 continue
-            g = Group(String(0, 0, fit_text(x, bottom - 3, 4.8), fontName=FONT, fontSize=4.8,
+            g = Group(String(0, 0, fit_text(x, bottom * 1.1, 4.8), fontName=FONT, fontSize=4.8,
                              fillColor=GREY, textAnchor="end"))
             g.translate(p.sx(col[k]) + 1.7, p.y0 - 2)
             g.rotate(60)

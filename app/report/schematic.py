@@ -16,7 +16,7 @@ from reportlab.graphics.shapes import Circle, Drawing, Line, Polygon, Rect, Stri
 from reportlab.lib import colors
 
 from ..schematic_layout import place_document
-from .charts import drawing, fit_text
+from .charts import drawing, fit_text, text_width
 from .styles import FONT, GREY, INK, ITALIC
 
 DISC_FILL = colors.HexColor("#c9d6e8")
@@ -178,9 +178,10 @@ def schematic_drawings(doc: dict, train, width: float) -> list[Drawing]:
             x, y = X(c), Y(r)
             d.add(Rect(x - bw / 2, y - h / 2, bw, h, fillColor=DISC_FILL, strokeColor=DISC_EDGE,
                        strokeWidth=0.7, strokeDashArray=(1.5, 1.5) if train.disc(x_id).inertia <= 0 else None))
-            label = fit_text(x_id, pitch - 3, 5.6)
-            # alternate labels below and above on a tight pitch, so neighbours never touch
-            below = pitch >= 54 or c % 2 == 0
+            # a label wider than the pitch alternates below and above, so neighbours never touch
+            wide = text_width(x_id, 5.6) > pitch - 4
+            label = fit_text(x_id, 2 * pitch - 8 if wide else pitch - 3, 5.6)
+            below = not wide or c % 2 == 0
             ly = y - H_MAX / 2 - 7 if below else y + H_MAX / 2 + 2.5
             d.add(String(x, ly, label, fontName=FONT, fontSize=5.6, fillColor=INK, textAnchor="middle"))
         drawings.append(d)

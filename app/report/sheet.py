@@ -302,8 +302,8 @@ def verdict_block(data: SheetData, width):
                          "torque or stress, so nothing was judged.")
         if s is not None and not s.passed and not n_ex and checked:
             lines.append("The separation margin is not met, but the damped forced response stays within the "
-                         "permissible values; the machinery standards allow this as the acceptance route, "
-                         "subject to the reviewing engineer's judgement.")
+                         "permissible values. Machinery standards generally accept such a response analysis "
+                         "in place of the margin (from memory); the reviewing engineer decides.")
     elif data.response_note:
         lines.append(f"<b>Forced response:</b> {escape(data.response_note)}")
     body = [[Paragraph(f'<font color="{ink.hexval()}">{escape(head)}</font>', st["verdict"])]]
