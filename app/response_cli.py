@@ -140,15 +140,17 @@ def print_table(resp, peaks, over, path: str) -> None:
     head = (f"{'link':<20} {'kind':<9} {'torque kN*m':>11} {'phased':>8} {'at rpm':>7} {'perm.':>8}  "
             f"{'stress MPa':>10} {'phased':>7} {'at rpm':>7} {'perm.':>7}  {'power kW':>8}  status")
     print(head)
+    lossy = {l.id: bool(l.damping or l.loss_factor) for l in train.links}
     for p in peaks:
         stress = p.peak_stress is not None
+        power = fmt.power_kw(p.peak_power) if lossy[p.link_id] else "—"
         print(f"{p.link_id[:20]:<20} {p.kind:<9} {fmt.torque_knm(p.peak_torque):>11} "
               f"{fmt.torque_knm(p.peak_torque_phased):>8} {fmt.rpm(p.speed_at_peak_torque):>7} "
               f"{fmt.torque_knm(p.permissible_torque):>8}  "
               f"{fmt.stress_mpa(p.peak_stress) if stress else '—':>10} "
               f"{fmt.stress_mpa(p.peak_stress_phased) if stress else '—':>7} "
               f"{fmt.rpm(p.speed_at_peak_stress) if stress else '—':>7} "
-              f"{fmt.stress_mpa(p.permissible_stress):>7}  {fmt.power_kw(p.peak_power):>8}  {_status(p)}")
+              f"{fmt.stress_mpa(p.permissible_stress):>7}  {power:>8}  {_status(p)}")
     for n in resp.notes:
         print(f"Note: {n}")
     if over:

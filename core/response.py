@@ -189,15 +189,19 @@ def default_speeds(train: Train, groups: list[OrderGroup] | None = None,
     speeds = np.linspace(lo, hi, count)
     if groups is None:
         groups = excitation_harmonics(train)[0]
+    return np.unique(np.r_[speeds, crossing_speeds(train, groups, lo, hi)])
+
+
+def crossing_speeds(train: Train, groups: list[OrderGroup], lo: float, hi: float) -> np.ndarray:
+    """Reference speeds (rad/s) in (lo, hi) where an order meets an undamped natural frequency."""
     mults = np.array([g.multiplier for g in groups if g.fixed_omega is None and g.multiplier > 0])
-    if mults.size:
-        from .solver import natural_modes
-        modes = natural_modes(train, max_frequency_hz=float(mults.max() * hi / TWO_PI) * 1.05)
-        wn = TWO_PI * modes.frequency_hz[modes.elastic]
-        cross = (wn[:, None] / mults[None, :]).ravel()
-        cross = cross[(cross > lo) & (cross < hi)]
-        speeds = np.unique(np.r_[speeds, cross])
-    return speeds
+    if not mults.size or hi <= 0:
+        return np.zeros(0)
+    from .solver import natural_modes
+    modes = natural_modes(train, max_frequency_hz=float(mults.max() * hi / TWO_PI) * 1.05)
+    wn = TWO_PI * modes.frequency_hz[modes.elastic]
+    cross = (wn[:, None] / mults[None, :]).ravel()
+    return np.sort(cross[(cross > lo) & (cross < hi)])
 
 
 # ----------------------------------------------------------------- result
@@ -666,6 +670,22 @@ def _mesh_torques(train, st: _Setup, w, phi, forcing, Tst):
     return np.stack([end_torque[li][0] for li in st.rigid])
 
 
+def _missed_crossings(train, groups, speeds) -> list[str]:
+    """A note when resonance crossings fall between the given speeds (peaks may be under-read)."""
+    if speeds.size < 2:
+        return []
+    cross = crossing_speeds(train, groups, float(speeds.min()), float(speeds.max()))
+    if not cross.size:
+        return []
+    near = np.min(np.abs(speeds[None, :] - cross[:, None]), axis=1)
+    missed = cross[near > 1e-3 * cross]  # within 0.1 % of a crossing counts as on it
+    if not missed.size:
+        return []
+    rpm = ", ".join(f"{v * 60 / TWO_PI:.0f}" for v in missed[:8]) + (" ..." if missed.size > 8 else "")
+    return [f"{missed.size} resonance crossing(s) lie between the speeds computed (at {rpm} rpm); "
+            "peaks there may be under-read — the default speeds include them"]
+
+
 def forced_response(train: Train, speeds=None, chunk_columns: int = 4096) -> Response:
     """Steady-state damped response to every excitation with an amplitude.
 
@@ -676,9 +696,14 @@ def forced_response(train: Train, speeds=None, chunk_columns: int = 4096) -> Res
     """
     t0 = time.perf_counter()
     groups, harmonics = excitation_harmonics(train)
-    speeds = default_speeds(train, groups) if speeds is None else np.asarray(speeds, float).ravel()
-    if speeds.size == 0 or np.any(~np.isfinite(speeds)) or np.any(speeds < 0):
-        raise ModelError("speeds must be finite and not negative", "option", "speeds")
+    notes = []
+    if speeds is None:
+        speeds = default_speeds(train, groups)
+    else:
+        speeds = np.asarray(speeds, float).ravel()
+        if speeds.size == 0 or np.any(~np.isfinite(speeds)) or np.any(speeds < 0):
+            raise ModelError("speeds must be finite and not negative", "option", "speeds")
+        notes += _missed_crossings(train, groups, speeds)
     st = _Setup(train)
     asm, mem = st.asm, st.asm.members
     nd, nl, ng, ns = len(train.discs), len(train.links), len(groups), speeds.size
@@ -739,7 +764,6 @@ def forced_response(train: Train, speeds=None, chunk_columns: int = 4096) -> Res
             p_mem[springs] = 0.5 * w[None, :] * loss / (ks * (1.0 + loss ** 2)) * absT[:len(springs)] ** 2
             power[:, s0:s1] = (st.member_to_link @ p_mem).reshape(nl, ng, cs).sum(1)
     link_stress[~geom] = np.nan
-    notes = []
     if st.rigid and not np.all(np.isfinite(Tst_all[len(st.st_member):])):
         notes.append("a closed gear train: torque through some rigid meshes is not resolved")
 

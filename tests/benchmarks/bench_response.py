@@ -12,7 +12,7 @@ first disc by 20 orders (0.5 ... 10) with amplitudes and phases, so every
 (speed, order) pair is its own frequency: 40 000 complex solves.  Printed
 side by side:
 
-* ours: :func:`core.solver`-free :func:`core.response.forced_response` end to
+* ours: :func:`core.response.forced_response` end to
   end (referral, complex dynamic stiffness, tree elimination over all
   frequencies, torques per order and combined, power), plus the phase-aware
   synthesis (computed on first access) separately;
