@@ -367,3 +367,13 @@ def test_samples_with_amplitudes_run(path):
     assert np.all(np.isfinite(r.link_torque)) and np.all(r.link_torque >= 0)
     assert np.all(r.link_torque_phased <= r.link_torque * (1 + 1e-9))
     assert len(response_summary(r)) == len(train.links)
+
+
+def test_user_speeds_that_step_over_a_crossing_get_a_note():
+    train = build_train(two_disc_doc(c_rel=0.5))
+    wn = 2 * math.pi * natural_modes(train, n_modes=1).frequency_hz[-1]
+    coarse = np.array([0.5, 0.8, 1.3, 1.6]) * wn  # order 1 crosses at wn, order 2 at wn / 2
+    r = forced_response(train, coarse)
+    assert any("between the speeds computed" in n for n in r.notes)
+    r = forced_response(train, np.r_[coarse, wn, wn / 2])
+    assert not r.notes
