@@ -210,8 +210,9 @@ def campbell_drawing(screening, width: float, plot_height: float = 300.0,
         dash = (3, 2) if kinds and kinds[0].order is None else None
         legend.append(("line", c, dash, name))
     legend += [("line", GREY, None, "natural frequency (mode number at left)"),
-               ("fill", BAND_FILL, None, f"separation margin band (±{fmt.percent(m)} %)"),
-               ("fill", RANGE_FILL, None, op.range_name),
+               ("fill", BAND_FILL, None, f"separation margin band (±{fmt.percent(m)}\u00a0%)"),
+               ("line", RANGE_EDGE, None, op.range_name) if s.speed_min == s.speed_max
+               else ("fill", RANGE_FILL, None, op.range_name),
                ("dot_fill", FAIL_INK, None, "coincidence inside the margin (fail)"),
                ("dot_open", PASS_INK, None, "crossing outside the range, margin met (pass)")]
     if op.trip_speed:
@@ -316,7 +317,7 @@ def mode_shape_drawing(modes, i: int, placement, width: float, height: float, li
     dom = modes.dominant_link(i)
     if dom:
         share = 100 * float(modes.strain_share[i].max())
-        d.add(String(p.x0, height - 17, fit_text(f"largest strain energy: {dom} ({share:.0f} %)", p.w, 6),
+        d.add(String(p.x0, height - 17, fit_text(f"largest strain energy: {dom} ({share:.0f}\u00a0%)", p.w, 6),
                      fontName=FONT, fontSize=6, fillColor=GREY))
     index = {x: k for k, x in enumerate(ids)}
     for l in links:

@@ -72,12 +72,12 @@ class SheetData:
 def verdict_sentence(s) -> str:
     """The verdict in words, exactly as ``twistwise check`` words it."""
     if s.passed:
-        return f"PASS — every coincidence keeps at least {fmt.percent(s.margin)} % separation."
+        return f"PASS — every coincidence keeps at least {fmt.percent(s.margin)}\u00a0% separation."
     n_fail = len(s.failures)
     worst = s.failures[0]
     return (f"FAIL — {n_fail} coincidence{'s' if n_fail > 1 else ''} inside the "
-            f"{fmt.percent(s.margin)} % margin (worst: mode {worst.mode} with {worst.source}, "
-            f"{fmt.percent(worst.separation)} %).")
+            f"{fmt.percent(s.margin)}\u00a0% margin (worst: mode {worst.mode} with {worst.source}, "
+            f"{fmt.percent(worst.separation)}\u00a0%).")
 
 
 def _amplitudes_given(train) -> bool:
@@ -165,7 +165,7 @@ def num(value: float, digits: int = 4) -> str:
     if 1e-4 <= abs(rounded) < 1e9:
         return np.format_float_positional(rounded, trim="-")
     m, e = f"{value:.{digits - 1}e}".split("e")
-    return f"{m}×10^{int(e)}"
+    return f"{m}e{int(e)}"
 
 
 def qty(value_si: float | None, kind, system: str) -> str:
@@ -278,7 +278,7 @@ def verdict_block(data: SheetData, width):
         trip = f"; trip speed {fmt.rpm(op.trip_speed)} rpm" if op.trip_speed else ""
         lines.append(f"<b>Operating range:</b> {escape(op.range_name)}, {rng} of the reference shaft "
                      f"'{escape(op.reference)}'{trip}.")
-        lines.append(f"<b>Required separation margin:</b> {fmt.percent(s.margin)} % between every natural "
+        lines.append(f"<b>Required separation margin:</b> {fmt.percent(s.margin)}\u00a0% between every natural "
                      f"frequency and every excitation frequency over the operating range.")
         n_el = sum(1 for i in range(len(s.modes)) if s.modes.elastic[i] and s.modes.frequency_hz[i] <= s.cap_hz)
         n_src = len({l.source for l in s.lines})
@@ -292,7 +292,7 @@ def verdict_block(data: SheetData, width):
             worst = sorted(data.response_exceedances, key=lambda e: -e.peak / e.permissible)[0]
             lines.append(f"<b>Forced response:</b> <font color='{FAIL_INK.hexval()}'>FAIL</font> — {n_ex} "
                          f"exceedance{'s' if n_ex > 1 else ''} of a permissible vibratory value (worst: "
-                         f"{escape(worst.link_id)}, {worst.quantity} at {100 * worst.peak / worst.permissible:.0f} % "
+                         f"{escape(worst.link_id)}, {worst.quantity} at {100 * worst.peak / worst.permissible:.0f}\u00a0% "
                          f"of permissible).")
         elif checked:
             lines.append(f"<b>Forced response:</b> PASS — the peak vibratory torque and stress stay within "
@@ -408,10 +408,10 @@ def frequency_block(data: SheetData, width):
             dom = "rigid-body mode"
         else:
             li = m.dominant_link(i)
-            dom = f"{escape(li)} ({100 * m.strain_share[i].max():.0f} %)" if li else "—"
+            dom = f"{escape(li)} ({100 * m.strain_share[i].max():.0f}\u00a0%)" if li else "—"
         di = m.dominant_disc(i)
         r = [str(int(m.number[i])), fmt.hz(m.frequency_hz[i]), fmt.cpm(m.frequency_hz[i]), dom,
-             f"{escape(di)} ({100 * m.kinetic_share[i].max():.0f} %)"]
+             f"{escape(di)} ({100 * m.kinetic_share[i].max():.0f}\u00a0%)"]
         if s is not None:
             r.append("—" if m.rigid_body[i] else ("yes" if m.frequency_hz[i] <= s.cap_hz else "above cap"))
         rows.append(r)
@@ -459,12 +459,12 @@ def campbell_block(data: SheetData, width, frame_h):
     nat = [float(s.modes.frequency_hz[i]) for i in range(len(s.modes))
            if s.modes.elastic[i] and s.modes.frequency_hz[i] <= s.cap_hz]
     y_detail = nat[min(2, len(nat) - 1)] * 1.6 if nat else 0.0
-    detail = (len(nat) >= 2 and s.cap_hz > 8 * y_detail
+    detail = (len(nat) >= 2 and s.cap_hz > 4 * y_detail
               and sum(c.frequency_hz <= y_detail for c in s.coincidences) >= 2)
     dwg = charts.campbell_drawing(s, width, plot_height=frame_h * (0.3 if detail else 0.44))
     note = ("Excitation lines are labelled with their order at the edge where they leave the chart; "
             "the margin band around each natural frequency holds the excitation frequencies f_e with "
-            f"|f_n - f_e| / f_e below {fmt.percent(s.margin)} %.")
+            f"|f_n - f_e| / f_e below {fmt.percent(s.margin)}\u00a0%.")
     out = [KeepTogether([Paragraph("Interference (Campbell) diagram", st["h1"]),
                          fit_frame(dwg, width, frame_h),
                          Paragraph(note, st["note"])])]
@@ -483,7 +483,7 @@ def coincidence_block(data: SheetData, width):
         return []
     out = [Paragraph("Coincidences, worst first", st["h1"])]
     if not s.coincidences:
-        out.append(Paragraph(f"No excitation comes within {fmt.percent(2 * s.margin)} % of a natural "
+        out.append(Paragraph(f"No excitation comes within {fmt.percent(2 * s.margin)}\u00a0% of a natural "
                              "frequency.", st["body"]))
         return out
     head = ["Mode", "Natural Hz", "Excitation source", "Order", "At disc", "Crossing rpm", "Margin %",
@@ -503,7 +503,7 @@ def coincidence_block(data: SheetData, width):
     out.append(data_table(head, rows, [f * width for f in w], status_col=8, align_right=(0, 1, 3, 5, 6)))
     out.append(Paragraph(
         f"Listed: every pair with a smallest separation below twice the required margin "
-        f"({fmt.percent(2 * s.margin)} %). Margin = smallest |f_n - f_e| / f_e over the operating range "
+        f"({fmt.percent(2 * s.margin)}\u00a0%). Margin = smallest |f_n - f_e| / f_e over the operating range "
         "(0 for a crossing inside it). Crossing rpm: reference speed where the excitation meets the natural "
         "frequency, also when outside the range.", st["note"]))
     return out
@@ -601,7 +601,7 @@ def method_block(data: SheetData):
         paras.append(
             "<b>Separation.</b> For a natural frequency f_n and an excitation f_e = order × speed of its "
             "source shaft (or a fixed frequency), separation = |f_n - f_e| / f_e, the smallest over the "
-            f"operating range; a pair fails below the required {fmt.percent(s.margin)} %. The 10 % default "
+            f"operating range; a pair fails below the required {fmt.percent(s.margin)}\u00a0%. The 10 % default "
             "follows the API machinery standards for torsional analysis (from memory). Natural frequencies "
             f"are screened up to {fmt.hz(s.cap_hz)} Hz: the highest excitation frequency in range plus twice "
             "the margin and 25 % headroom (common practice, no source).")
