@@ -344,7 +344,19 @@ def model_block(data: SheetData, width, system: str):
         if any_damp:
             r.append(qty(d.damping, u.DAMPING, system) if d.damping else "—")
         rows.append(r)
-    out.append(data_table(head, rows, [f * width for f in w], align_right=tuple(range(2, len(head)))))
+    right = tuple(range(2, len(head)))
+    if len(rows) > 24:
+        # a long train: two discs side by side, read across then down, to halve the pages
+        n = len(head)
+        rows = [rows[k] + (rows[k + 1] if k + 1 < len(rows) else [""] * n) for k in range(0, len(rows), 2)]
+        head, w = head * 2, [f / 2 for f in w] * 2
+        right = right + tuple(c + n for c in right)
+        table = data_table(head, rows, [f * width for f in w], align_right=right)
+        table.setStyle(TableStyle([("LINEBEFORE", (n, 0), (n, -1), 0.8, INK), ("LEFTPADDING", (n, 0), (n, -1), 8),
+                                   ("RIGHTPADDING", (n - 1, 0), (n - 1, -1), 8)]))
+        out.append(table)
+    else:
+        out.append(data_table(head, rows, [f * width for f in w], align_right=right))
     out.append(Spacer(1, 6))
     L = unit_of(u.LENGTH, system)
     head = ["Link", "Kind", "From / to", f"Stiffness ({unit_of(u.STIFFNESS, system)})",
