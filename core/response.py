@@ -64,6 +64,7 @@ from .assembly import assemble
 from .elimination import build_schedule, factor, solve_factored
 from .errors import ModelError
 from .model import Train
+from .solver import _map  # the solver's thread pool over independent column pieces
 
 TWO_PI = 2.0 * np.pi
 STATIONS_PER_SEGMENT = 11  # torque samples along a distributed shaft segment
@@ -677,7 +678,9 @@ def _missed_crossings(train, groups, speeds) -> list[str]:
     cross = crossing_speeds(train, groups, float(speeds.min()), float(speeds.max()))
     if not cross.size:
         return []
-    near = np.min(np.abs(speeds[None, :] - cross[:, None]), axis=1)
+    grid = np.sort(speeds)
+    i = np.clip(np.searchsorted(grid, cross), 1, grid.size - 1)
+    near = np.minimum(np.abs(grid[i] - cross), np.abs(grid[i - 1] - cross))
     missed = cross[near > 1e-3 * cross]  # within 0.1 % of a crossing counts as on it
     if not missed.size:
         return []
@@ -728,7 +731,8 @@ def forced_response(train: Train, speeds=None, chunk_columns: int = 4096) -> Res
     forced_row = {int(d): i for i, d in enumerate(forced)}
     plain_discs = bool(np.array_equal(asm.disc_node, np.arange(nd)) and np.all(asm.disc_scale == 1.0))
     step = max(1, chunk_columns // ng)
-    for s0 in range(0, ns, step):
+
+    def chunk(s0):  # fills disjoint slices of the outputs: safe on threads
         s1 = min(ns, s0 + step)
         cs = s1 - s0
         sp_ = speeds[s0:s1]
@@ -760,9 +764,19 @@ def forced_response(train: Train, speeds=None, chunk_columns: int = 4096) -> Res
         if st.damped:  # dissipated power, omega/2 Im(u^H Z u) per member; orders add
             p_mem = _member_power(st, w, phi, kaa, kab)
             # springs: omega/2 Im(k*) |twist|^2 = omega/2 Im(k*) / |k*|^2 |T|^2
-            loss = st.eta[springs][:, None] + st.c_over_k[springs][:, None] * w[None, :]
-            p_mem[springs] = 0.5 * w[None, :] * loss / (ks * (1.0 + loss ** 2)) * absT[:len(springs)] ** 2
+            p_sp = absT[:len(springs)] ** 2
+            if st.constant_stiffness:
+                eta = st.eta[springs][:, None]
+                p_sp *= eta / (ks * (1.0 + eta ** 2))
+            else:
+                loss = st.eta[springs][:, None] + st.c_over_k[springs][:, None] * w[None, :]
+                p_sp *= loss / (ks * (1.0 + loss ** 2))
+            p_sp *= 0.5 * w[None, :]
+            p_mem[springs] = p_sp
             power[:, s0:s1] = (st.member_to_link @ p_mem).reshape(nl, ng, cs).sum(1)
+
+    # numpy releases the GIL in array operations, so chunks run in parallel threads
+    _map(chunk, list(range(0, ns, step)))
     link_stress[~geom] = np.nan
     if st.rigid and not np.all(np.isfinite(Tst_all[len(st.st_member):])):
         notes.append("a closed gear train: torque through some rigid meshes is not resolved")
