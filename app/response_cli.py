@@ -55,6 +55,11 @@ def _list(a):
     return [_num(v) for v in a]
 
 
+def _rpm(w: float) -> float:
+    """rad/s to rpm, rounded to 10 significant digits so 1500 rpm prints as 1500.0."""
+    return float(f"{fmt.rad_s_to_rpm(w):.10g}")
+
+
 def response_to_json(resp, peaks, over) -> dict:
     from .cli import CAUTION
     op = resp.train.operating
@@ -84,7 +89,7 @@ def response_to_json(resp, peaks, over) -> dict:
         "operating_speed_rpm": {"min": fmt.rad_s_to_rpm(op.speed_min), "max": fmt.rad_s_to_rpm(op.speed_max)},
         "combination": "torque_amplitude_nm and stress_amplitude_pa are the sum of the order "
                        "amplitudes (conservative); *_phased_* are the peaks of the summed time signal",
-        "speed_rpm": _list(resp.speed_rpm),
+        "speed_rpm": [_rpm(v) for v in resp.speed],
         "orders": [{"label": g.label, "sources": list(g.sources), "order": g.order,
                     "frequency_hz": _list(resp.order_frequency_hz[k]) if g.fixed_omega is None
                     else _num(g.fixed_omega / (2 * math.pi))}
@@ -95,9 +100,9 @@ def response_to_json(resp, peaks, over) -> dict:
         "exceedances": [{"link": e.link_id, "quantity": e.quantity,
                          "peak": e.peak, "permissible": e.permissible,
                          "unit": "N*m" if e.quantity == "torque" else "Pa",
-                         "ratio": e.ratio, "speed_rpm": fmt.rad_s_to_rpm(e.speed),
-                         "exceeded_from_rpm": fmt.rad_s_to_rpm(e.speed_band[0]),
-                         "exceeded_to_rpm": fmt.rad_s_to_rpm(e.speed_band[1])} for e in over],
+                         "ratio": e.ratio, "speed_rpm": _rpm(e.speed),
+                         "exceeded_from_rpm": _rpm(e.speed_band[0]),
+                         "exceeded_to_rpm": _rpm(e.speed_band[1])} for e in over],
         "verdict": "fail" if over else ("pass" if any(p.passed is not None for p in peaks)
                                         else "no permissible values given"),
         "notes": list(resp.notes),
@@ -106,7 +111,7 @@ def response_to_json(resp, peaks, over) -> dict:
 
 
 def _peak_json(p) -> dict:
-    rpm = fmt.rad_s_to_rpm
+    rpm = _rpm
     return {
         "kind": p.kind,
         "peak_torque_nm": _num(p.peak_torque),
