@@ -377,3 +377,71 @@ def test_user_speeds_that_step_over_a_crossing_get_a_note():
     assert any("between the speeds computed" in n for n in r.notes)
     r = forced_response(train, np.r_[coarse, wn, wn / 2])
     assert not r.notes
+
+
+def test_random_branched_trees_match_dense_complex_solve():
+    # independent reference: numpy.linalg.solve of the assembled dense complex matrix
+    # Z = K (1 + i eta) + i w C_rel - w^2 J + i w C_disc for random branched lumped trees
+    rng = np.random.default_rng(7)
+    for trial in range(6):
+        n = int(rng.integers(3, 14))
+        J = rng.uniform(0.2, 5.0, n)
+        cd = rng.uniform(0, 20, n) * (rng.random(n) < 0.5)
+        parent = [int(rng.integers(0, i)) for i in range(1, n)]
+        k = rng.uniform(1e4, 1e6, n - 1)
+        eta = rng.uniform(0, 0.2, n - 1)
+        crel = rng.uniform(0, 50, n - 1) * (rng.random(n - 1) < 0.5)
+        grounded = bool(trial % 2)
+        links = [{"id": f"l{i}", "kind": "shaft", "from": f"d{parent[i]}", "to": f"d{i + 1}",
+                  "stiffness": float(k[i]), "loss_factor": float(eta[i]), "damping": float(crel[i])}
+                 for i in range(n - 1)]
+        if grounded:
+            links.append({"id": "g", "kind": "shaft", "from": "ground", "to": "d0", "stiffness": 2e5})
+        at = int(rng.integers(0, n))
+        doc = {"discs": [{"id": f"d{i}", "inertia": float(J[i]), "damping": float(cd[i])} for i in range(n)],
+               "links": links, "reference": "d0", "operating_speed": {"min": 10, "max": 500},
+               "excitations": [{"name": "e", "at": f"d{at}", "orders": [{"order": 1, "amplitude": 10.0}]}]}
+        speeds = np.linspace(10, 500, 23)
+        r = forced_response(build_train(doc), speeds)
+        for j, w in enumerate(speeds):
+            Z = np.diag(-J * w ** 2 + 1j * w * cd).astype(complex)
+            for i, p in enumerate(parent):
+                z = k[i] * (1 + 1j * eta[i]) + 1j * w * crel[i]
+                a, b = p, i + 1
+                Z[a, a] += z
+                Z[b, b] += z
+                Z[a, b] -= z
+                Z[b, a] -= z
+            if grounded:
+                Z[0, 0] += 2e5
+            F = np.zeros(n, complex)
+            F[at] = 10.0
+            th = np.linalg.solve(Z, F)
+            assert r.disc_angle[:, j] == pytest.approx(np.abs(th), rel=1e-8, abs=1e-14)
+            for i, p in enumerate(parent):
+                z = k[i] * (1 + 1j * eta[i]) + 1j * w * crel[i]
+                assert r.link_torque[i, j] == pytest.approx(abs(z * (th[p] - th[i + 1])), rel=1e-7,
+                                                            abs=1e-12)
+
+
+def test_elastic_mesh_equals_referred_spring():
+    # an elastic mesh (stiffness referred to its `from` shaft) is a spring in the referred
+    # train; the wheel side scales by the speed ratio (energy equivalence, Wilson — from memory)
+    r_, km = 3.0, 8e5
+    geared = {"discs": [{"id": "m", "inertia": 2.0}, {"id": "whl", "inertia": 0.1, "damping": 2.0}],
+              "links": [{"id": "mesh", "kind": "gear_mesh", "from": "m", "to": "whl", "speed_ratio": r_,
+                         "stiffness": km, "loss_factor": 0.05}],
+              "reference": "m", "operating_speed": {"min": 50, "max": 400},
+              "excitations": [{"name": "x", "at": "whl", "orders": [{"order": 1, "amplitude": 30.0}]}]}
+    referred = {"discs": [{"id": "m", "inertia": 2.0}, {"id": "whl", "inertia": 0.1 * r_ ** 2,
+                                                        "damping": 2.0 * r_ ** 2}],
+                "links": [{"id": "mesh", "kind": "coupling", "from": "m", "to": "whl", "stiffness": km,
+                           "loss_factor": 0.05}],
+                "reference": "m", "operating_speed": {"min": 50, "max": 400},
+                "excitations": [{"name": "x", "at": "whl", "orders": [{"order": r_, "amplitude": 30.0 * r_}]}]}
+    speeds = np.linspace(50, 400, 31)
+    a = forced_response(build_train(geared), speeds)
+    b = forced_response(build_train(referred), speeds)
+    assert a.link_torque[0] == pytest.approx(b.link_torque[0], rel=1e-9)  # pinion-side mesh torque
+    assert a.disc_angle[1] == pytest.approx(b.disc_angle[1] * r_, rel=1e-9)
+    assert a.link_power[0] == pytest.approx(b.link_power[0], rel=1e-9)
