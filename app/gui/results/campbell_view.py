@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 import pyqtgraph as pg
-from PySide6 import QtCore, QtWidgets
+from PySide6 import QtCore, QtGui, QtWidgets
 
 from app import formatting as fmt
 from app.gui import theme
@@ -55,7 +55,6 @@ class CampbellView(QtWidgets.QWidget):
         self.screening = None
         self.modes = None
         self._selected = -1
-        self._mode_lines: dict[int, pg.InfiniteLine] = {}
         self._ranges = None
         self._cursor_rpm: float | None = None
         self._labels = []
@@ -82,6 +81,36 @@ class CampbellView(QtWidgets.QWidget):
         self.cursor.setToolTip("Speed cursor: drag along the speed axis; the table on the right reads "
                                "out every excitation at this speed and its nearest natural frequency.")
         self.cursor.sigPositionChanged.connect(self._cursor_moved)
+        self.plot.addItem(self.cursor, ignoreBounds=True)
+
+        # persistent items, refilled on every redraw (see _draw)
+        self._drawn, self._label_pool, self._n_labels = [], [], 0
+        self._legend_key, self._legend_samples, self.line_items = None, [], []
+        self._shown_modes = []
+        self._band_item = QtWidgets.QGraphicsPathItem()
+        self._band_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
+        self._band_item.setBrush(theme.brush(theme.MARGIN_BAND))
+        self._band_item.setZValue(-30)
+        self._mode_item = QtWidgets.QGraphicsPathItem()
+        self._mode_item.setPen(theme.natural_frequency_pen())
+        self._mode_item.setZValue(-5)
+        self._mode_item.setToolTip("Natural frequencies; the shaded bands are the excitation frequencies "
+                                   "that come within the required margin")
+        self.selected_line = pg.InfiniteLine(0.0, angle=0, pen=theme.natural_frequency_pen(True))
+        self.selected_line.setZValue(-4)
+        for item in (self._band_item, self._mode_item, self.selected_line):
+            item.setVisible(False)
+            self.plot.addItem(item, ignoreBounds=True)
+        self._ring_pens = {True: theme.pen(theme.COINCIDENCE_FAIL, theme.BOLD_WIDTH),
+                           False: theme.pen(theme.COINCIDENCE_PASS, theme.LINE_WIDTH)}
+        self.rings = pg.ScatterPlotItem(symbol="o", brush=theme.brush((0, 0, 0, 0)), hoverable=True,
+                                        hoverSize=24, hoverBrush=theme.brush((179, 38, 30, 40)),
+                                        tip=lambda x, y, data: self._ring_tip(data))
+        self.rings.setZValue(40)
+        self.rings.sigClicked.connect(self._ring_clicked)
+        self.rings.setVisible(False)
+        self.plot.addItem(self.rings)
+        self.cursor.sigDragged.connect(lambda _line: self._show_lower(1))
 
         self.log_box = QtWidgets.QCheckBox("Logarithmic frequency axis", self)
         self.log_box.setToolTip("Chosen automatically when the modes span a wide range of frequencies "
@@ -128,12 +157,19 @@ class CampbellView(QtWidgets.QWidget):
             l.addWidget(table, 1)
             return w
 
-        lower = QtWidgets.QSplitter(QtCore.Qt.Horizontal, self)
-        lower.addWidget(boxed(self.coincidence_title, self.coincidence_table))
-        lower.addWidget(boxed(self.cursor_title, self.cursor_table))
-        lower.setStretchFactor(0, 3)
-        lower.setStretchFactor(1, 2)
-        lower.setChildrenCollapsible(False)
+        # side by side when there is room, else as two tabs (see _arrange)
+        self._boxes = (boxed(self.coincidence_title, self.coincidence_table),
+                       boxed(self.cursor_title, self.cursor_table))
+        self.lower_split = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
+        self.lower_split.setChildrenCollapsible(False)
+        self.lower_tabs = QtWidgets.QTabWidget()
+        self.lower_tabs.setDocumentMode(True)
+        lower = QtWidgets.QStackedWidget(self)
+        lower.addWidget(self.lower_split)
+        lower.addWidget(self.lower_tabs)
+        self.lower = lower
+        self._narrow = None
+        self._arrange(False)
 
         upper = QtWidgets.QWidget(self)
         ul = QtWidgets.QVBoxLayout(upper)
@@ -165,6 +201,36 @@ class CampbellView(QtWidgets.QWidget):
         self.plot.vb.sigRangeChanged.connect(self._layout_labels)
         split.setSizes([700, 260])
 
+    NARROW_PX = 1000
+
+    def resizeEvent(self, event) -> None:
+        super().resizeEvent(event)
+        self._arrange(self.width() < self.NARROW_PX)
+
+    def _arrange(self, narrow: bool) -> None:
+        """Coincidences and cursor read-out side by side, or as tabs when narrow."""
+        if narrow == self._narrow:
+            return
+        self._narrow = narrow
+        coinc, cursor = self._boxes
+        if narrow:
+            self.lower_tabs.addTab(coinc, "Coincidences")
+            self.lower_tabs.addTab(cursor, "At cursor speed")
+            self.lower.setCurrentWidget(self.lower_tabs)
+        else:
+            self.lower_tabs.clear()
+            self.lower_split.addWidget(coinc)
+            self.lower_split.addWidget(cursor)
+            coinc.show()  # a page taken out of a tab widget stays hidden otherwise
+            cursor.show()
+            self.lower_split.setStretchFactor(0, 1)
+            self.lower_split.setStretchFactor(1, 1)
+            self.lower.setCurrentWidget(self.lower_split)
+
+    def _show_lower(self, which: int) -> None:
+        if self._narrow:
+            self.lower_tabs.setCurrentIndex(which)
+
     def _log_toggled(self, _on: bool) -> None:
         self._log_chosen_by_user = True
         if self.screening is not None:
@@ -189,13 +255,22 @@ class CampbellView(QtWidgets.QWidget):
             f"Coincidences within {fmt.percent(2 * screening.margin)} %: {n}"
             + (f", {nf} inside the {fmt.percent(screening.margin)} % margin" if nf else ""))
         self._cursor_moved()
-        fit_columns(self.cursor_table)
+        fit_columns(self.cursor_table, max_width=190)
 
     def clear(self, message: str = "") -> None:
         self.screening = None
-        self.plot.clear()
+        for item in self._drawn:
+            self.plot.removeItem(item)
+        self._drawn = []
+        for item in self._label_pool:
+            item.setVisible(False)
+        self._labels = []
+        self._band_item.setVisible(False)
+        self._mode_item.setVisible(False)
+        self.selected_line.setVisible(False)
+        self.rings.setVisible(False)
         self.legend.clear()
-        self._mode_lines = {}
+        self._legend_key = None
         self._ranges = None
         self.coincidence_model.set_rows([])
         self.cursor_model.set_rows([])
@@ -207,13 +282,8 @@ class CampbellView(QtWidgets.QWidget):
 
     def select_mode(self, index: int) -> None:
         """Emphasise the natural-frequency line of mode ``index`` (into modes)."""
-        old = self._mode_lines.get(self._selected)
-        if old is not None:
-            old.setPen(theme.natural_frequency_pen(False))
         self._selected = index
-        new = self._mode_lines.get(index)
-        if new is not None:
-            new.setPen(theme.natural_frequency_pen(True))
+        self._place_selected_line()
 
     def cursor_rpm(self) -> float:
         return float(self.cursor.value())
@@ -253,13 +323,23 @@ class CampbellView(QtWidgets.QWidget):
         el = [float(f) for f in s.modes.frequency_hz[s.modes.elastic] if 0 < f <= s.cap_hz]
         return bool(el) and s.cap_hz / min(el) > 50.0
 
+    def _add(self, item, ignore_bounds: bool = False):
+        """Add an item that lives until the next redraw."""
+        self.plot.addItem(item, ignoreBounds=ignore_bounds)
+        self._drawn.append(item)
+        return item
+
     def _draw(self) -> None:
+        """Redraw the diagram.  Built for live editing of long trains: all margin
+        bands are one path item and all natural-frequency lines another, labels
+        come from a pool, and the legend is rebuilt only when its entries change."""
         s = self.screening
         p = self.plot
-        p.clear()
-        self.legend.clear()
-        self._mode_lines = {}
+        for item in self._drawn:
+            p.removeItem(item)
+        self._drawn = []
         self._labels = []  # (TextItem, kind, data) placed by _layout_labels
+        self._n_labels = 0
         if not self._log_chosen_by_user:
             self.log_box.blockSignals(True)
             self.log_box.setChecked(self.auto_log())
@@ -275,14 +355,16 @@ class CampbellView(QtWidgets.QWidget):
         ref_name = next((d.name for d in s.train.discs if d.id == op.reference), op.reference)
         p.setLabel("bottom", f"Reference speed, rpm ({ref_name})")
         p.setLabel("left", "Frequency, Hz" + (" (log scale)" if self._log else ""))
+        p.getAxis("left").setTicks(self._log_ticks(f_lo, f_hi) if self._log else None)
         self.canvas.export_title = (f"{s.train.title}: interference diagram, margin "
                                     f"{fmt.percent(s.margin)} %")
+        legend = []  # (kind, style key, text)
 
         # operating range (band, or a broad line for a single speed) and trip speed
         lo, hi = s.speed_min / RPM, s.speed_max / RPM
-        band_brush = theme.brush(theme.OPERATING_BAND)
         if hi - lo > 1e-9 * max(hi, 1.0):
-            region = pg.LinearRegionItem((lo, hi), orientation="vertical", movable=False, brush=band_brush,
+            region = pg.LinearRegionItem((lo, hi), orientation="vertical", movable=False,
+                                         brush=theme.brush(theme.OPERATING_BAND),
                                          pen=theme.pen(theme.PASS, theme.THIN_WIDTH))
             range_text = f"{op.range_name} ({fmt.rpm(s.speed_min)}–{fmt.rpm(s.speed_max)} rpm)"
         else:
@@ -290,62 +372,63 @@ class CampbellView(QtWidgets.QWidget):
             range_text = f"{op.range_name} ({fmt.rpm(s.speed_max)} rpm)"
         region.setZValue(-20)
         region.setToolTip(range_text)
-        p.addItem(region)
-        self.legend.addItem(pg.BarGraphItem(x=[0], height=[0], width=1, brush=band_brush,
-                                            pen=theme.pen(theme.PASS)), range_text)
+        self._add(region)
+        legend.append(("band", theme.OPERATING_BAND, range_text))
         if op.trip_speed:
             trip = pg.InfiniteLine(op.trip_speed / RPM, angle=90, pen=theme.trip_pen())
             trip.setToolTip(f"Trip speed {fmt.rpm(op.trip_speed)} rpm: drawn for reference, not screened.")
             trip.setZValue(-15)
-            p.addItem(trip)
-            self.legend.addItem(pg.PlotDataItem(pen=theme.trip_pen()),
-                                f"trip speed {fmt.rpm(op.trip_speed)} rpm (not screened)")
+            self._add(trip)
+            legend.append(("trip", None, f"trip speed {fmt.rpm(op.trip_speed)} rpm (not screened)"))
 
-        # natural frequencies under the cap, with their margin bands
-        band_fill = theme.brush(theme.MARGIN_BAND)
+        # natural frequencies under the cap, with their margin bands: one path each
         m = self.modes
+        shown = [i for i in range(len(m)) if not m.rigid_body[i] and 0 < m.frequency_hz[i] <= f_hi]
+        self._shown_modes = shown
+        x_lo, x_hi = -0.1 * x_max, 3.0 * x_max
+        bands, lines = QtGui.QPainterPath(), QtGui.QPainterPath()
         font = theme.font(theme.SMALL_POINT_SIZE)
-        for i in range(len(m)):
+        for i in shown:
             f = float(m.frequency_hz[i])
-            if m.rigid_body[i] or f > f_hi:
-                continue
             band = margin_band_hz(f, s.margin)
             if band is not None:
-                r = pg.LinearRegionItem((float(self._y(band[0])), float(self._y(min(band[1], 10 * f_hi)))),
-                                        orientation="horizontal", movable=False, brush=band_fill,
-                                        pen=pg.mkPen(None))
-                r.setZValue(-30)
-                p.addItem(r)
-            line = pg.InfiniteLine(float(self._y(f)), angle=0, pen=theme.natural_frequency_pen(i == self._selected))
-            line.setToolTip(f"Mode {int(m.number[i])}: {fmt.hz(f)} Hz ({fmt.cpm(f)} cpm); shaded band: "
-                            f"excitations within {fmt.percent(s.margin)} %")
-            line.setZValue(-5)
-            p.addItem(line)
-            self._mode_lines[i] = line
+                b0, b1 = float(self._y(band[0])), float(self._y(min(band[1], 10 * f_hi)))
+                bands.addRect(QtCore.QRectF(x_lo, b0, x_hi - x_lo, b1 - b0))
+            y = float(self._y(f))
+            lines.moveTo(x_lo, y)
+            lines.lineTo(x_hi, y)
             self._add_label(f"mode {int(m.number[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f)
-        self.legend.addItem(pg.PlotDataItem(pen=theme.natural_frequency_pen()), "natural frequency")
-        self.legend.addItem(pg.BarGraphItem(x=[0], height=[0], width=1, brush=band_fill, pen=pg.mkPen(None)),
-                            f"± {fmt.percent(s.margin)} % margin band")
+        self._band_item.setPath(bands)
+        self._mode_item.setPath(lines)
+        self._band_item.setVisible(bool(shown))
+        self._mode_item.setVisible(bool(shown))
+        self._place_selected_line()
+        legend.append(("nf", None, "natural frequency"))
+        legend.append(("band", theme.MARGIN_BAND, f"± {fmt.percent(s.margin)} % margin band"))
 
         # excitation lines: one colour per source, the order number beside the line
         sources = list(dict.fromkeys(l.source for l in s.lines))
         xs_line = np.geomspace(x_max * 1e-4, x_max, 160) if self._log else np.array([0.0, x_max])
         bold = theme.font(theme.SMALL_POINT_SIZE, bold=True)
         in_legend = set()
+        self.line_items = []
         for line in s.lines:
-            color = theme.series_color(sources.index(line.source))
+            k = sources.index(line.source)
+            color = theme.series_color(k)
             if line.fixed_hz is not None:
                 pen = theme.pen(color, theme.LINE_WIDTH, QtCore.Qt.DashDotLine)
-                item = p.plot([0.0, x_max], [line.fixed_hz, line.fixed_hz], pen=pen)
+                item = pg.PlotDataItem([0.0, x_max], [line.fixed_hz, line.fixed_hz], pen=pen)
                 self._add_label(f"{line.fixed_hz:g} Hz", color, bold, "fixed", line.fixed_hz)
             else:
                 pen = theme.pen(color, theme.LINE_WIDTH)
-                item = p.plot(xs_line, line.slope * RPM * xs_line, pen=pen)
+                item = pg.PlotDataItem(xs_line, line.slope * RPM * xs_line, pen=pen)
                 self._add_label(f"{fmt.order(line.order)}×", color, bold, "order", line.slope * RPM)
             item.setToolTip(line.label)
+            self._add(item)
+            self.line_items.append((line, item))
             if line.source not in in_legend:
                 in_legend.add(line.source)
-                self.legend.addItem(pg.PlotDataItem(pen=pen), line.source)
+                legend.append(("fixed" if line.fixed_hz is not None else "order", k, line.source))
 
         # coincidences: a ring at the crossing (or at the worst speed when it does not cross)
         xs, ys, pens, sizes, data = [], [], [], [], []
@@ -355,30 +438,17 @@ class CampbellView(QtWidgets.QWidget):
             xs.append(at / RPM)
             ys.append(float(self._y(c.frequency_hz)))
             fail = not c.passed
-            pens.append(theme.pen(theme.COINCIDENCE_FAIL if fail else theme.COINCIDENCE_PASS,
-                                  theme.BOLD_WIDTH if fail else theme.LINE_WIDTH))
+            pens.append(self._ring_pens[fail])
             sizes.append(20 if fail else 15)
             data.append(n)
-        self.rings = None
-        if xs:
-            rings = pg.ScatterPlotItem(xs, ys, symbol="o", size=sizes, pen=pens, brush=theme.brush((0, 0, 0, 0)),
-                                       data=data, hoverable=True, hoverSize=24,
-                                       hoverBrush=theme.brush((179, 38, 30, 40)),
-                                       tip=lambda x, y, data: self._ring_tip(data))
-            rings.setZValue(40)
-            rings.sigClicked.connect(self._ring_clicked)
-            p.addItem(rings)
-            self.rings = rings
-            if any(not c.passed for c in s.coincidences):
-                self.legend.addItem(pg.ScatterPlotItem(symbol="o", size=14, brush=theme.brush((0, 0, 0, 0)),
-                                                       pen=theme.pen(theme.COINCIDENCE_FAIL, theme.BOLD_WIDTH)),
-                                    "coincidence inside the margin (fail)")
-            if any(c.passed for c in s.coincidences):
-                self.legend.addItem(pg.ScatterPlotItem(symbol="o", size=11, brush=theme.brush((0, 0, 0, 0)),
-                                                       pen=theme.pen(theme.COINCIDENCE_PASS)),
-                                    "near, but clear of the margin")
+        self.rings.setData(xs, ys, size=sizes, pen=pens, data=data)
+        self.rings.setVisible(bool(xs))
+        if any(not c.passed for c in s.coincidences):
+            legend.append(("ring", True, "coincidence inside the margin (fail)"))
+        if any(c.passed for c in s.coincidences):
+            legend.append(("ring", False, "near, but clear of the margin"))
+        self._set_legend(legend)
 
-        p.addItem(self.cursor, ignoreBounds=True)
         span = y1 - y0  # limits first: the previous ones (e.g. of a log axis) would clamp the new range
         p.vb.setLimits(xMin=-0.05 * x_max, xMax=3 * x_max, yMin=y0 - 0.05 * span, yMax=y1 + 2 * span)
         ranges = (x_max, y0, y1, self._log)
@@ -390,15 +460,73 @@ class CampbellView(QtWidgets.QWidget):
         rpm = self._cursor_rpm if self._cursor_rpm is not None and 0 <= self._cursor_rpm <= x_max \
             else s.speed_max / RPM
         self.cursor.setValue(rpm)
+        for item in self._label_pool[self._n_labels:]:
+            item.setVisible(False)
         self._layout_labels()
+
+    def mode_line_frequencies(self) -> list[float]:
+        """Frequencies (Hz) of the natural-frequency lines drawn, in mode order."""
+        path = self._mode_item.path()
+        ys = [path.elementAt(k).y for k in range(0, path.elementCount(), 2)]
+        return [float(self._y_inv(y)) for y in ys] if self._mode_item.isVisible() else []
+
+    def _place_selected_line(self) -> None:
+        i = self._selected
+        ok = self.screening is not None and i in getattr(self, "_shown_modes", [])
+        self.selected_line.setVisible(ok)
+        if ok:
+            self.selected_line.setValue(float(self._y(float(self.modes.frequency_hz[i]))))
+
+    def _set_legend(self, entries) -> None:
+        key = tuple((kind, style, text) for kind, style, text in entries)
+        if key == self._legend_key:
+            return
+        self._legend_key = key
+        self.legend.clear()
+        self._legend_samples = []
+        for kind, style, text in entries:
+            if kind == "band":
+                sample = pg.BarGraphItem(x=[0], height=[0], width=1, brush=theme.brush(style),
+                                         pen=theme.pen(theme.PASS) if style == theme.OPERATING_BAND
+                                         else pg.mkPen(None))
+            elif kind == "trip":
+                sample = pg.PlotDataItem(pen=theme.trip_pen())
+            elif kind == "nf":
+                sample = pg.PlotDataItem(pen=theme.natural_frequency_pen())
+            elif kind == "ring":
+                sample = pg.ScatterPlotItem(symbol="o", size=14 if style else 11, brush=theme.brush((0, 0, 0, 0)),
+                                            pen=self._ring_pens[style])
+            else:
+                sample = pg.PlotDataItem(pen=theme.pen(theme.series_color(style), theme.LINE_WIDTH,
+                                                       QtCore.Qt.DashDotLine if kind == "fixed"
+                                                       else QtCore.Qt.SolidLine))
+            self._legend_samples.append(sample)
+            self.legend.addItem(sample, text)
+
+    @staticmethod
+    def _log_ticks(f_lo: float, f_hi: float):
+        """Ticks of a log frequency axis at 1, 2, 5 x 10^k Hz (labelled) and the
+        other integers x 10^k (unlabelled), read as plain Hz, not powers of ten."""
+        major, minor = [], []
+        for k in range(int(np.floor(np.log10(max(f_lo, 1e-9)))), int(np.ceil(np.log10(f_hi))) + 1):
+            for m in range(1, 10):
+                f = m * 10.0 ** k
+                if f_lo <= f <= f_hi:
+                    (major if m in (1, 2, 5) else minor).append((float(np.log10(f)), f"{f:g}" if m in (1, 2, 5) else ""))
+        return [major, minor]
 
     # ------------------------------------------------------------ labels
     def _add_label(self, text, color, font, kind, value) -> None:
-        fill = theme.brush((255, 255, 255, 215))
-        item = pg.TextItem(text, color=theme.qcolor(color), fill=fill)
+        """A label from the pool (TextItems are costly to create; a redraw reuses them)."""
+        if self._n_labels == len(self._label_pool):
+            item = pg.TextItem("", fill=theme.brush((255, 255, 255, 215)))
+            item.setZValue(30)
+            self.plot.addItem(item, ignoreBounds=True)
+            self._label_pool.append(item)
+        item = self._label_pool[self._n_labels]
+        self._n_labels += 1
+        item.setText(text, color=theme.qcolor(color))
         item.setFont(font)
-        item.setZValue(30)
-        self.plot.addItem(item, ignoreBounds=True)
         self._labels.append((item, kind, value))
 
     def _layout_labels(self, *_args) -> None:
@@ -470,6 +598,7 @@ class CampbellView(QtWidgets.QWidget):
         if not len(points):
             return
         n = int(points[0].data())
+        self._show_lower(0)
         self.coincidence_table.selectRow(n)  # emits through the table's current-row signal
         self._emit(self._mode_index_of_number(self.screening.coincidences[n].mode))
 
@@ -498,5 +627,16 @@ class CampbellView(QtWidgets.QWidget):
             return
         pt = self.plot.vb.mapSceneToView(pos)
         f = self._y_inv(pt.y())
-        self.hover.setText(f"Pointer: {pt.x():.0f} rpm, {fmt.hz(f)} Hz ({fmt.cpm(f)} cpm) — "
-                           "drag the red cursor to read out the excitations at a speed")
+        text = f"Pointer: {pt.x():.0f} rpm, {fmt.hz(f)} Hz ({fmt.cpm(f)} cpm)"
+        shown = self._shown_modes
+        if shown:
+            # the natural-frequency line within a few pixels of the pointer, if any
+            fs = self.modes.frequency_hz[shown]
+            px_per_unit = self.plot.vb.height() / max(np.ptp(self.plot.vb.viewRange()[1]), 1e-12)
+            dist = np.abs(self._y(fs) - pt.y()) * px_per_unit
+            k = int(np.argmin(dist))
+            if dist[k] < 6:
+                i = shown[k]
+                text += (f" — on mode {int(self.modes.number[i])}, {fmt.hz(float(fs[k]))} Hz "
+                         f"({fmt.cpm(float(fs[k]))} cpm)")
+        self.hover.setText(text + " · drag the red cursor to read out the excitations at a speed")

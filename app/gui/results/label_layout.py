@@ -28,22 +28,37 @@ def _overlap(a, b) -> bool:
     return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
 
 
-def place_labels(labels, width: float, height: float, pad: float = 1.5, blocked=()):
+def place_labels(labels, width: float, height: float, pad: float = 1.5, blocked=(), cell: float = 48.0):
     """``labels``: list of (w, h, [Spot, ...]) in priority order.  ``blocked``:
     boxes (x0, y0, x1, y1) to keep clear (e.g. the legend).  Returns, per label,
-    the chosen Spot or None."""
-    placed = list(blocked)
+    the chosen Spot or None.  Placed boxes are kept in a grid of ``cell``-pixel
+    buckets, so each test looks at near neighbours only (long trains have
+    hundreds of mode labels)."""
+    grid: dict = {}
+
+    def cells(b):
+        for i in range(int(b[0] // cell), int(b[2] // cell) + 1):
+            for j in range(int(b[1] // cell), int(b[3] // cell) + 1):
+                yield i, j
+
+    def add(b):
+        for c in cells(b):
+            grid.setdefault(c, []).append(b)
+
+    def free(b):
+        return not any(_overlap(b, o) for c in cells(b) for o in grid.get(c, ()))
+
+    for b in blocked:
+        add(b)
     chosen = []
     for w, h, spots in labels:
         pick = None
         for s in spots:
             b = _box(s, w, h, pad)
-            if b[0] < 0 or b[1] < 0 or b[2] > width or b[3] > height:
-                continue
-            if any(_overlap(b, o) for o in placed):
+            if b[0] < 0 or b[1] < 0 or b[2] > width or b[3] > height or not free(b):
                 continue
             pick = s
-            placed.append(b)
+            add(b)
             break
         chosen.append(pick)
     return chosen

@@ -12,7 +12,7 @@ from . import rows as R
 from .plotting import PlotCanvas, column_ticks, new_plot, side_by_side, train_line
 from .table import RowsModel, fit_columns, make_table_view
 
-SHOW_TWIST = "Twist angle and modal torque"
+SHOW_TWIST = "Twist and modal torque"
 SHOW_ENERGY = "Energy shares"
 
 
@@ -41,13 +41,13 @@ class ModesView(QtWidgets.QWidget):
         self.show_box.currentIndexChanged.connect(lambda _i: self._draw())
         self.title = QtWidgets.QLabel(self)
         self.title.setFont(theme.font(theme.BASE_POINT_SIZE, bold=True))
-        self.hover = QtWidgets.QLabel(self)
+        self.hover = QtWidgets.QLabel("Point at a disc or bar for its value.", self)
         self.hover.setStyleSheet(f"color: {theme.INK_MUTED};")
-        self.hover.setTextInteractionFlags(QtCore.Qt.TextSelectableByMouse)
 
         self.canvas = PlotCanvas(self)
         self.canvas.export_title = "Mode shape"
-        self.upper = new_plot(self.canvas, 0, "", "Twist angle (normalised)")
+        # short plots: horizontal titles instead of left labels, which would collide
+        self.upper = new_plot(self.canvas, 0, "", "")
         self.lower = new_plot(self.canvas, 1, "Along the train (discs in schematic order)", "")
         self.lower.setXLink(self.upper)
         self.upper.getAxis("left").setWidth(72)
@@ -59,10 +59,7 @@ class ModesView(QtWidgets.QWidget):
         self.key.setTextFormat(QtCore.Qt.RichText)
 
         top = QtWidgets.QHBoxLayout()
-        top.addWidget(self.title)
-        top.addSpacing(12)
-        top.addWidget(self.key, 1)
-        top.addSpacing(12)
+        top.addWidget(self.title, 1)
         top.addWidget(QtWidgets.QLabel("Show:"))
         top.addWidget(self.show_box)
         right = QtWidgets.QWidget(self)
@@ -70,19 +67,34 @@ class ModesView(QtWidgets.QWidget):
         rl.setContentsMargins(0, 0, 0, 0)
         rl.addLayout(top)
         rl.addWidget(self.canvas, 1)
-        rl.addWidget(self.hover)
+        bottom = QtWidgets.QHBoxLayout()
+        bottom.addWidget(self.key)
+        bottom.addStretch(1)
+        bottom.addWidget(self.hover)
+        rl.addLayout(bottom)
 
         split = QtWidgets.QSplitter(QtCore.Qt.Horizontal, self)
         split.addWidget(self.table)
         split.addWidget(right)
         split.setStretchFactor(0, 2)
         split.setStretchFactor(1, 3)
-        split.setSizes([460, 640])
         split.setChildrenCollapsible(False)
         self.splitter = split
         lay = QtWidgets.QVBoxLayout(self)
         lay.setContentsMargins(0, 0, 0, 0)
         lay.addWidget(split)
+
+    NARROW_PX = 1000  # below this width the table goes above the plots
+
+    def resizeEvent(self, event) -> None:
+        super().resizeEvent(event)
+        want = QtCore.Qt.Vertical if self.width() < self.NARROW_PX else QtCore.Qt.Horizontal
+        if self.splitter.orientation() != want:
+            self.splitter.setOrientation(want)
+            if want == QtCore.Qt.Vertical:
+                self.splitter.setSizes([int(self.height() * 0.3), int(self.height() * 0.7)])
+            else:
+                self.splitter.setSizes([int(self.width() * 0.4), int(self.width() * 0.6)])
 
     # ------------------------------------------------------------ data
     def set_modes(self, modes, cap_hz=None, select: int | None = None) -> None:
@@ -164,7 +176,7 @@ class ModesView(QtWidgets.QWidget):
 
     def _draw_twist(self, m, i, line, names) -> None:
         shape = m.shape[i]
-        self.upper.setLabel("left", "Twist angle (largest = 1)", siPrefixEnableRanges=())
+        self._title(self.upper, "Twist angle per disc (largest = 1)")
         self.upper.addItem(pg.InfiniteLine(0, angle=0, pen=theme.pen(theme.INK_MUTED, theme.THIN_WIDTH)))
         for s, members in enumerate(line.series):
             self.upper.plot(line.disc_x[members], shape[members], pen=theme.series_pen(s, theme.BOLD_WIDTH))
@@ -173,26 +185,31 @@ class ModesView(QtWidgets.QWidget):
                             pen=theme.pen(theme.INK_MUTED, theme.LINE_WIDTH, QtCore.Qt.DashLine))
             self.upper.plot([gx], [0.0], pen=None, symbol="t1", symbolSize=11,
                             symbolBrush=theme.brush(theme.INK_MUTED), symbolPen=None)
-        colors = [theme.series_color(s) for s in range(len(line.series))]
-        brushes = [theme.brush(colors[min(r, len(colors) - 1)]) for r in line.disc_row]
-        spots = pg.ScatterPlotItem(
-            line.disc_x, shape, size=10, brush=brushes, pen=theme.pen(theme.BACKGROUND, 1.0),
-            data=[f"{names[k]} ({m.train.discs[k].id})" for k in range(len(names))],
-            hoverable=True, hoverSize=14,
-            tip=lambda x, y, data: f"{data}\ntwist {y:+.3f} (largest = 1)")
-        self.upper.addItem(spots)
+        # one scatter per row with a single brush: per-point brushes render a symbol per disc
+        white = theme.pen(theme.BACKGROUND, 1.0)
+        for row in range(int(line.disc_row.max(initial=0)) + 1):
+            k = np.flatnonzero(line.disc_row == row)
+            if not k.size:
+                continue
+            spots = pg.ScatterPlotItem(
+                line.disc_x[k], shape[k], size=10, brush=theme.brush(theme.series_color(row)), pen=white,
+                data=[f"{names[j]} ({m.train.discs[j].id})" for j in k],
+                hoverable=True, hoverSize=14,
+                tip=lambda x, y, data: f"{data}\ntwist {y:+.3f} (largest = 1)")
+            self.upper.addItem(spots)
         self.upper.setYRange(-1.1, 1.1, padding=0)
 
         torque = np.nan_to_num(m.link_torque[i], nan=0.0, posinf=0.0, neginf=0.0)
-        self.lower.setLabel("left", "Modal torque", units="N·m/rad")
-        self._bars(self.lower, line, torque, lambda j, v: (
-            f"{m.link_ids[j]}: modal torque {v:+.4g} N·m per rad of largest twist"))
+        scale, prefix = pg.siScale(float(np.max(np.abs(torque), initial=0.0)) or 1.0)
+        self._title(self.lower, f"Modal torque per link, {prefix}N·m per rad of largest twist")
+        self._bars(self.lower, line, torque * scale, lambda j, v: (
+            f"{m.link_ids[j]}: modal torque {torque[j]:+.4g} N·m per rad of largest twist"))
 
     def _draw_energy(self, m, i, line, names) -> None:
         ke = 100.0 * m.kinetic_share[i]
         se = 100.0 * m.strain_share[i]
-        self.upper.setLabel("left", "Kinetic energy, %", siPrefixEnableRanges=())
-        self.lower.setLabel("left", "Strain energy, %", siPrefixEnableRanges=())
+        self._title(self.upper, "Kinetic energy per disc, % of the mode's total")
+        self._title(self.lower, "Strain energy per link, % of the mode's total")
         colors = [theme.series_color(s) for s in range(len(line.series))]
         bx, bw = side_by_side(line.disc_x, 0.55)
         bar = pg.BarGraphItem(x=bx, height=ke, width=bw,
@@ -205,6 +222,10 @@ class ModesView(QtWidgets.QWidget):
         self.upper.addItem(spots)
         self.upper.setYRange(0, max(5.0, float(np.nanmax(ke)) * 1.1 if ke.size else 5.0), padding=0)
         self._bars(self.lower, line, se, lambda j, v: f"{m.link_ids[j]}: {v:.1f} % of the strain energy")
+
+    @staticmethod
+    def _title(plot, text: str) -> None:
+        plot.setTitle(text, color=theme.INK, size=f"{theme.SMALL_POINT_SIZE + 0.5}pt")
 
     def _bars(self, plot, line, values, tip) -> None:
         if not len(values):

@@ -47,10 +47,10 @@ class ResultsPanel(QtWidgets.QWidget):
         self.response_view = ResponseView(self)
         self.tabs = QtWidgets.QTabWidget(self)
         self.tabs.setDocumentMode(True)
-        self.tabs.addTab(self.modes_view, "Natural frequencies")
+        self.tabs.addTab(self.modes_view, "Modes")
         self.tabs.addTab(self.campbell_view, "Interference diagram")
         self.tabs.addTab(self.response_view, "Forced response")
-        self.tabs.setTabToolTip(TAB_MODES, "Natural frequencies, mode shapes, modal torque and energy shares")
+        self.tabs.setTabToolTip(TAB_MODES, "Natural-frequency table, mode shapes, modal torque and energy shares")
         self.tabs.setTabToolTip(TAB_CAMPBELL, "Excitation orders against natural frequencies over speed, "
                                               "coincidences and the speed cursor")
         self.tabs.setTabToolTip(TAB_RESPONSE, "Damped vibratory torque and stress against speed")
@@ -60,14 +60,11 @@ class ResultsPanel(QtWidgets.QWidget):
         self.caution.setStyleSheet(theme.CAUTION_STYLE)
         self.caution.setVisible(show_caution)
 
-        head = QtWidgets.QHBoxLayout()
-        head.setContentsMargins(0, 0, 0, 0)
-        head.addWidget(self.verdict, 3)
-        head.addWidget(self.details, 1)
+        self.tabs.setCornerWidget(self.details, QtCore.Qt.TopRightCorner)
         lay = QtWidgets.QVBoxLayout(self)
         lay.setContentsMargins(4, 4, 4, 4)
         lay.setSpacing(4)
-        lay.addLayout(head)
+        lay.addWidget(self.verdict)
         lay.addWidget(self.tabs, 1)
         lay.addWidget(self.caution)
         self.setMinimumSize(520, 380)
@@ -75,6 +72,11 @@ class ResultsPanel(QtWidgets.QWidget):
         self.modes_view.modeSelected.connect(self._user_selected)
         self.campbell_view.modeSelected.connect(self._user_selected)
         self.clear_results("No results yet.")
+
+    def resizeEvent(self, event) -> None:
+        super().resizeEvent(event)
+        # the mode count and solve time sit beside the tabs only where they do not crowd them
+        self.details.setVisible(self.width() >= 900)
 
     # ------------------------------------------------------------ public API
     def set_results(self, train, modes, screening, response=None, solve_time_s: float = 0.0) -> None:
@@ -240,3 +242,4 @@ class ResultsPanel(QtWidgets.QWidget):
         if self.response is not None and self.response_view.exceeded:
             details += f" · {len(self.response_view.exceeded)} response exceedance(s)"
         self.details.setText(details)
+        self.verdict.setToolTip(details)

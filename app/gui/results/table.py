@@ -10,6 +10,16 @@ from app.gui import theme
 
 from .rows import Row
 
+_DISPLAY = int(QtCore.Qt.DisplayRole.value)
+_TOOLTIP = int(QtCore.Qt.ToolTipRole.value)
+_ALIGN = int(QtCore.Qt.TextAlignmentRole.value)
+_FOREGROUND = int(QtCore.Qt.ForegroundRole.value)
+_BACKGROUND = int(QtCore.Qt.BackgroundRole.value)
+_FONT = int(QtCore.Qt.FontRole.value)
+_ROLES = frozenset((_DISPLAY, _TOOLTIP, _ALIGN, _FOREGROUND, _BACKGROUND, _FONT))
+_RIGHT = int((QtCore.Qt.AlignRight | QtCore.Qt.AlignVCenter).value)
+_LEFT = int((QtCore.Qt.AlignLeft | QtCore.Qt.AlignVCenter).value)
+
 _STATUS_TEXT = {"pass": theme.PASS, "fail": theme.FAIL, "muted": theme.INK_MUTED}
 _STATUS_FILL = {"pass": None, "fail": theme.FAIL_FILL, "muted": None}
 
@@ -38,26 +48,29 @@ class RowsModel(QtCore.QAbstractTableModel):
     def columnCount(self, parent=QtCore.QModelIndex()):
         return 0 if parent.isValid() else len(self.headers)
 
-    def data(self, index, role=QtCore.Qt.DisplayRole):
-        if not index.isValid():
+    def data(self, index, role=_DISPLAY):
+        # roles compared as plain ints: PySide enum comparisons cost microseconds each,
+        # and a column fit asks for every cell
+        role = int(role)
+        if role not in _ROLES or not index.isValid():
             return None
         row = self.rows[index.row()]
         col = index.column()
-        if role == QtCore.Qt.DisplayRole:
+        if role == _DISPLAY:
             return row.cells[col]
-        if role == QtCore.Qt.ToolTipRole:
+        if role == _TOOLTIP:
             return row.tooltip or None
-        if role == QtCore.Qt.TextAlignmentRole:
-            if col in self._numeric:
-                return int(QtCore.Qt.AlignRight | QtCore.Qt.AlignVCenter)
-            return int(QtCore.Qt.AlignLeft | QtCore.Qt.AlignVCenter)
-        if role == QtCore.Qt.ForegroundRole and row.status in self._brushes:
+        if role == _ALIGN:
+            return _RIGHT if col in self._numeric else _LEFT
+        status = row.status
+        if role == _FOREGROUND:
             # only the status cell and muted rows change colour: a whole red table is hard to read
-            if row.status == "muted" or col == self._status_column:
-                return self._brushes[row.status]
-        if role == QtCore.Qt.BackgroundRole and row.status in self._fills:
-            return self._fills[row.status]
-        if role == QtCore.Qt.FontRole and col == self._status_column and row.status in ("pass", "fail"):
+            if status == "muted" or (col == self._status_column and status in self._brushes):
+                return self._brushes[status]
+            return None
+        if role == _BACKGROUND:
+            return self._fills.get(status)
+        if role == _FONT and col == self._status_column and status in ("pass", "fail"):
             return self._bold
         return None
 
@@ -80,6 +93,7 @@ def make_table_view(model: RowsModel, parent=None) -> QtWidgets.QTableView:
     v.verticalHeader().setDefaultSectionSize(v.fontMetrics().height() + 8)
     h = v.horizontalHeader()
     h.setStretchLastSection(True)
+    h.setResizeContentsPrecision(40)  # fit columns to the first rows only: long tables stay fast
     h.setHighlightSections(False)
     h.setDefaultAlignment(QtCore.Qt.AlignLeft | QtCore.Qt.AlignVCenter)
     v.setMinimumHeight(4 * (v.fontMetrics().height() + 8))
@@ -87,7 +101,11 @@ def make_table_view(model: RowsModel, parent=None) -> QtWidgets.QTableView:
 
 
 def fit_columns(view: QtWidgets.QTableView, max_width: int = 360) -> None:
-    """Size columns to their contents once, then let the user drag them."""
+    """Size columns to their contents once (the first time the table has rows),
+    then leave them: live re-solves must not undo widths the user dragged."""
+    if view.property("columns_fitted") or not view.model().rowCount():
+        return
+    view.setProperty("columns_fitted", True)
     view.resizeColumnsToContents()
     h = view.horizontalHeader()
     for c in range(h.count() - 1):
