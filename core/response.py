@@ -463,7 +463,7 @@ def _family_peak(A: np.ndarray, h: np.ndarray, chunk_cells: int = 2_000_000,
     out = np.empty(cols)
     step = max(1, chunk_cells // n_t)
     kc = min(candidates, n_t)
-    def piece(c0):  # writes its own slice of out: safe on threads
+    for c0 in range(0, cols, step):  # sequential: the matrix products already use BLAS threads
         a = A[:, c0:c0 + step]
         ch = a.shape[1]
         # coarse grid in single precision: it only picks the candidates
@@ -486,8 +486,6 @@ def _family_peak(A: np.ndarray, h: np.ndarray, chunk_cells: int = 2_000_000,
             peak = np.where(np.abs(shift) <= 1, y1 - 0.25 * (y0 - y2) * shift, y1)
             best = np.maximum(best, np.maximum(peak, F.max(axis=1)))
         out[c0:c0 + step] = best
-
-    _map(piece, list(range(0, cols, step)))
     return out
 
 
