@@ -128,7 +128,7 @@ def test_campbell_has_one_line_per_excitation_order(panel, solved):
     train, modes, s = solved
     panel.set_results(train, modes, s)
     cv = panel.campbell_view
-    drawn = [c for c in cv.plot.listDataItems() if c.toolTip()]
+    drawn = [c for c in cv.plot.listDataItems() if c.isVisible() and c.toolTip()]
     assert [c.toolTip() for c in drawn] == [l.label for l in s.lines]
     for c, line in zip(drawn, s.lines):
         x, y = np.asarray(c.xData), np.asarray(c.yData)  # rpm, Hz (raw data, before any log axis)
@@ -155,9 +155,9 @@ def test_coincidence_table_lists_core_coincidences_in_order(panel, solved):
         assert _shown(model, r, 0) == str(c.mode)
         assert _shown(model, r, 2) == c.source
         assert _shown(model, r, 3) == fmt.order(c.order)
-        assert _shown(model, r, 4) == fmt.rpm(c.crossing_speed)
-        assert _shown(model, r, 5) == fmt.percent(c.separation)
-        assert _shown(model, r, 7) == c.status.upper()
+        assert _shown(model, r, 4) == fmt.percent(c.separation)
+        assert _shown(model, r, 5) == c.status.upper()
+        assert _shown(model, r, 6) == fmt.rpm(c.crossing_speed)
     rings = panel.campbell_view.rings
     assert rings.isVisible() == bool(s.coincidences)
     assert len(rings.points()) == len(s.coincidences)
@@ -301,7 +301,7 @@ def test_csv_exports_write_the_rows(panel, solved, tmp_path):
     panel.export_coincidence_csv(str(c))
     _notes, rows = _csv_rows(c)
     assert rows[0] == list(R.COINCIDENCE_HEADERS)
-    assert [(r[0], r[2], r[5]) for r in rows[1:]] == [
+    assert [(r[0], r[2], r[4]) for r in rows[1:]] == [
         (str(x.mode), x.source, fmt.percent(x.separation)) for x in s.coincidences]
 
 

@@ -87,6 +87,16 @@ class CampbellView(QtWidgets.QWidget):
         self._drawn, self._label_pool, self._n_labels = [], [], 0
         self._legend_key, self._legend_samples, self.line_items = None, [], []
         self._shown_modes = []
+        self._line_pool = []
+        self._range_region = pg.LinearRegionItem((0, 1), orientation="vertical", movable=False,
+                                                 brush=theme.brush(theme.OPERATING_BAND),
+                                                 pen=theme.pen(theme.PASS, theme.THIN_WIDTH))
+        self._range_line = pg.InfiniteLine(0.0, angle=90, pen=theme.pen(theme.OPERATING_BAND[:3] + (110,), 7.0))
+        self._trip_line = pg.InfiniteLine(0.0, angle=90, pen=theme.trip_pen())
+        for item, z in ((self._range_region, -20), (self._range_line, -20), (self._trip_line, -15)):
+            item.setZValue(z)
+            item.setVisible(False)
+            self.plot.addItem(item, ignoreBounds=True)
         self._band_item = QtWidgets.QGraphicsPathItem()
         self._band_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
         self._band_item.setBrush(theme.brush(theme.MARGIN_BAND))
@@ -111,6 +121,7 @@ class CampbellView(QtWidgets.QWidget):
         self.rings.setVisible(False)
         self.plot.addItem(self.rings)
         self.cursor.sigDragged.connect(lambda _line: self._show_lower(1))
+        self.cursor.sigPositionChangeFinished.connect(self._layout_labels)
 
         self.log_box = QtWidgets.QCheckBox("Logarithmic frequency axis", self)
         self.log_box.setToolTip("Chosen automatically when the modes span a wide range of frequencies "
@@ -128,8 +139,8 @@ class CampbellView(QtWidgets.QWidget):
         self.message.setStyleSheet(f"color: {theme.INK_MUTED}; font-size: {theme.TITLE_POINT_SIZE}pt;")
         self.message.hide()
 
-        self.coincidence_model = RowsModel(R.COINCIDENCE_HEADERS, self, numeric_columns=(0, 1, 3, 4, 5),
-                                           status_column=7)
+        self.coincidence_model = RowsModel(R.COINCIDENCE_HEADERS, self, numeric_columns=(0, 1, 3, 4, 6),
+                                           status_column=5)
         self.coincidence_table = make_table_view(self.coincidence_model, self)
         self.coincidence_table.setToolTip("Excitations within twice the required margin of a natural "
                                           "frequency, worst first. Click a row to show its mode.")
@@ -223,8 +234,8 @@ class CampbellView(QtWidgets.QWidget):
             self.lower_split.addWidget(cursor)
             coinc.show()  # a page taken out of a tab widget stays hidden otherwise
             cursor.show()
-            self.lower_split.setStretchFactor(0, 1)
-            self.lower_split.setStretchFactor(1, 1)
+            self.lower_split.setStretchFactor(0, 3)
+            self.lower_split.setStretchFactor(1, 2)
             self.lower.setCurrentWidget(self.lower_split)
 
     def _show_lower(self, which: int) -> None:
@@ -249,7 +260,7 @@ class CampbellView(QtWidgets.QWidget):
         self.canvas.show()
         self._draw()
         self.coincidence_model.set_rows(R.coincidence_rows(screening, self.modes))
-        fit_columns(self.coincidence_table)
+        fit_columns(self.coincidence_table, max_width=240)
         n, nf = len(screening.coincidences), len(screening.failures)
         self.coincidence_title.setText(
             f"Coincidences within {fmt.percent(2 * screening.margin)} %: {n}"
@@ -265,9 +276,10 @@ class CampbellView(QtWidgets.QWidget):
         for item in self._label_pool:
             item.setVisible(False)
         self._labels = []
-        self._band_item.setVisible(False)
-        self._mode_item.setVisible(False)
-        self.selected_line.setVisible(False)
+        for item in [self._band_item, self._mode_item, self.selected_line, self._range_region,
+                     self._range_line, self._trip_line] + self._line_pool:
+            item.setVisible(False)
+        self.line_items = []
         self.rings.setVisible(False)
         self.legend.clear()
         self._legend_key = None
@@ -317,11 +329,13 @@ class CampbellView(QtWidgets.QWidget):
         return min(low, y_max / 10.0), y_max
 
     def auto_log(self) -> bool:
-        """Logarithmic frequency axis when the screened modes span more than a
-        factor of 50 below the cap (a high mesh order would flatten the rest)."""
+        """Logarithmic frequency axis when a coincidence (or, without any, the lowest
+        screened mode) lies below 1/40 of the cap: on a linear axis it would sit
+        within a few pixels of the speed axis (a high mesh or blade order does that)."""
         s = self.screening
-        el = [float(f) for f in s.modes.frequency_hz[s.modes.elastic] if 0 < f <= s.cap_hz]
-        return bool(el) and s.cap_hz / min(el) > 50.0
+        fs = [c.frequency_hz for c in s.coincidences] or \
+            [float(f) for f in s.modes.frequency_hz[s.modes.elastic] if 0 < f <= s.cap_hz]
+        return bool(fs) and s.cap_hz > 0 and min(fs) < s.cap_hz / 40.0
 
     def _add(self, item, ignore_bounds: bool = False):
         """Add an item that lives until the next redraw."""
@@ -362,23 +376,23 @@ class CampbellView(QtWidgets.QWidget):
 
         # operating range (band, or a broad line for a single speed) and trip speed
         lo, hi = s.speed_min / RPM, s.speed_max / RPM
-        if hi - lo > 1e-9 * max(hi, 1.0):
-            region = pg.LinearRegionItem((lo, hi), orientation="vertical", movable=False,
-                                         brush=theme.brush(theme.OPERATING_BAND),
-                                         pen=theme.pen(theme.PASS, theme.THIN_WIDTH))
+        wide = hi - lo > 1e-9 * max(hi, 1.0)
+        self._range_region.setVisible(wide)
+        self._range_line.setVisible(not wide)
+        if wide:
+            self._range_region.setRegion((lo, hi))
             range_text = f"{op.range_name} ({fmt.rpm(s.speed_min)}–{fmt.rpm(s.speed_max)} rpm)"
         else:
-            region = pg.InfiniteLine(lo, angle=90, pen=theme.pen(theme.OPERATING_BAND[:3] + (110,), 7.0))
+            self._range_line.setValue(lo)
             range_text = f"{op.range_name} ({fmt.rpm(s.speed_max)} rpm)"
-        region.setZValue(-20)
-        region.setToolTip(range_text)
-        self._add(region)
+        self._range_region.setToolTip(range_text)
+        self._range_line.setToolTip(range_text)
         legend.append(("band", theme.OPERATING_BAND, range_text))
+        self._trip_line.setVisible(bool(op.trip_speed))
         if op.trip_speed:
-            trip = pg.InfiniteLine(op.trip_speed / RPM, angle=90, pen=theme.trip_pen())
-            trip.setToolTip(f"Trip speed {fmt.rpm(op.trip_speed)} rpm: drawn for reference, not screened.")
-            trip.setZValue(-15)
-            self._add(trip)
+            self._trip_line.setValue(op.trip_speed / RPM)
+            self._trip_line.setToolTip(f"Trip speed {fmt.rpm(op.trip_speed)} rpm: drawn for reference, "
+                                       "not screened.")
             legend.append(("trip", None, f"trip speed {fmt.rpm(op.trip_speed)} rpm (not screened)"))
 
         # natural frequencies under the cap, with their margin bands: one path each
@@ -415,16 +429,17 @@ class CampbellView(QtWidgets.QWidget):
         for line in s.lines:
             k = sources.index(line.source)
             color = theme.series_color(k)
+            item = self._line_item(len(self.line_items))
             if line.fixed_hz is not None:
                 pen = theme.pen(color, theme.LINE_WIDTH, QtCore.Qt.DashDotLine)
-                item = pg.PlotDataItem([0.0, x_max], [line.fixed_hz, line.fixed_hz], pen=pen)
+                item.setData([0.0, x_max], [line.fixed_hz, line.fixed_hz], pen=pen)
                 self._add_label(f"{line.fixed_hz:g} Hz", color, bold, "fixed", line.fixed_hz)
             else:
                 pen = theme.pen(color, theme.LINE_WIDTH)
-                item = pg.PlotDataItem(xs_line, line.slope * RPM * xs_line, pen=pen)
+                item.setData(xs_line, line.slope * RPM * xs_line, pen=pen)
                 self._add_label(f"{fmt.order(line.order)}×", color, bold, "order", line.slope * RPM)
             item.setToolTip(line.label)
-            self._add(item)
+            item.setVisible(True)
             self.line_items.append((line, item))
             if line.source not in in_legend:
                 in_legend.add(line.source)
@@ -462,7 +477,17 @@ class CampbellView(QtWidgets.QWidget):
         self.cursor.setValue(rpm)
         for item in self._label_pool[self._n_labels:]:
             item.setVisible(False)
+        for item in self._line_pool[len(self.line_items):]:
+            item.setVisible(False)
         self._layout_labels()
+
+    def _line_item(self, k: int) -> pg.PlotDataItem:
+        """Excitation line number k from the pool (adding plot items is the slow part of a redraw)."""
+        while len(self._line_pool) <= k:
+            item = pg.PlotDataItem()
+            self.plot.addItem(item)
+            self._line_pool.append(item)
+        return self._line_pool[k]
 
     def mode_line_frequencies(self) -> list[float]:
         """Frequencies (Hz) of the natural-frequency lines drawn, in mode order."""
@@ -529,6 +554,13 @@ class CampbellView(QtWidgets.QWidget):
         item.setFont(font)
         self._labels.append((item, kind, value))
 
+    def _cursor_label_box(self, w, h, vx0, sx):
+        """Pixel box of the speed cursor's own label (bottom, right of the line)."""
+        br = self.cursor.label.textItem.boundingRect() if self.cursor.label is not None else None
+        tw, th = (br.width(), br.height()) if br is not None else (70.0, 18.0)
+        x = (float(self.cursor.value()) - vx0) * sx
+        return (x, h - th - 0.02 * h, x + tw + 4, h)
+
     def _layout_labels(self, *_args) -> None:
         """Place the mode, order and fixed-frequency labels where they do not
         overlap (recomputed when the plot is resized or zoomed)."""
@@ -570,7 +602,7 @@ class CampbellView(QtWidgets.QWidget):
                                           0.5 if X >= w - 2 else 0.0))
                     spots.append(Spot(X, Y, 0.5, 0.5))
             requests.append((tw, th, spots))
-        chosen = place_labels(requests, w, h)
+        chosen = place_labels(requests, w, h, blocked=[self._cursor_label_box(w, h, vx0, sx)])
         for (item, _kind, _value), spot in zip(self._labels, chosen):
             if spot is None:
                 item.setVisible(False)

@@ -211,9 +211,10 @@ class ModesView(QtWidgets.QWidget):
         self._title(self.upper, "Kinetic energy per disc, % of the mode's total")
         self._title(self.lower, "Strain energy per link, % of the mode's total")
         colors = [theme.series_color(s) for s in range(len(line.series))]
+        row_brushes = [theme.brush(c) for c in colors]
         bx, bw = side_by_side(line.disc_x, 0.55)
         bar = pg.BarGraphItem(x=bx, height=ke, width=bw,
-                              brushes=[theme.brush(colors[min(r, len(colors) - 1)]) for r in line.disc_row],
+                              brushes=[row_brushes[min(r, len(row_brushes) - 1)] for r in line.disc_row],
                               pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(ke))
         self.upper.addItem(bar)
         spots = pg.ScatterPlotItem(bx, ke, size=14, brush=theme.brush((0, 0, 0, 0)), pen=None,
@@ -231,7 +232,8 @@ class ModesView(QtWidgets.QWidget):
         if not len(values):
             return
         colors = [theme.series_color(s) for s in range(len(line.series))]
-        brushes = [theme.brush(colors[min(r, len(colors) - 1)]) for r in line.link_row]
+        row_brushes = [theme.brush(c) for c in colors]
+        brushes = [row_brushes[min(r, len(row_brushes) - 1)] for r in line.link_row]
         plot.addItem(pg.InfiniteLine(0, angle=0, pen=theme.pen(theme.INK_MUTED, theme.THIN_WIDTH)))
         bx, bw = side_by_side(line.link_x, 0.45)
         plot.addItem(pg.BarGraphItem(x=bx, height=values, width=bw, brushes=brushes,

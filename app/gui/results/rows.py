@@ -18,8 +18,8 @@ from core import units
 
 FREQUENCY_HEADERS = ("Mode", "Hz", "cpm", "Rigid body", "Largest strain energy",
                      "Largest kinetic energy")
-COINCIDENCE_HEADERS = ("Mode", "Natural Hz", "Excitation", "Order", "Crossing rpm",
-                       "Margin %", "Band rpm", "Status")
+COINCIDENCE_HEADERS = ("Mode", "Natural Hz", "Excitation", "Order", "Margin %", "Status",
+                       "Crossing rpm", "Band rpm")
 CURSOR_HEADERS = ("Excitation", "Order", "Excitation Hz", "Nearest mode", "Natural Hz",
                   "Separation %")
 
@@ -107,8 +107,8 @@ def coincidence_rows(screening, modes=None) -> list[Row]:
                f"(required {fmt.percent(screening.margin)} %) at {fmt.rpm(c.worst_speed)} rpm. "
                "Click to show this mode.")
         rows.append(Row([str(c.mode), fmt.hz(c.frequency_hz), c.source, fmt.order(c.order),
-                         fmt.rpm(c.crossing_speed), fmt.percent(c.separation), band_text(c.band),
-                         c.status.upper()], tip, c.status, idx, {"coincidence": c}))
+                         fmt.percent(c.separation), c.status.upper(), fmt.rpm(c.crossing_speed),
+                         band_text(c.band)], tip, c.status, idx, {"coincidence": c}))
     return rows
 
 
