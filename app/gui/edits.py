@@ -74,8 +74,8 @@ def insert_after(doc: dict, selection: tuple[str, str] | None, kind: str) -> tup
 
     ``selection`` is ("disc", id), ("link", id) or None (append after the last
     disc).  After a disc in the middle of a line, the line's next link is moved
-    to start at the new disc; after a link A->B, the link is split: A->new, then
-    the new link new->B.  Returns (new document, selection of the new disc).
+    to start at the new disc; after a link A->B, the link is split:
+    the new link A->new comes first, then the selected link runs new->B.  Returns (new document, selection of the new disc).
     """
     if kind not in NEW_LINK_DEFAULTS:
         raise ValueError(kind)
@@ -91,11 +91,10 @@ def insert_after(doc: dict, selection: tuple[str, str] | None, kind: str) -> tup
         old = links[li]
         a, b = old.get("from"), old.get("to")
         template = _disc_template(new, a if a != GROUND else b)
-        old["to"] = d_id
+        old["from"] = d_id  # the selected link now runs new disc -> b
         disc_index = ids.index(a) + 1 if a in ids else len(discs)
         discs.insert(disc_index, {"id": d_id, "name": "New disc", "inertia": template})
-        links.insert(li + 1, {"id": l_id, "kind": kind, "from": d_id, "to": b,
-                              **NEW_LINK_DEFAULTS[kind]})
+        links.insert(li, {"id": l_id, "kind": kind, "from": a, "to": d_id, **NEW_LINK_DEFAULTS[kind]})
         return new, ("disc", d_id)
     anchor = sel_id if sel_id in ids else (ids[-1] if ids else None)
     if anchor is None:
@@ -126,8 +125,9 @@ def delete(doc: dict, selection: tuple[str, str]) -> dict:
     """Delete the selected disc or link.
 
     A disc in the middle of a line (exactly two links) is taken out and its
-    neighbours joined by the upstream link; any other disc goes with all its
-    links.  A deleted link leaves its discs in place (the model then reports
+    neighbours joined by the link beyond it (the first of its links in file
+    order goes), so deleting a disc just inserted restores the train; any
+    other disc goes with all its links.  A deleted link leaves its discs in place (the model then reports
     the unconnected disc until the user links it again or undoes).
     """
     kind, ident = selection
@@ -139,12 +139,12 @@ def delete(doc: dict, selection: tuple[str, str]) -> dict:
     new["discs"] = [d for d in new.get("discs", []) if not (isinstance(d, dict) and d.get("id") == ident)]
     touching = [l for l in links if isinstance(l, dict) and ident in (l.get("from"), l.get("to"))]
     if len(touching) == 2:
-        up, down = touching
-        far = down.get("to") if down.get("from") == ident else down.get("from")
-        end = "to" if up.get("to") == ident else "from"
-        if far != GROUND or up.get("kind") != "gear_mesh":
-            up[end] = far
-            new["links"] = [l for l in links if l is not down]
+        first, beyond = touching
+        near = first.get("from") if first.get("to") == ident else first.get("to")
+        end = "from" if beyond.get("from") == ident else "to"
+        if near != GROUND or beyond.get("kind") != "gear_mesh":
+            beyond[end] = near
+            new["links"] = [l for l in links if l is not first]
             _fix_references(new, ident)
             return new
     new["links"] = [l for l in links if not any(l is t for t in touching)]

@@ -824,6 +824,7 @@ def render_window(doc, path, size, system: str = "SI", mode_number: int | None =
                                 QtCore.QSettings.IniFormat)
     settings.setValue("unit_system", system)
     win = MainWindow(settings=settings, autosave=False)
+    win.setMinimumSize(320, 240)
     win.resize(*size)
     win.load_document(doc, path)
     win.show()
