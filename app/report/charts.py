@@ -244,7 +244,7 @@ def campbell_drawing(screening, width: float, plot_height: float = 300.0,
         p.hline(f, GREY, 0.7)
         y = p.sy(f)
         if y - last_label_y >= 7.5 and y + 6 < p.y0 + p.h:
-            p.text(p.x0 + 2, y + 1.2, f"{num}", size=5.5, color=GREY)
+            p.text(p.x0 + 2, y + 1.2, f"{num}", size=6, color=INK)
             last_label_y = y
     # excitation lines and their labels outside the box (top or right edge)
     taken: list[tuple[str, float]] = []
