@@ -25,6 +25,7 @@ from core import units as u
 from core.model import GROUND
 
 from . import theme
+from .quantities import pretty_unit, read_si, short_quantity  # noqa: F401
 from ..schematic_layout import place_document
 
 COL_W = 140.0  # scene units between disc columns
@@ -36,10 +37,7 @@ LABEL_W = COL_W - 12
 
 
 def _si(value, kind):
-    try:
-        return u.parse(value, kind)
-    except Exception:
-        return None
+    return read_si(value, kind)
 
 
 def _log_scale(values: dict, lo_out: float, hi_out: float) -> dict:
@@ -58,19 +56,6 @@ def _log_scale(values: dict, lo_out: float, hi_out: float) -> dict:
         else:
             out[k] = lo_out + (hi_out - lo_out) * (math.log10(good[k]) - lo) / span
     return out
-
-
-def pretty_unit(text: str) -> str:
-    """'kg*m^2' -> 'kg·m²' for labels that are read, not edited."""
-    return text.replace("*", "·").replace("^2", "²").replace("^3", "³").replace("^4", "⁴")
-
-
-def short_quantity(text, kind, system: str) -> str:
-    """Stored text shown in the display unit system (the stored text itself if it does not parse)."""
-    v = _si(text, kind)
-    if v is None:
-        return str(text)
-    return pretty_unit(u.format_quantity(v, kind, u.display_unit(kind, system), digits=3))
 
 
 def link_stiffness_si(link: dict):

@@ -26,6 +26,7 @@ from core.model import GROUND, LINK_KINDS, MASS_MODELS
 
 from . import theme
 from .canvas import link_stiffness_si
+from .quantities import _read, display_text, read_si  # noqa: F401 (re-exported)
 
 NUMBER = "number"
 TEXT = "text"
@@ -81,22 +82,6 @@ def tip(key: str, kind=None, system: str = "SI") -> str:
 
 
 # ----------------------------------------------------------------- value helpers
-def display_text(value, kind, system: str) -> str:
-    """Text shown for a stored value in the chosen unit system (the stored text
-    itself when it does not read)."""
-    if value is None:
-        return ""
-    if isinstance(kind, u.Kind):
-        try:
-            v = u.parse(value, kind)
-        except Exception:
-            return str(value)
-        return u.format_quantity(v, kind, u.display_unit(kind, system), digits=5)
-    if isinstance(value, float) and value.is_integer():
-        return f"{value:g}"
-    return str(value)
-
-
 def stored_value(text: str, kind, system: str):
     """What goes into the document for text the user typed (None: remove the key)."""
     text = text.strip()
@@ -127,7 +112,7 @@ def text_problem(text: str, kind) -> str | None:
             float(text)
             return None
         except ValueError:
-            return u.check_text(text, kind)
+            return _read(text, kind)[1]
     if kind == NUMBER:
         try:
             u.parse_number(text)
@@ -230,7 +215,9 @@ class DocTable(QtWidgets.QTableWidget):
         super().__init__(parent)
         self.system = "SI"
         self._updating = False
-        self._meta = {}  # (row, col) -> (path, kind, shown text)
+        self._meta = {}  # (row, col) -> (path, kind, shown text, id)
+        self._meta_keep = {}
+        self._row_keys: list = []
         self.setColumnCount(len(self.columns))
         self.setHorizontalHeaderLabels([c[0] for c in self.columns])
         self.verticalHeader().setVisible(False)
@@ -257,13 +244,28 @@ class DocTable(QtWidgets.QTableWidget):
         self._updating = True
         rows = [x for x in doc.get(self.list_key, []) if isinstance(x, dict)]
         self.setRowCount(len(rows))
-        self._meta.clear()
+        del self._row_keys[len(rows):]
+        self._meta_keep = dict(self._meta)
+        self._meta = {}
         self.ids = []
-        for r, obj in enumerate(rows):
-            index = doc[self.list_key].index(obj)
+        indices = [i for i, x in enumerate(doc.get(self.list_key, [])) if isinstance(x, dict)]
+        error_text = str(project.error) if project.error is not None else None
+        for r, (obj, index) in enumerate(zip(rows, indices)):
             ident = obj.get("id")
             self.ids.append(ident)
             element = f"{self.element_kind} '{ident}'"
+            # a row whose content, place and error are as last drawn is left alone
+            # (one edit changes one row; a 200-disc train stays quick to redraw)
+            row_key = (repr(obj), index, system, error_text if project.error is not None
+                       and project.error.element == element else None)
+            if r < len(self._row_keys) and self._row_keys[r] == row_key and (r, 0) in self._meta_keep:
+                for c in range(len(self.columns)):
+                    self._meta[(r, c)] = self._meta_keep[(r, c)]
+                continue
+            if r < len(self._row_keys):
+                self._row_keys[r] = row_key
+            else:
+                self._row_keys.append(row_key)
             for c, (header, key, kind, tip_key) in enumerate(self.columns):
                 stored, editable, note = self.cell_value(obj, key)
                 shown = display_text(stored, kind, system) if note is None else note
@@ -295,7 +297,9 @@ class DocTable(QtWidgets.QTableWidget):
                     item.setData(QtCore.Qt.ForegroundRole, None)
                 item.setToolTip(t)
                 self._meta[(r, c)] = ((self.list_key, index, key), kind, shown, ident)
-        self.header_tips()
+        if system != getattr(self, "_tips_system", None):
+            self._tips_system = system
+            self.header_tips()
         self._updating = False
 
     def _has_column(self, field) -> bool:
@@ -317,6 +321,8 @@ class DocTable(QtWidgets.QTableWidget):
         text = item.text()
         if text == shown:
             return
+        if item.row() < len(self._row_keys):
+            self._row_keys[item.row()] = None  # redraw this row whatever the edit leads to
         if path[-1] == "id" and self.element_kind == "disc":
             self.renameRequested.emit(ident, text.strip())
             return
