@@ -61,12 +61,13 @@ class Schedule:
         return pos
 
 
-def _preorder(n_nodes, ea, eb):
+def _preorder(n_nodes, ea, eb, start: int = 0):
+    """Depth-first preorder rank of the nodes reachable from ``start`` (others: -1)."""
     if n_nodes <= 1 or not len(ea):
         return np.arange(n_nodes)
     g = sp.coo_matrix((np.ones(len(ea)), (ea, eb)), shape=(n_nodes, n_nodes)).tocsr()
-    order = depth_first_order(g, 0, directed=False, return_predecessors=False)
-    pre = np.empty(n_nodes, np.int64)
+    order = depth_first_order(g, start, directed=False, return_predecessors=False)
+    pre = np.full(n_nodes, -1, np.int64)
     pre[order] = np.arange(len(order))
     return pre
 
@@ -110,8 +111,14 @@ def build_schedule(n_nodes: int, edges_a: np.ndarray, edges_b: np.ndarray) -> Sc
         inc_e = np.r_[np.arange(len(A)), np.arange(len(A))]
         two = deg[inc_v] == 2
         inc_v, inc_u, inc_s, inc_e = inc_v[two], inc_u[two], inc_s[two], inc_e[two]
-        beaten = (deg[inc_u] == 2) & (priority[inc_u] > priority[inc_v])
-        lost = np.zeros(n_nodes, bool)
+        # independent set: even depth-first rank in the current tree, so that along
+        # a chain every other node goes (half per round); where two even nodes
+        # meet (a branch point), the higher fixed priority wins
+        even = (_preorder(n_nodes, A, B, int(A[0])) % 2) == 0
+        cand = np.zeros(n_nodes, bool)
+        cand[inc_v] = even[inc_v]
+        beaten = cand[inc_u] & (deg[inc_u] == 2) & (priority[inc_u] > priority[inc_v])
+        lost = ~cand
         lost[inc_v[beaten]] = True
         chosen_inc = ~lost[inc_v]
         if not chosen_inc.any():
