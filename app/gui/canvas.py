@@ -29,7 +29,7 @@ from .quantities import pretty_unit, read_si, short_quantity  # noqa: F401
 from ..schematic_layout import place_document
 
 COL_W = 140.0  # scene units between disc columns
-ROW_H = 135.0
+ROW_H = 200.0
 DISC_W = 22.0
 DISC_H_MIN, DISC_H_MAX = 22.0, 84.0
 PEN_MIN, PEN_MAX = 1.2, 6.0

@@ -153,7 +153,7 @@ class Project(QtCore.QObject):
     def set_value(self, path, value, text: str | None = None) -> None:
         if get_path(self.doc, path) == value:
             return
-        self.undo_stack.push(SetValue(self, path, value, text or f"Edit {'.'.join(map(str, path))}"))
+        self.undo_stack.push(SetValue(self, path, value, text or f"Edit {path[-1]}"))
 
     def replace(self, new_doc: dict, text: str) -> None:
         if new_doc == self.doc:

@@ -154,6 +154,7 @@ class Field(QtWidgets.QLineEdit):
         if not self.hasFocus() or not self.isModified():
             self._shown = display_text(stored, self.kind, system)
             self.setText(self._shown)
+            self.setCursorPosition(0)  # show the start of a long value
             self.setModified(False)
         self._model_problem = model_problem
         self._check()
@@ -420,6 +421,7 @@ class PropertyForm(QtWidgets.QScrollArea):
     def __init__(self, parent=None):
         super().__init__(parent)
         self.setWidgetResizable(True)
+        self.setHorizontalScrollBarPolicy(QtCore.Qt.ScrollBarAlwaysOff)  # fit the width, scroll down only
         self.setMinimumWidth(260)
         self._signature = None
         self._fields: list[Field] = []
@@ -509,6 +511,8 @@ class PropertyForm(QtWidgets.QScrollArea):
 
     def _combo(self, form, label, choices, current, tip_key, on_change):
         box = QtWidgets.QComboBox()
+        box.setSizeAdjustPolicy(QtWidgets.QComboBox.AdjustToMinimumContentsLengthWithIcon)
+        box.setMinimumContentsLength(6)  # long ids must not widen the form beyond its pane
         box.addItems(choices)
         if current not in choices:
             box.addItem(str(current))
@@ -535,9 +539,9 @@ class PropertyForm(QtWidgets.QScrollArea):
         heading = QtWidgets.QLabel(f"{'Disc' if kind == 'disc' else str(obj.get('kind', 'link')).replace('_', ' ').capitalize()}"
                                    f" '{obj.get('id')}'")
         heading.setFont(theme.font(theme.TITLE_POINT_SIZE, bold=True))
+        heading.setWordWrap(True)
         lay.addWidget(heading)
-        form = QtWidgets.QFormLayout()
-        form.setFieldGrowthPolicy(QtWidgets.QFormLayout.AllNonFixedFieldsGrow)
+        form = _narrow_form()
         lay.addLayout(form)
         base = ("discs" if kind == "disc" else "links", index)
         self._add_field(form, "Id", base + ("id",), TEXT, "id", optional=False)
@@ -560,7 +564,7 @@ class PropertyForm(QtWidgets.QScrollArea):
                         "geometry" if geometry else "given stiffness", "stiffness", self._change_definition)
             if geometry:
                 self._segments(lay, obj, base)
-                form2 = QtWidgets.QFormLayout()
+                form2 = _narrow_form()
                 lay.addLayout(form2)
                 mat = obj.get("material")
                 names = list(LIBRARY) + ["custom"]
@@ -576,6 +580,7 @@ class PropertyForm(QtWidgets.QScrollArea):
                     note = QtWidgets.QLabel(f"G = {display_text(m.shear_modulus, u.MODULUS, self.system)}, "
                                             f"ρ = {display_text(m.density, u.DENSITY, self.system)}")
                     note.setToolTip(m.source)
+                    note.setWordWrap(True)
                     note.setStyleSheet(f"color: {theme.INK_MUTED};")
                     form2.addRow("", note)
                 self._combo(form2, "Shaft inertia", list(MASS_MODELS), obj.get("mass") or "none", "mass",
@@ -600,11 +605,15 @@ class PropertyForm(QtWidgets.QScrollArea):
         lay.addStretch(1)
 
     def _segments(self, lay, obj, base):
-        lay.addWidget(QtWidgets.QLabel("Segments (in series, driving end first)"))
+        head = QtWidgets.QLabel("Segments, in series from the 'from' end")
+        head.setWordWrap(True)
+        lay.addWidget(head)
         grid = QtWidgets.QGridLayout()
         grid.setHorizontalSpacing(4)
-        for c, h in enumerate(("Length", "Outer diameter", "Bore")):
+        for c, (h, key) in enumerate((("Length", "length"), ("Outer Ø", "outer_diameter"),
+                                      ("Bore Ø", "inner_diameter"))):
             lab = QtWidgets.QLabel(h)
+            lab.setToolTip(TIPS[key])
             lab.setStyleSheet(f"color: {theme.INK_MUTED};")
             grid.addWidget(lab, 0, c)
         segs = obj.get("segments") or []
@@ -612,7 +621,10 @@ class PropertyForm(QtWidgets.QScrollArea):
             for c, key in enumerate(("length", "outer_diameter", "inner_diameter")):
                 f = Field(base + ("segments", r, key), u.LENGTH, key, self.system, optional=key == "inner_diameter")
                 f.committed.connect(self._commit)
-                f.setMinimumWidth(60)
+                if key == "inner_diameter":
+                    f.setPlaceholderText("solid")
+                f.setMinimumWidth(52)
+                f.setSizePolicy(QtWidgets.QSizePolicy.Ignored, QtWidgets.QSizePolicy.Fixed)
                 grid.addWidget(f, 2 * r + 1, c)
                 grid.addWidget(f.problem_label, 2 * r + 2, c)
                 self._fields.append(f)
@@ -622,6 +634,8 @@ class PropertyForm(QtWidgets.QScrollArea):
             rm.setEnabled(len(segs) > 1)
             rm.clicked.connect(lambda _=False, r=r: self._remove_segment(r))
             grid.addWidget(rm, 2 * r + 1, 3)
+        for c in range(3):
+            grid.setColumnStretch(c, 1)
         lay.addLayout(grid)
         add = QtWidgets.QPushButton("Add segment")
         add.setToolTip("Append a segment at the driven end (a copy of the last one)")
@@ -691,6 +705,14 @@ class PropertyForm(QtWidgets.QScrollArea):
                 return
             obj["material"] = name
         self.replaceRequested.emit(new, f"Material of '{obj.get('id')}'")
+
+
+def _narrow_form() -> QtWidgets.QFormLayout:
+    """A form that puts labels above their fields when the pane is narrow."""
+    form = QtWidgets.QFormLayout()
+    form.setFieldGrowthPolicy(QtWidgets.QFormLayout.AllNonFixedFieldsGrow)
+    form.setRowWrapPolicy(QtWidgets.QFormLayout.WrapLongRows)
+    return form
 
 
 def _get(doc, path):

@@ -160,6 +160,9 @@ class MainWindow(QtWidgets.QMainWindow):
         self.tabs.setTabToolTip(1, "Shafts, couplings and gear meshes: double-click a cell to edit")
         self.tabs.setTabToolTip(2, "Title, reference disc, speed range, margin and excitations")
         self.property_form = PropertyForm()
+        # the operating data have no selected element: give that tab the full width
+        self.tabs.currentChanged.connect(
+            lambda _i: self.property_form.setVisible(self.tabs.currentWidget() is not self.operating_form))
 
         forms = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
         forms.addWidget(self.tabs)
@@ -192,7 +195,7 @@ class MainWindow(QtWidgets.QMainWindow):
         # starting proportions (the splitters keep them as the window is resized)
         self.main_split.setSizes([720, 880])
         left.setSizes([380, 520])
-        forms.setSizes([440, 280])
+        forms.setSizes([400, 320])
 
         central = QtWidgets.QWidget()
         v = QtWidgets.QVBoxLayout(central)
@@ -314,8 +317,21 @@ class MainWindow(QtWidgets.QMainWindow):
         tb.setObjectName("main_toolbar")
         tb.setMovable(False)
         tb.setToolButtonStyle(QtCore.Qt.ToolButtonTextBesideIcon)
-        for a in (self.act_new, self.act_open, self.act_save, None, self.act_undo, self.act_redo, None):
+        for a in (self.act_new, self.act_open, self.act_save, None):
             tb.addSeparator() if a is None else tb.addAction(a)
+        # toolbar copies of undo/redo with a fixed label (the menu entries name the edit)
+        stack = self.project.undo_stack
+        for text, icon, do, can, what, key in (
+                ("Undo", S.SP_ArrowBack, stack.undo, stack.canUndoChanged, stack.undoTextChanged, "Ctrl+Z"),
+                ("Redo", S.SP_ArrowForward, stack.redo, stack.canRedoChanged, stack.redoTextChanged, "Ctrl+Shift+Z")):
+            a = QtGui.QAction(self.style().standardIcon(icon), text, self)
+            a.setEnabled(False)
+            a.setToolTip(f"{text} ({key})")
+            a.triggered.connect(lambda _=False, do=do: do())
+            can.connect(a.setEnabled)
+            what.connect(lambda t, a=a, text=text, key=key: a.setToolTip(f"{text} {t} ({key})" if t else f"{text} ({key})"))
+            tb.addAction(a)
+        tb.addSeparator()
         for a, label in ((self.act_ins_shaft, "+ Shaft"), (self.act_ins_coupling, "+ Coupling"),
                          (self.act_ins_mesh, "+ Gear mesh")):
             b = QtWidgets.QToolButton()
@@ -423,8 +439,8 @@ class MainWindow(QtWidgets.QMainWindow):
         if error is None:
             self.error_banner.hide()
             return
-        keep = "the results show the last valid model" if self.project.train is not None else "no results yet"
-        self.error_banner.setText(f"⛔  {error}   —   {keep}; fix the value or undo (Ctrl+Z).")
+        keep = "the results of the last valid model" if self.project.train is not None else "no results yet"
+        self.error_banner.setText(f"Model error — {error}.  Showing {keep}; fix the value or undo (Ctrl+Z).")
         self.error_banner.show()
         if self.project.train is None and hasattr(self.results_panel, "clear_results"):
             self.results_panel.clear_results(f"The model cannot be solved: {error}")
@@ -817,8 +833,10 @@ def _parse_size(text: str) -> tuple[int, int]:
     return w, h
 
 
-def render_window(doc, path, size, system: str = "SI", mode_number: int | None = 1) -> QtGui.QImage:
-    """The main window with the project's results, rendered offscreen to an image."""
+def render_window(doc, path, size, system: str = "SI", mode_number: int | None = 1,
+                  results_tab: int | None = None, selection=None) -> QtGui.QImage:
+    """The main window with the project's results, rendered offscreen to an image
+    (``results_tab``: index of the results tab to show; ``selection``: element to select)."""
     application()
     settings = QtCore.QSettings(str(Path(QtCore.QDir.tempPath()) / "twistwise-screenshot.ini"),
                                 QtCore.QSettings.IniFormat)
@@ -836,6 +854,11 @@ def render_window(doc, path, size, system: str = "SI", mode_number: int | None =
             if idx and hasattr(win.results_panel, "select_mode"):
                 win.results_panel.select_mode(idx[0])
                 win._show_mode_colour()
+    tabs = getattr(win.results_panel, "tabs", None)
+    if results_tab is not None and tabs is not None:
+        tabs.setCurrentIndex(results_tab)
+    if selection is not None:
+        win.set_selection(selection)
     for _ in range(3):
         QtWidgets.QApplication.processEvents()
     win._fit()
