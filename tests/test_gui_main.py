@@ -398,3 +398,20 @@ def test_screenshot_bad_input_is_one_line_and_exit_2(tmp_path, capsys, argv):
     assert cli_main(argv) == 2
     err = capsys.readouterr().err.strip()
     assert err.startswith("twistwise:") and "\n" not in err and "Traceback" not in err
+
+
+def test_a_file_whose_model_does_not_build_still_opens_with_the_error_shown(qtbot, window, tmp_path):
+    doc = load_document(PUMP)
+    doc["links"][1]["stiffness"] = "95 kg"  # a mass, not a stiffness
+    bad = tmp_path / "bad.json"
+    bad.write_text(json.dumps(doc), encoding="utf-8")
+    assert window.open_path(bad)
+    QtWidgets.QApplication.processEvents()
+    assert window.project.doc == doc  # nothing the user saved is lost
+    assert window.project.train is None and window.results is None
+    assert window.error_banner.isVisible() and "link 'coupling'" in window.error_banner.text()
+    assert "stiffness" in window.error_banner.text()
+    assert ("link", "coupling") in window.canvas._items  # the train is still drawn
+    window.project.set_value(("links", 1, "stiffness"), "95 kN*m/rad")
+    wait_results(qtbot, window)
+    assert not window.error_banner.isVisible()
