@@ -277,6 +277,57 @@ def _count(schedule: Schedule, D: np.ndarray, Q: np.ndarray) -> np.ndarray:
     return neg
 
 
+def factor_solve(schedule: Schedule, D: np.ndarray, W: np.ndarray, b: np.ndarray, tiny: float):
+    """Negative pivots of K and the solution of K x = b, in one elimination sweep.
+
+    The right-hand side is reduced in the same rounds as the matrix, and the
+    back substitution keeps only b_v / d, w1 / d and w2 / d per round, so a
+    shifted solve costs little more than a count.  All arrays in elimination
+    order; D, W and b are overwritten.  Returns (count (m,), x (n, m)).
+    """
+    m = D.shape[1]
+    neg = np.zeros(m, np.int64)
+    saved = []
+    big = max((r.nodes.stop - r.nodes.start for r in schedule.rounds), default=0)
+    inv_b, t_b = np.empty((big, m)), np.empty((big, m))
+    sign_b = np.empty((big, m), bool)
+    for r in schedule.rounds:
+        k = r.nodes.stop - r.nodes.start
+        d = D[r.nodes]
+        if not np.all(d):  # a zero pivot (never NaN here): LAPACK's tiny replacement
+            d = _safe(d, tiny)
+        neg += np.count_nonzero(np.less(d, 0.0, out=sign_b[:k]), axis=0)
+        inv = np.divide(1.0, d, out=inv_b[:k])
+        t = t_b[:k]
+        w1 = W[r.e1]
+        w1i = w1 * inv
+        bv = b[r.nodes] * inv
+        _sub_n1(D, r, np.multiply(w1, w1i, out=t))
+        _sub_n1(b, r, np.multiply(w1, bv, out=t))
+        if r.kind == "compress":
+            w2 = W[r.e2]
+            w2i = w2 * inv
+            D[r.n2] -= np.multiply(w2, w2i, out=t)
+            b[r.n2] -= np.multiply(w2, bv, out=t)
+            np.multiply(w1i, w2, out=t)
+            W[r.new] = np.negative(t, out=t)
+            saved.append((bv, w1i, w2i))
+        else:
+            saved.append((bv, w1i, None))
+    d = D[-1]
+    if d.size and (d == 0.0).any():
+        d = _safe(d, tiny)
+    neg += d < 0
+    x = b
+    x[-1] = b[-1] / d
+    for r, (bv, w1i, w2i) in zip(reversed(schedule.rounds), reversed(saved)):
+        acc = bv - w1i * x[r.n1]
+        if w2i is not None:
+            acc -= w2i * x[r.n2]
+        x[r.nodes] = acc
+    return neg, x
+
+
 def solve_factored(schedule: Schedule, factors, b: np.ndarray) -> np.ndarray:
     """Solve K x = b in elimination order with factors from :func:`factor` (b is overwritten)."""
     for r, (inv, w1, w2) in zip(schedule.rounds, factors[:-1]):

@@ -32,7 +32,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from .assembly import Assembly, assemble, clamped_count, member_stiffness
-from .elimination import build_schedule, factor, solve_factored
+from .elimination import build_schedule, factor, factor_solve, solve_factored
 from .model import Train
 
 TWO_PI = 2.0 * np.pi
@@ -185,8 +185,10 @@ class DynamicSystem:
     def shifted_solve(self, sigma, rhs):
         """Count below each omega = sigma and x solving (K(sigma) ) x = rhs, per column (permuted)."""
         def piece(s):
-            c, _, _, fac = self.evaluate(sigma[s], logdet=False, keep=True)
-            return c, solve_factored(self.schedule, fac, rhs[:, s].copy())
+            w = sigma[s]
+            D, Wp = self._arrays(w, exact=True)
+            neg, x = factor_solve(self.schedule, D, Wp, rhs[:, s].copy(), self.tiny)
+            return neg + (clamped_count(self.asm.members, w) if self.asm.distributed else 0), x
         parts = _map(piece, self._pieces(sigma.size, keep=True))
         return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts], axis=1)
 
