@@ -415,3 +415,11 @@ def test_a_file_whose_model_does_not_build_still_opens_with_the_error_shown(qtbo
     window.project.set_value(("links", 1, "stiffness"), "95 kN*m/rad")
     wait_results(qtbot, window)
     assert not window.error_banner.isVisible()
+
+
+def test_renamed_link_stays_selected(qtbot, window):
+    open_sample(qtbot, window)
+    window.set_selection(("link", "coupling"))
+    type_into(qtbot, field_at(window, ("links", 1, "id")), "disc_pack")
+    assert window.project.doc["links"][1]["id"] == "disc_pack"
+    assert window.selection == ("link", "disc_pack")

@@ -376,7 +376,11 @@ class MainWindow(QtWidgets.QMainWindow):
 
     # ------------------------------------------------------------ edits
     def _edit(self, path, value, label):
-        self.project.set_value(tuple(path), value, label)
+        path = tuple(path)
+        old, selected = self.project.get(path), self.selection
+        self.project.set_value(path, value, label)
+        if path[0] == "links" and path[-1] == "id" and selected == ("link", old) and value:
+            self.set_selection(("link", value))  # a renamed link stays selected
 
     def _rename(self, old, new):
         new = new.strip()
