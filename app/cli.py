@@ -11,7 +11,6 @@ import argparse
 import json
 import math
 import sys
-from pathlib import Path
 
 from core import units
 from core.errors import ModelError
@@ -32,11 +31,6 @@ class InputError(Exception):
 class _Parser(argparse.ArgumentParser):
     def error(self, message):  # one line, exit 2, no usage dump noise
         raise InputError(message)
-
-
-def bundled_sample() -> Path:
-    here = Path(__file__).resolve().parent.parent / "sample_projects"
-    return here / "pump_set.json"
 
 
 def _load(path: str):
