@@ -533,6 +533,8 @@ def _segment_energies(k, x, ta, tb):
     every mode) take the static limit directly.
     """
     U = 0.5 * k * (ta - tb) ** 2
+    if not x.any():  # springs only: no kinetic energy of their own
+        return U, np.zeros_like(U)
     Tk = 0.5 * k * x ** 2 * (ta ** 2 + ta * tb + tb ** 2) / 3.0
     rows = np.flatnonzero((x >= 1e-4).any(axis=1))  # distributed members only
     if not len(rows):
@@ -625,13 +627,17 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
     U, Tk = _segment_energies(k_act, x, ta, tb)
     Ta, Tb, Tm = _member_torques(k_act, x, ta, tb)
     # a member stored from its link's `to` end carries the opposite sign
-    sgn = np.where(mem.flip, -1.0, 1.0)[:, None]
-    Ta, Tb, Tm = Ta * sgn, Tb * sgn, Tm * sgn
-    Ta, Tb = np.where(mem.flip[:, None], Tb, Ta), np.where(mem.flip[:, None], Ta, Tb)
-    per_link = sp.csr_matrix((np.ones(len(mem.link)), (mem.link, np.arange(len(mem.link)))),
-                             shape=(nl, len(mem.link)))
-    strain = per_link @ U
-    link_kin = per_link @ np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
+    fl = np.flatnonzero(mem.flip)
+    if len(fl):
+        Ta[fl], Tb[fl], Tm[fl] = -Tb[fl], -Ta[fl], -Tm[fl]
+    if len(mem.link) == nl and np.array_equal(mem.link, np.arange(nl)):
+        strain = U  # one member per link, in link order (no rigid mesh, no segments)
+        link_kin = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0) if a.distributed else np.zeros_like(U)
+    else:
+        per_link = sp.csr_matrix((np.ones(len(mem.link)), (mem.link, np.arange(len(mem.link)))),
+                                 shape=(nl, len(mem.link)))
+        strain = per_link @ U
+        link_kin = per_link @ np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
     torque, t_from, t_to = _link_torques(mem, nl, Ta, Tb, Tm)
     # disc inertia as the equations of motion see it (lumped shaft halves included)
     J_eff = np.array([d.inertia for d in train.discs])
@@ -645,7 +651,7 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
     # a rigid-body mode (omega = 0) still has kinetic energy shares in proportion to J theta^2
     w_kin = np.where(omega > 0, omega, 1.0)
     disc_kin = 0.5 * J_eff[:, None] * theta ** 2 * w_kin[None, :] ** 2
-    if any(l.is_rigid for l in train.links):
+    if len(a.disc_node) and a.disc_node.max() + 1 < nd:  # discs merged: rigid meshes
         _rigid_mesh_torques(train, omega, theta, J_eff, torque, t_from, t_to)
     tot_kin = disc_kin.sum(0) + link_kin.sum(0)
     tot_kin = np.where(tot_kin == 0, 1.0, tot_kin)
