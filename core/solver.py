@@ -184,13 +184,26 @@ class DynamicSystem:
 
     def shifted_solve(self, sigma, rhs):
         """Count below each omega = sigma and x solving (K(sigma) ) x = rhs, per column (permuted)."""
-        def piece(s):
-            w = sigma[s]
-            D, Wp = self._arrays(w, exact=True)
-            neg, x = factor_solve(self.schedule, D, Wp, rhs[:, s].copy(), self.tiny)
-            return neg + (clamped_count(self.asm.members, w) if self.asm.distributed else 0), x
-        parts = _map(piece, self._pieces(sigma.size, keep=True))
+        parts = _map(lambda s: self._shifted_piece(sigma[s], rhs[:, s]),
+                     self._pieces(sigma.size, keep=True))
         return np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts], axis=1)
+
+    def _shifted_piece(self, w, rhs, rayleigh: bool = False):
+        D, Wp = self._arrays(w, exact=True)
+        neg, x = factor_solve(self.schedule, D, Wp, rhs.copy(), self.tiny)
+        count = neg + (clamped_count(self.asm.members, w) if self.asm.distributed else 0)
+        if not rayleigh:
+            return count, x
+        x /= np.abs(x).max(axis=0, keepdims=True)
+        return count, x, self.rayleigh(x)
+
+    def inverse_step(self, sigma, x):
+        """One Rayleigh-quotient step per column: count below sigma, the next iterate
+        y = (K - sigma^2 M)^-1 M x normalised to max |y| = 1, and its Rayleigh quotient."""
+        parts = _map(lambda s: self._shifted_piece(sigma[s], self.J[:, None] * x[:, s], True),
+                     self._pieces(sigma.size, keep=True))
+        return (np.concatenate([p[0] for p in parts]), np.concatenate([p[1] for p in parts], axis=1),
+                np.concatenate([p[2] for p in parts]))
 
     def count(self, omega) -> np.ndarray:
         return self.evaluate(omega, logdet=False)[0]
@@ -379,13 +392,11 @@ def _polish_lumped(system: DynamicSystem, targets, lo, hi):
         if not len(idx):
             break
         sig = w[idx]
-        c, y = system.shifted_solve(sig, system.J[:, None] * x[:, idx])
+        c, y, rho = system.inverse_step(sig, x[:, idx])
         below = c <= targets[idx]  # the root lies above sigma
         lo[idx] = np.where(below, np.maximum(lo[idx], sig), lo[idx])
         hi[idx] = np.where(below, hi[idx], np.minimum(hi[idx], sig))
-        y /= np.abs(y).max(axis=0, keepdims=True)
         x[:, idx] = y
-        rho = system.rayleigh(y)
         w_new = np.sqrt(np.maximum(rho, 0.0))
         # at convergence sigma sits on the root and the count may put it on
         # either side, so the bracket test allows rounding
