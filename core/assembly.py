@@ -57,11 +57,16 @@ def assemble(train: Train) -> Assembly:
     discs, links = train.discs, train.links
     index = {d.id: i for i, d in enumerate(discs)}
     index[GROUND] = -1
-    s = np.array([train.speed_factor[d.id] for d in discs], float)
-    J = np.array([d.inertia for d in discs], float)
-    fi = np.array([index[l.from_id] for l in links], np.int64)
-    ti = np.array([index[l.to_id] for l in links], np.int64)
-    rigid = np.array([l.is_rigid for l in links], bool)
+    sf = train.speed_factor
+    s = np.fromiter((sf[d.id] for d in discs), float, len(discs))
+    J = np.fromiter((d.inertia for d in discs), float, len(discs))
+    # one pass over the links: ends, kind code (0 shaft/coupling, 1 gear), mass code
+    MASS = {"none": 0, "lumped": 1, "distributed": 2}
+    rows = np.array([(index[l.from_id], index[l.to_id], l.kind == "gear_mesh", MASS[l.mass],
+                      l.stiffness is None) for l in links], np.int64).reshape(len(links), 5)
+    fi, ti = rows[:, 0], rows[:, 1]
+    gear = rows[:, 2].astype(bool)
+    rigid = gear & rows[:, 4].astype(bool)
     # merge discs joined by rigid gear meshes
     parent = list(range(len(discs)))
 
@@ -85,9 +90,8 @@ def assemble(train: Train) -> Assembly:
 
     nd = np.where(fi >= 0, disc_node[np.maximum(fi, 0)], -1)  # node at `from` (-1 ground)
     nt = np.where(ti >= 0, disc_node[np.maximum(ti, 0)], -1)
-    gear = np.array([l.kind == "gear_mesh" for l in links], bool)
-    dist = np.array([l.mass == "distributed" for l in links], bool)
-    lumped = np.array([l.mass == "lumped" for l in links], bool)
+    dist = rows[:, 3] == 2
+    lumped = rows[:, 3] == 1
     # speed factor of each link's shaft; a mesh stiffness is referred to its `from` shaft
     end = np.where((fi >= 0) | gear, fi, ti)
     sc = s[np.maximum(end, 0)] if len(links) else np.zeros(0)
