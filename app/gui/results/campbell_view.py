@@ -70,6 +70,7 @@ class CampbellView(QtWidgets.QWidget):
                                     horSpacing=18, verSpacing=-4)
         self.canvas.addItem(self.legend, row=1, col=0)
         self.canvas.ci.layout.setRowStretchFactor(0, 10)
+        self.canvas.export_show = [self.legend]
 
         self.cursor = pg.InfiniteLine(0.0, angle=90, movable=True, pen=theme.cursor_pen(),
                                       hoverPen=theme.pen(theme.CURSOR, theme.BOLD_WIDTH),
@@ -131,6 +132,11 @@ class CampbellView(QtWidgets.QWidget):
         self.fit_button.setToolTip("Back to the full speed range and every screened mode "
                                    "(drag to pan, mouse wheel to zoom).")
         self.fit_button.clicked.connect(self.fit_view)
+        self.key_box = QtWidgets.QCheckBox("Key", self)
+        self.key_box.setChecked(True)
+        self.key_box.setToolTip("Show the key under the diagram (always included in exported images); "
+                                "untick it to give the diagram more room on a small screen.")
+        self.key_box.toggled.connect(self._key_toggled)
         self.hover = QtWidgets.QLabel(self)
         self.hover.setStyleSheet(f"color: {theme.INK_MUTED};")
         self.message = QtWidgets.QLabel(self)
@@ -190,6 +196,7 @@ class CampbellView(QtWidgets.QWidget):
         bar.setContentsMargins(0, 0, 0, 0)
         bar.addWidget(self.log_box)
         bar.addWidget(self.fit_button)
+        bar.addWidget(self.key_box)
         bar.addStretch(1)
         ul.addLayout(bar)
         ul.addWidget(self.canvas, 1)
@@ -217,6 +224,10 @@ class CampbellView(QtWidgets.QWidget):
     def resizeEvent(self, event) -> None:
         super().resizeEvent(event)
         self._arrange(self.width() < self.NARROW_PX)
+        # a legend wider than the view would widen the whole plot past the window edge
+        cols = 3 if self.width() >= 1100 else (2 if self.width() >= 620 else 1)
+        if cols != self.legend.columnCount:
+            self.legend.setColumnCount(cols)
 
     def _arrange(self, narrow: bool) -> None:
         """Coincidences and cursor read-out side by side, or as tabs when narrow."""
@@ -241,6 +252,11 @@ class CampbellView(QtWidgets.QWidget):
     def _show_lower(self, which: int) -> None:
         if self._narrow:
             self.lower_tabs.setCurrentIndex(which)
+
+    def _key_toggled(self, on: bool) -> None:
+        self.legend.setVisible(on)
+        self.legend.setMaximumHeight(16777215 if on else 0)
+        self.canvas.ci.layout.invalidate()
 
     def _log_toggled(self, _on: bool) -> None:
         self._log_chosen_by_user = True

@@ -30,6 +30,7 @@ class PlotCanvas(pg.GraphicsLayoutWidget):
         self.setBackground(theme.BACKGROUND)
         self.ci.setContentsMargins(6, 6, 10, 6)
         self.export_title = ""
+        self.export_show = []  # items hidden on screen by the user but always exported
 
     EXPORT_SIZE = (1600, 980)  # px the plot is laid out at (and written at) for an export
 
@@ -48,6 +49,10 @@ class PlotCanvas(pg.GraphicsLayoutWidget):
         self.ci.addItem(note, row=row, col=0, colspan=max(1, lay.columnCount()))
         lay.setRowStretchFactor(row, 0)
         note.setMaximumHeight(3.2 * self.fontMetrics().height())
+        hidden = [item for item in self.export_show if not item.isVisible()]
+        for item in hidden:
+            item.setVisible(True)
+            item.setMaximumHeight(16777215)
         try:
             # lay the central item out at the export size (the widget itself keeps its size)
             self.ci.setGeometry(QtCore.QRectF(0, 0, *self.EXPORT_SIZE))
@@ -64,6 +69,9 @@ class PlotCanvas(pg.GraphicsLayoutWidget):
                 ex.parameters()["height"] = int(round(rect.height()))
                 ex.export(str(path))
         finally:
+            for item in hidden:
+                item.setVisible(False)
+                item.setMaximumHeight(0)
             self.ci.removeItem(note)
             self.ci.setGeometry(old_rect)
             lay.activate()
