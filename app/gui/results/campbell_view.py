@@ -375,7 +375,10 @@ class CampbellView(QtWidgets.QWidget):
             self.log_box.setChecked(self.auto_log())
             self.log_box.blockSignals(False)
         self._log = self.log_box.isChecked()
-        p.setLogMode(x=False, y=self._log)
+        if p.getAxis("left").logMode != self._log:
+            # the old range would be read as powers of ten for a moment: keep numpy quiet about it
+            with np.errstate(over="ignore", invalid="ignore"):
+                p.setLogMode(x=False, y=self._log)
         op = s.train.operating
         top_speed = max(s.speed_max, op.trip_speed or 0.0)
         x_max = 1.2 * top_speed / RPM
