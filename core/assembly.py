@@ -178,3 +178,67 @@ def clamped_count(members: Members, omega) -> np.ndarray:
     n = np.where((sgn < 0) & near_low, n - 1, n)
     n = np.where((sgn < 0) & ~near_low, n + 1, n)
     return np.maximum(n, 0).sum(axis=0).astype(np.int64)
+
+
+def effective_disc_inertia(train: Train) -> np.ndarray:
+    """Each disc's inertia as its equation of motion sees it: its own J plus half
+    the own inertia of every lumped shaft ending on it (kg*m^2, actual, not referred)."""
+    J = np.array([d.inertia for d in train.discs], float)
+    index = {d: i for i, d in enumerate(train.disc_ids)}
+    for l in train.links:
+        if l.mass == "lumped":
+            for end in (l.from_id, l.to_id):
+                if end in index:
+                    J[index[end]] += 0.5 * l.own_inertia
+    return J
+
+
+def peel_rigid_meshes(train: Train, disc_load, end_torque: dict) -> None:
+    """Torque through rigid gear meshes, from the equations of motion of their discs.
+
+    ``disc_load[i]`` is what the sum of link torques acting on disc i must equal
+    (e.g. -omega^2 J theta in free vibration; add i omega c theta - T_applied for a
+    forced, damped disc).  A link acts on its `from` disc with -T_from and on its
+    `to` disc with T_to / r (r the speed ratio of a gear mesh, 1 otherwise; power is
+    conserved through a mesh).  ``end_torque[li] = (T_from, T_to)`` must hold every
+    non-rigid link; each rigid mesh is added as (T, T), T on its `from` shaft, once
+    every other link at one of its discs is known — peeling the gear train from its
+    outer ends.  A mesh that cannot be peeled gets NaN.
+    """
+    links = train.links
+    idx = {d: i for i, d in enumerate(train.disc_ids)}
+    at_disc = {d: [] for d in idx}
+    for li, l in enumerate(links):
+        for end in (l.from_id, l.to_id):
+            if end in at_disc:
+                at_disc[end].append(li)
+
+    def acting_on(lj, d):
+        m = links[lj]
+        r = m.speed_ratio if m.kind == "gear_mesh" else 1.0
+        t_from, t_to = end_torque[lj]
+        return t_to / r if m.to_id == d else -t_from
+
+    pending = [li for li, l in enumerate(links) if l.is_rigid]
+    while pending:
+        progress = False
+        for li in list(pending):
+            l = links[li]
+            for end in (l.from_id, l.to_id):
+                others = [lj for lj in at_disc[end] if lj != li]
+                if not all(lj in end_torque for lj in others):
+                    continue
+                rest = disc_load[idx[end]]
+                for lj in others:
+                    rest = rest - acting_on(lj, end)
+                # rest is the torque the mesh exerts on this disc
+                T = -rest if end == l.from_id else rest * l.speed_ratio
+                end_torque[li] = (T, T)
+                pending.remove(li)
+                progress = True
+                break
+        if not progress:  # a closed gear train cannot be peeled
+            for li in pending:
+                nan = np.full(np.shape(disc_load[0]), np.nan)
+                end_torque[li] = (nan, nan)
+            break

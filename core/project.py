@@ -15,7 +15,7 @@ from pathlib import Path
 from . import units as u
 from .errors import ModelError
 from .materials import LIBRARY, Material
-from .model import (GROUND, LINK_KINDS, MASS_MODELS, Disc, Excitation, Link, Operating,
+from .model import (LINK_KINDS, MASS_MODELS, Disc, Excitation, Link, Operating,
                     Order, Segment, Train, check_topology)
 
 FORMAT = "twistwise-project"

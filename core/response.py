@@ -60,7 +60,7 @@ from fractions import Fraction
 import numpy as np
 import scipy.sparse as sp
 
-from .assembly import assemble
+from .assembly import assemble, effective_disc_inertia, peel_rigid_meshes
 from .elimination import build_schedule, factor, solve_factored
 from .errors import ModelError
 from .model import Train
@@ -331,62 +331,6 @@ def _section_factor(link) -> float:
     return max(0.5 * s.outer_diameter / s.polar_moment for s in link.segments)
 
 
-def _rigid_mesh_torques(train, asm, omega, phi, forcing, end_torque):
-    """Torque through rigid gear meshes from the equations of motion of their discs.
-
-    For disc d: (-omega^2 J_d + i omega c_d) theta_d - T_ext,d = sum of the link
-    torques acting on it, where a link acts on its `from` disc with -T_from and on
-    its `to` disc with T_to / r (r the speed ratio; power is conserved through a
-    mesh).  A rigid mesh is resolved once every other link at one of its discs is
-    known.  ``end_torque[li] = (T_from, T_to)`` phasors, filled in here for meshes.
-    """
-    links = train.links
-    idx = {d: i for i, d in enumerate(train.disc_ids)}
-    J = np.array([d.inertia for d in train.discs])
-    for l in links:
-        if l.mass == "lumped":
-            for end in (l.from_id, l.to_id):
-                if end in idx:
-                    J[idx[end]] += 0.5 * l.own_inertia
-    c = np.array([d.damping for d in train.discs])
-    theta = asm.disc_scale[:, None] * phi[asm.disc_node]
-    at_disc = {d: [] for d in idx}
-    for li, l in enumerate(links):
-        for end in (l.from_id, l.to_id):
-            if end in at_disc:
-                at_disc[end].append(li)
-
-    def acting_on(lj, d):
-        m = links[lj]
-        r = m.speed_ratio if m.kind == "gear_mesh" else 1.0
-        t_from, t_to = end_torque[lj]
-        return t_to / r if m.to_id == d else -t_from
-
-    pending = [li for li, l in enumerate(links) if l.is_rigid]
-    while pending:
-        progress = False
-        for li in list(pending):
-            l = links[li]
-            for end in (l.from_id, l.to_id):
-                others = [lj for lj in at_disc[end] if lj != li]
-                if not all(lj in end_torque for lj in others):
-                    continue
-                i = idx[end]
-                rest = (-omega ** 2 * J[i] + 1j * omega * c[i]) * theta[i] - forcing[i]
-                for lj in others:
-                    rest = rest - acting_on(lj, end)
-                T = -rest if end == l.from_id else rest * l.speed_ratio
-                end_torque[li] = (T, T)
-                pending.remove(li)
-                progress = True
-                break
-        if not progress:  # a closed gear train cannot be peeled; report no torque
-            for li in pending:
-                nan = np.full(omega.shape, np.nan + 0j)
-                end_torque[li] = (nan, nan)
-            break
-
-
 def _families(groups: list[OrderGroup]):
     """Split order groups into families of commensurate frequencies.
 
@@ -572,7 +516,7 @@ class _Setup:
 def _solve_chunk(train, st: _Setup, w, forcing, forced):
     """Node phasors and station torque phasors for frequencies w (m,); ``forcing``
     (n_forced, m) are the actual torques on the discs with indices ``forced``."""
-    asm, mem = st.asm, st.asm.members
+    mem = st.asm.members
     m = w.size
     sch = st.schedule
     if st.constant_stiffness:  # springs with hysteretic damping only: k* does not vary
@@ -667,7 +611,11 @@ def _mesh_torques(train, st: _Setup, w, phi, forcing, Tst):
             first, last = ms[0], ms[-1]
             end_torque[li] = (at(first, 1.0 if mem.flip[first] else 0.0),
                               at(last, 0.0 if mem.flip[last] else 1.0))
-    _rigid_mesh_torques(train, st.asm, w, phi, forcing, end_torque)
+    theta = st.asm.disc_scale[:, None] * phi[st.asm.disc_node]
+    J = effective_disc_inertia(train)[:, None]
+    c = np.array([d.damping for d in train.discs])[:, None]
+    # a disc's link torques balance its inertia, its dashpot to ground and the applied torque
+    peel_rigid_meshes(train, (-w ** 2 * J + 1j * w * c) * theta - forcing, end_torque)
     return np.stack([end_torque[li][0] for li in st.rigid])
 
 

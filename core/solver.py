@@ -31,7 +31,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.sparse as sp
 
-from .assembly import Assembly, assemble, clamped_count, member_stiffness
+from .assembly import (Assembly, assemble, clamped_count, effective_disc_inertia, member_stiffness,
+                       peel_rigid_meshes)
 from .elimination import build_schedule, factor, factor_solve, solve_factored
 from .model import Train
 
@@ -650,75 +651,22 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
         strain = per_link @ U
         link_kin = per_link @ np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
     torque, t_from, t_to = _link_torques(mem, nl, Ta, Tb, Tm)
-    # disc inertia as the equations of motion see it (lumped shaft halves included)
-    J_eff = np.array([d.inertia for d in train.discs])
-    lumped = [l for l in train.links if l.mass == "lumped"]
-    if lumped:
-        index = {d: i for i, d in enumerate(train.disc_ids)}
-        for l in lumped:
-            for end in (l.from_id, l.to_id):
-                if end in index:
-                    J_eff[index[end]] += 0.5 * l.own_inertia
+    J_eff = effective_disc_inertia(train)
     # a rigid-body mode (omega = 0) still has kinetic energy shares in proportion to J theta^2
     w_kin = np.where(omega > 0, omega, 1.0)
     disc_kin = 0.5 * J_eff[:, None] * theta ** 2 * w_kin[None, :] ** 2
     if len(a.disc_node) and a.disc_node.max() + 1 < nd:  # discs merged: rigid meshes
-        _rigid_mesh_torques(train, omega, theta, J_eff, torque, t_from, t_to)
+        end_torque = {li: (t_from[li], t_to[li]) for li, l in enumerate(train.links) if not l.is_rigid}
+        peel_rigid_meshes(train, -omega ** 2 * J_eff[:, None] * theta, end_torque)
+        for li, l in enumerate(train.links):
+            if l.is_rigid:
+                torque[li] = t_from[li] = t_to[li] = end_torque[li][0]
     tot_kin = disc_kin.sum(0) + link_kin.sum(0)
     tot_kin = np.where(tot_kin == 0, 1.0, tot_kin)
     tot_str = strain.sum(0)
     tot_str = np.where(tot_str == 0, 1.0, tot_str)
     return (theta.T, torque.T, (disc_kin / tot_kin).T, (link_kin / tot_kin).T,
             (strain / tot_str).T)
-
-
-def _rigid_mesh_torques(train, omega, theta, J_eff, torque, t_from, t_to):
-    """Torque through rigid gear meshes, from the equations of motion of their discs.
-
-    For disc d: -omega^2 J_d theta_d = sum of the link torques acting on it, where a
-    link acts on its `from` disc with -T_from and on its `to` disc with T_to / r
-    (r the speed ratio of a gear mesh, 1 otherwise; power is conserved through a
-    mesh).  A rigid mesh is resolved once every other link at one of its end
-    discs is known, peeling the gear train from its outer ends.
-    """
-    idx = {d: i for i, d in enumerate(train.disc_ids)}
-    links = train.links
-    known = {li for li, l in enumerate(links) if not l.is_rigid}
-    at_disc = {d: [] for d in idx}
-    for li, l in enumerate(links):
-        for end in (l.from_id, l.to_id):
-            if end in at_disc:
-                at_disc[end].append(li)
-
-    def acting_on(lj, d):
-        m = links[lj]
-        r = m.speed_ratio if m.kind == "gear_mesh" else 1.0
-        return t_to[lj] / r if m.to_id == d else -t_from[lj]
-
-    pending = [li for li, l in enumerate(links) if l.is_rigid]
-    while pending:
-        progress = False
-        for li in list(pending):
-            l = links[li]
-            for end in (l.from_id, l.to_id):
-                others = [lj for lj in at_disc[end] if lj != li]
-                if not all(lj in known for lj in others):
-                    continue
-                i = idx[end]
-                rest = -omega ** 2 * J_eff[i] * theta[i] - sum(
-                    (acting_on(lj, end) for lj in others), np.zeros_like(omega))
-                # rest is the torque the mesh exerts on this disc
-                T = -rest if end == l.from_id else rest * l.speed_ratio
-                torque[li] = t_from[li] = T
-                t_to[li] = T
-                known.add(li)
-                pending.remove(li)
-                progress = True
-                break
-        if not progress:
-            for li in pending:
-                torque[li] = np.nan
-            break
 
 
 def natural_modes(train: Train, max_frequency_hz: float | None = None,
