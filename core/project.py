@@ -119,13 +119,18 @@ def _material(spec, where: str) -> Material:
                      where, "material")
 
 
-def _disc(obj, index: int) -> Disc:
+def _element_id(obj, index: int, what: str) -> tuple[str, str]:
+    """The id of the index-th disc or link, and how messages name it."""
     if not isinstance(obj, dict):
-        raise ModelError("each disc must be a JSON object", f"disc #{index + 1}")
-    did = obj.get("id")
-    if not isinstance(did, str) or not did.strip():
-        raise ModelError("missing or empty id", f"disc #{index + 1}", "id")
-    where = f"disc '{did}'"
+        raise ModelError(f"each {what} must be a JSON object", f"{what} #{index + 1}")
+    eid = obj.get("id")
+    if not isinstance(eid, str) or not eid.strip():
+        raise ModelError("missing or empty id", f"{what} #{index + 1}", "id")
+    return eid, f"{what} '{eid}'"
+
+
+def _disc(obj, index: int) -> Disc:
+    did, where = _element_id(obj, index, "disc")
     if "inertia" not in obj:
         raise ModelError("missing inertia", where, "inertia")
     J = u.parse(obj["inertia"], u.INERTIA, where, "inertia")
@@ -152,12 +157,7 @@ def _loss_factor(obj, where: str) -> float:
 
 
 def _link(obj, index: int) -> Link:
-    if not isinstance(obj, dict):
-        raise ModelError("each link must be a JSON object", f"link #{index + 1}")
-    lid = obj.get("id")
-    if not isinstance(lid, str) or not lid.strip():
-        raise ModelError("missing or empty id", f"link #{index + 1}", "id")
-    where = f"link '{lid}'"
+    lid, where = _element_id(obj, index, "link")
     kind = obj.get("kind")
     if kind not in LINK_KINDS:
         raise ModelError(f"kind must be one of {', '.join(LINK_KINDS)}, got {kind!r}", where, "kind")
