@@ -36,6 +36,22 @@ PEN_MIN, PEN_MAX = 1.2, 6.0
 LABEL_W = COL_W - 12
 
 
+_FONT_CACHE: dict = {}
+
+
+def _small_font() -> QtGui.QFont:
+    """The labels' font, made once (a QFont per label costs more than the label)."""
+    if "font" not in _FONT_CACHE:
+        _FONT_CACHE["font"] = theme.font(theme.SMALL_POINT_SIZE)
+        _FONT_CACHE["metrics"] = QtGui.QFontMetricsF(_FONT_CACHE["font"])
+    return _FONT_CACHE["font"]
+
+
+def _small_metrics() -> QtGui.QFontMetricsF:
+    _small_font()
+    return _FONT_CACHE["metrics"]
+
+
 def _si(value, kind):
     return read_si(value, kind)
 
@@ -97,22 +113,31 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         self.setToolTip("")
         self._items: dict = {}  # (kind, id) -> main graphics item
         self._disc_brush: dict = {}
+        self._disc_pen: dict = {}  # (kind, id) -> the disc's pen when not selected
         self._selection = None
+        self._shown_selection = None  # the key drawn as selected
         self._shape = None
+        self._shown_fill: dict = {}  # disc key -> fill colour applied (rgb) or None (plain)
         self._signature = None
         self._labels = []
+        # incremental redraw: what each element was drawn from, and the scene items drawn
+        self._drawn_from: dict = {}  # (kind, id) -> signature of its drawing
+        self._element_items: dict = {}  # (kind, id) -> top-level scene items
+        self._element_labels: dict = {}  # (kind, id) -> label records
+        self._label_fit = None  # (column px, stagger, widest) the labels were elided for
+        self._placement_key = self._placement = None
         self.context_actions: list = []
         self._press_pos = None
 
     # ---------------------------------------------------------------- drawing
     def set_document(self, doc: dict, system: str = "SI", error_elements=()) -> None:
+        """Draw ``doc``.  Only elements whose drawing changed are redrawn (a value
+        edit on a 200-disc train touches one or two elements, not 2000 items);
+        each element's signature is its own dict, its position, its size on the
+        log scales, its error mark and the unit system."""
         scene = self.scene()
-        scene.clear()
-        self._items.clear()
-        self._disc_brush.clear()
-        self._labels = []
         self.system = system
-        placement = place_document(doc)
+        placement = self._place(doc)
         discs = [d for d in doc.get("discs", []) if isinstance(d, dict) and isinstance(d.get("id"), str)]
         links = [l for l in doc.get("links", []) if isinstance(l, dict)]
         heights = _log_scale({d["id"]: _si(d.get("inertia"), u.INERTIA) for d in discs},
@@ -122,49 +147,122 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         pos = {}
         for d in discs:
             if d["id"] in placement.column:
-                pos[d["id"]] = QtCore.QPointF(placement.column[d["id"]] * COL_W, placement.row[d["id"]] * ROW_H)
+                pos[d["id"]] = (placement.column[d["id"]] * COL_W, placement.row[d["id"]] * ROW_H)
         ground_side = {lid: side for lid, _d, side in placement.grounds}
         bad = set(error_elements)
+
+        wanted = {}  # key -> (signature, draw function)
         for l in links:
-            self._draw_link(l, pos, heights, widths, ground_side, f"link '{l.get('id')}'" in bad)
+            key = ("link", l.get("id"))
+            sig = (repr(l), pos.get(l.get("from")), pos.get(l.get("to")), widths.get(l.get("id")),
+                   ground_side.get(l.get("id")), f"link '{l.get('id')}'" in bad, system)
+            wanted.setdefault(key, []).append((sig, l))
         for d in discs:
-            if d["id"] in pos:
-                self._draw_disc(d, pos[d["id"]], heights[d["id"]], f"disc '{d['id']}'" in bad)
+            if d["id"] not in pos:
+                continue
+            key = ("disc", d["id"])
+            sig = (repr(d), pos[d["id"]], heights[d["id"]], f"disc '{d['id']}'" in bad, system)
+            wanted.setdefault(key, []).append((sig, d))
+
+        stale = [k for k in self._drawn_from if k not in wanted or
+                 [s for s, _e in wanted[k]] != self._drawn_from[k]]
+        for key in stale:
+            self._remove_element(key)
+        redrawn, qpos = [], None
+        for key, entries in wanted.items():
+            if key in self._drawn_from:
+                continue
+            self._drawn_from[key] = [s for s, _e in entries]
+            self._element_items[key], self._element_labels[key] = [], []
+            for _sig, element in entries:  # the same id twice (while typing): draw both
+                if key[0] == "link":
+                    if qpos is None:
+                        qpos = {k: QtCore.QPointF(*v) for k, v in pos.items()}
+                    self._draw_link(element, qpos, heights, widths, ground_side,
+                                    f"link '{key[1]}'" in bad)
+                else:
+                    self._draw_disc(element, QtCore.QPointF(*pos[key[1]]), heights[key[1]],
+                                    f"disc '{key[1]}'" in bad)
+            redrawn.append(key)
+        self._labels = [rec for recs in self._element_labels.values() for rec in recs]
+        if stale or redrawn:
+            scene.setSceneRect(scene.itemsBoundingRect().adjusted(-COL_W, -36, COL_W, 36))
         signature = (placement.n_columns, placement.n_rows)
-        scene.setSceneRect(scene.itemsBoundingRect().adjusted(-COL_W, -36, COL_W, 36))
         if signature != self._signature:
             self._signature = signature
             self.fit()
-        self._relabel()
-        self._apply_selection()
-        self._apply_shape()
+        self._relabel(only=[rec for k in redrawn for rec in self._element_labels[k]])
+        self._apply_selection(redrawn)
+        self._apply_shape(redrawn)
+
+    def _place(self, doc: dict):
+        """place_document, cached on the topology (ids and ends) it depends on."""
+        key = (tuple(d.get("id") for d in doc.get("discs", []) if isinstance(d, dict)),
+               tuple((l.get("id"), l.get("from"), l.get("to")) for l in doc.get("links", [])
+                     if isinstance(l, dict)))
+        if key != self._placement_key:
+            self._placement_key, self._placement = key, place_document(doc)
+        return self._placement
+
+    def _remove_element(self, key) -> None:
+        scene = self.scene()
+        for item in self._element_items.pop(key, []):
+            if item.graphicsEffect() is not None:
+                item.setGraphicsEffect(None)  # an item deleted with its effect can crash the next paint
+            scene.removeItem(item)
+        self._element_labels.pop(key, None)
+        self._drawn_from.pop(key, None)
+        self._items.pop(key, None)
+        self._disc_brush.pop(key, None)
+        self._disc_pen.pop(key, None)
+        self._shown_fill.pop(key, None)
+        if self._shown_selection == key:
+            self._shown_selection = None
+
+    def clear_drawing(self) -> None:
+        """Forget everything drawn (a new document: the next set_document draws afresh)."""
+        self.scene().clear()
+        for d in (self._items, self._disc_brush, self._disc_pen, self._shown_fill, self._drawn_from,
+                  self._element_items, self._element_labels):
+            d.clear()
+        self._labels = []
+        self._label_fit = None
+        self._shown_selection = None
+        self._placement_key = self._placement = None
 
     def _label(self, text: str, color, x: float, y: float, above: bool, key, column: int = 0):
         """A label that keeps its size on screen whatever the zoom; elided to
         the column width on screen by :meth:`_relabel`."""
         item = QtWidgets.QGraphicsSimpleTextItem()
-        item.setFont(theme.font(theme.SMALL_POINT_SIZE))
+        item.setFont(_small_font())
         item.setBrush(theme.qcolor(color))
         item.setFlag(QtWidgets.QGraphicsItem.ItemIgnoresTransformations)
         item.setPos(x, y)
         item.setData(0, key)
         item.setToolTip(text)
         self.scene().addItem(item)
-        self._labels.append((item, text, above, column))
+        record = (item, text, above, column, _small_metrics().horizontalAdvance(text))
+        self._element_labels.setdefault(key, []).append(record)
+        self._element_items.setdefault(key, []).append(item)
         return item
 
-    def _relabel(self) -> None:
+    def _relabel(self, only=None) -> None:
         """Elide labels to the column width on screen; when columns get narrow,
-        stagger odd columns by one text line so each label has two columns' room."""
+        stagger odd columns by one text line so each label has two columns' room.
+        ``only``: the labels just drawn, when the zoom and stagger are unchanged
+        (the others are elided right already)."""
         scale = self.transform().m11() or 1.0
         col_px = COL_W * scale
-        fm = QtGui.QFontMetricsF(theme.font(theme.SMALL_POINT_SIZE))
-        widest = max((fm.horizontalAdvance(t) for _i, t, _a, _c in self._labels), default=0.0)
+        fm = _small_metrics()
+        widest = max((rec[4] for rec in self._labels), default=0.0)
         stagger = widest > col_px - 8
+        fit = (col_px, stagger)
+        labels = self._labels if only is None or fit != self._label_fit else only
+        self._label_fit = fit
         max_w = max(40.0, (2 * col_px if stagger else col_px) - 10)
         line = fm.height()
-        for item, text, above, column in self._labels:
-            item.setText(fm.elidedText(text, QtCore.Qt.ElideRight, max_w))
+        for item, text, above, column, advance in labels:
+            item.setText(text if advance <= max_w else fm.elidedText(text, QtCore.Qt.ElideRight, max_w))
             r = item.boundingRect()
             shift = line if stagger and column % 2 else 0.0
             dy = -r.height() - shift if above else shift
@@ -176,7 +274,9 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         key = ("disc", d["id"])
         item.setData(0, key)
         item.setZValue(2)
-        item.setPen(QtGui.QPen(theme.qcolor(theme.FAIL if bad else theme.INK), 2.0 if bad else 1.2))
+        pen = QtGui.QPen(theme.qcolor(theme.FAIL if bad else theme.INK), 2.0 if bad else 1.2)
+        item.setPen(pen)
+        self._disc_pen[key] = pen
         brush = QtGui.QBrush(theme.qcolor("#c9d6e3"))
         item.setBrush(brush)
         name = str(d.get("name") or d["id"])
@@ -185,6 +285,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
                         + (f" = {value}" if value != str(d.get('inertia')) else "")
                         + "<br>Click to select; right-click to insert or delete.")
         self._items[key] = item
+        self._element_items.setdefault(key, []).append(item)
         self._disc_brush[key] = brush
         col = int(round(p.x() / COL_W))
         self._label(name, theme.INK, p.x(), p.y() - DISC_H_MAX / 2 - 4, True, key, col)
@@ -199,6 +300,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         width = widths.get(lid, 2.0)
         group = QtWidgets.QGraphicsItemGroup()
         self.scene().addItem(group)
+        self._element_items.setdefault(key, []).append(group)
         group.setData(0, key)
         group.setZValue(1)
         if GROUND in (a, b):
@@ -337,25 +439,26 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         if item is not None:
             self.ensureVisible(item, 40, 40)
 
-    def _apply_selection(self):
-        for key, item in self._items.items():
+    def _apply_selection(self, redrawn=()):
+        """Mark the selected element; only the previous and the new selection
+        (and elements just redrawn) are touched."""
+        keys = {self._shown_selection, self._selection} | set(redrawn)
+        for key in keys:
+            item = self._items.get(key) if key else None
+            if item is None:
+                continue
+            selected = key == self._selection
             if key[0] == "disc":
-                pen = item.pen()
-                selected = key == self._selection
-                if selected:
-                    pen = QtGui.QPen(theme.qcolor(theme.ACCENT), 3.2)
-                elif pen.color() == theme.qcolor(theme.ACCENT):
-                    pen = QtGui.QPen(theme.qcolor(theme.INK), 1.2)
-                item.setPen(pen)
-            else:
-                sel = key == self._selection
-                eff = None
-                if sel:
-                    eff = QtWidgets.QGraphicsDropShadowEffect()
-                    eff.setColor(theme.qcolor(theme.ACCENT))
-                    eff.setBlurRadius(14)
-                    eff.setOffset(0, 0)
+                item.setPen(QtGui.QPen(theme.qcolor(theme.ACCENT), 3.2) if selected else self._disc_pen[key])
+            elif selected:
+                eff = QtWidgets.QGraphicsDropShadowEffect()
+                eff.setColor(theme.qcolor(theme.ACCENT))
+                eff.setBlurRadius(14)
+                eff.setOffset(0, 0)
                 item.setGraphicsEffect(eff)
+            elif key == self._shown_selection:
+                item.setGraphicsEffect(None)
+        self._shown_selection = self._selection if self._selection in self._items else None
 
     def set_mode_shape(self, amplitudes: dict | None) -> None:
         """Colour each disc by its twist amplitude in the selected mode
@@ -363,22 +466,27 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         self._shape = amplitudes
         self._apply_shape()
 
-    def _apply_shape(self):
-        pos, neg, white = theme.qcolor(theme.SERIES[0]), theme.qcolor(theme.SERIES[1]), QtGui.QColor("white")
+    def _apply_shape(self, _redrawn=()):
+        """Fill each disc with its mode colour; a brush is set only where the colour changes."""
+        pos, neg = (theme.qcolor(theme.SERIES[k]).getRgb()[:3] for k in (0, 1))
+        shape = self._shape
+        shown = self._shown_fill
         for key, item in self._items.items():
             if key[0] != "disc":
                 continue
-            if not self._shape or key[1] not in self._shape:
-                item.setBrush(self._disc_brush[key])
+            if not shape or key[1] not in shape:
+                if shown.get(key, 0) is not None:
+                    item.setBrush(self._disc_brush[key])
+                    shown[key] = None
                 continue
-            a = float(self._shape[key[1]])
+            a = float(shape[key[1]])
             a = 0.0 if not math.isfinite(a) else max(-1.0, min(1.0, a))
             c = pos if a >= 0 else neg
             t = abs(a)
-            mix = QtGui.QColor(int(white.red() + t * (c.red() - white.red())),
-                               int(white.green() + t * (c.green() - white.green())),
-                               int(white.blue() + t * (c.blue() - white.blue())))
-            item.setBrush(mix)
+            rgb = (int(255 + t * (c[0] - 255)), int(255 + t * (c[1] - 255)), int(255 + t * (c[2] - 255)))
+            if shown.get(key) != rgb:
+                item.setBrush(QtGui.QColor(*rgb))
+                shown[key] = rgb
 
     # ---------------------------------------------------------------- view
     def fit(self) -> None:
