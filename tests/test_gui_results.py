@@ -6,6 +6,7 @@ app.formatting, which is the contract of the views (issue 4, item 5).
 """
 from __future__ import annotations
 
+import copy
 import csv
 import math
 from pathlib import Path
@@ -124,9 +125,33 @@ def test_campbell_has_one_line_per_elastic_mode_under_the_cap(panel, solved):
     assert cv.mode_line_frequencies() == pytest.approx(expected, rel=1e-12)
 
 
+def test_hidden_diagram_catches_up_when_its_tab_shows(panel):
+    """A live re-solve draws only the visible tab; the diagram shows the newest
+    results as soon as its tab is opened (and an export draws it too)."""
+    doc = load_document(SAMPLES[IDS.index("pump_set")])
+    train, modes, s = _solve(SAMPLES[IDS.index("pump_set")])
+    panel.set_results(train, modes, s)
+    lighter = copy.deepcopy(doc)  # every inertia halved: every natural frequency x sqrt(2)
+    for disc in lighter["discs"]:
+        disc["inertia"] = f"{0.5 * train.disc(disc['id']).inertia} kg*m^2"
+    train2 = build_train(lighter)
+    s2 = screen(train2)
+    panel.set_results(train2, s2.modes, s2)  # the Modes tab is showing
+    cv = panel.campbell_view
+    assert cv._draw_pending
+    assert [r.cells for r in cv.coincidence_model.rows] == [r.cells for r in R.coincidence_rows(s2, s2.modes)]
+    panel.tabs.setCurrentIndex(1)
+    assert not cv._draw_pending
+    expected = [float(f) for i, f in enumerate(s2.modes.frequency_hz)
+                if s2.modes.elastic[i] and f <= s2.cap_hz]
+    assert cv.mode_line_frequencies() == pytest.approx(expected, rel=1e-12)
+    assert len(cv.rings.points()) == len(s2.coincidences)
+
+
 def test_campbell_has_one_line_per_excitation_order(panel, solved):
     train, modes, s = solved
     panel.set_results(train, modes, s)
+    panel.tabs.setCurrentIndex(1)  # the diagram is drawn when its tab shows
     cv = panel.campbell_view
     drawn = [c for c in cv.plot.listDataItems() if c.isVisible() and c.toolTip()]
     assert [c.toolTip() for c in drawn] == [l.label for l in s.lines]
@@ -139,6 +164,7 @@ def test_campbell_has_one_line_per_excitation_order(panel, solved):
 def test_campbell_axis_ranges(panel, solved):
     train, modes, s = solved
     panel.set_results(train, modes, s)
+    panel.tabs.setCurrentIndex(1)  # the diagram is drawn when its tab shows
     cv = panel.campbell_view
     (x0, x1), (y0, y1) = cv.plot.vb.viewRange()
     top = max(s.speed_max, train.operating.trip_speed or 0.0) / RPM
@@ -149,6 +175,7 @@ def test_campbell_axis_ranges(panel, solved):
 def test_coincidence_table_lists_core_coincidences_in_order(panel, solved):
     train, modes, s = solved
     panel.set_results(train, modes, s)
+    panel.tabs.setCurrentIndex(1)  # the diagram is drawn when its tab shows
     model = panel.campbell_view.coincidence_model
     assert model.rowCount() == len(s.coincidences)
     for r, c in enumerate(s.coincidences):
@@ -235,6 +262,7 @@ def test_margin_band_is_core_separation_band():
 def test_log_axis_chosen_for_wide_frequency_span_and_user_can_override(panel):
     train, modes, s = _solve(SAMPLES[IDS.index("compressor_train")])
     panel.set_results(train, modes, s)
+    panel.tabs.setCurrentIndex(1)  # the diagram is drawn when its tab shows
     cv = panel.campbell_view
     assert cv.log_box.isChecked()  # a 151st mesh order would flatten the low modes
     cv.log_box.setChecked(False)

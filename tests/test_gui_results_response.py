@@ -144,6 +144,7 @@ def test_real_response_in_the_panel(qtbot, name, tmp_path):
     panel.resize(1200, 800)
     panel.show()
     panel.set_results(train, s.modes, s, resp, 0.01)
+    panel.tabs.setCurrentIndex(2)  # the plot is drawn when its tab shows
     assert panel.tabs.isTabEnabled(2)
     rv = panel.response_view
     summary = core_response.response_summary(resp)

@@ -61,6 +61,7 @@ class CampbellView(QtWidgets.QWidget):
         self._log = False
         self._log_chosen_by_user = False
         self._window = None
+        self._draw_pending = False  # new results arrived while the diagram was hidden
 
         self.canvas = PlotCanvas(self)
         self.canvas.export_title = "Interference diagram"
@@ -274,7 +275,13 @@ class CampbellView(QtWidgets.QWidget):
         self.modes = modes if modes is not None else screening.modes
         self.message.hide()
         self.canvas.show()
-        self._draw()
+        # the diagram is drawn when it shows (a live edit redraws only what is on screen);
+        # the tables and the cursor read-out below are cheap and always current
+        if self.isVisible():
+            self._draw()
+        else:
+            self._draw_pending = True
+            self._place_cursor()
         self.coincidence_model.set_rows(R.coincidence_rows(screening, self.modes))
         fit_columns(self.coincidence_table, max_width=240)
         n, nf = len(screening.coincidences), len(screening.failures)
@@ -284,8 +291,18 @@ class CampbellView(QtWidgets.QWidget):
         self._cursor_moved()
         fit_columns(self.cursor_table, max_width=190)
 
+    def showEvent(self, event) -> None:
+        super().showEvent(event)
+        self.ensure_drawn()
+
+    def ensure_drawn(self) -> None:
+        """Draw the diagram now if results came while it was hidden (exports, tests)."""
+        if self._draw_pending and self.screening is not None:
+            self._draw()
+
     def clear(self, message: str = "") -> None:
         self.screening = None
+        self._draw_pending = False
         for item in self._drawn:
             self.plot.removeItem(item)
         self._drawn = []
@@ -365,6 +382,7 @@ class CampbellView(QtWidgets.QWidget):
         come from a pool, and the legend is rebuilt only when its entries change."""
         s = self.screening
         p = self.plot
+        self._draw_pending = False
         for item in self._drawn:
             p.removeItem(item)
         self._drawn = []
@@ -490,15 +508,21 @@ class CampbellView(QtWidgets.QWidget):
             p.setXRange(0.0, x_max, padding=0)
             p.setYRange(y0, y1, padding=0)
             self._ranges = ranges
-        self.cursor.setBounds((0.0, x_max))
-        rpm = self._cursor_rpm if self._cursor_rpm is not None and 0 <= self._cursor_rpm <= x_max \
-            else s.speed_max / RPM
-        self.cursor.setValue(rpm)
+        self._place_cursor()
         for item in self._label_pool[self._n_labels:]:
             item.setVisible(False)
         for item in self._line_pool[len(self.line_items):]:
             item.setVisible(False)
         self._layout_labels()
+
+    def _place_cursor(self) -> None:
+        """Speed cursor bounds (the drawn speed range) and position (kept, else the top speed)."""
+        s = self.screening
+        x_max = 1.2 * max(s.speed_max, s.train.operating.trip_speed or 0.0) / RPM
+        self.cursor.setBounds((0.0, x_max))
+        rpm = self._cursor_rpm if self._cursor_rpm is not None and 0 <= self._cursor_rpm <= x_max \
+            else s.speed_max / RPM
+        self.cursor.setValue(rpm)
 
     def _line_item(self, k: int) -> pg.PlotDataItem:
         """Excitation line number k from the pool (adding plot items is the slow part of a redraw)."""
@@ -510,12 +534,15 @@ class CampbellView(QtWidgets.QWidget):
 
     def mode_line_frequencies(self) -> list[float]:
         """Frequencies (Hz) of the natural-frequency lines drawn, in mode order."""
+        self.ensure_drawn()
         path = self._mode_item.path()
         ys = [path.elementAt(k).y for k in range(0, path.elementCount(), 2)]
         return [float(self._y_inv(y)) for y in ys] if self._mode_item.isVisible() else []
 
     def _place_selected_line(self) -> None:
         i = self._selected
+        if self._draw_pending:
+            return  # placed by the coming draw
         ok = self.screening is not None and i in getattr(self, "_shown_modes", [])
         self.selected_line.setVisible(ok)
         if ok:

@@ -213,6 +213,9 @@ class ResultsPanel(QtWidgets.QWidget):
             raise ValueError("there is no interference diagram (no operating data)")
         if which == "response" and self.response is None:
             raise ValueError("there is no forced response (no excitation amplitudes)")
+        view = {"campbell": self.campbell_view, "response": self.response_view}.get(which)
+        if view is not None:
+            view.ensure_drawn()  # drawn lazily while its tab is hidden
         canvas.export(path)
 
     # ------------------------------------------------------------ internals

@@ -43,6 +43,7 @@ class ResponseView(QtWidgets.QWidget):
         self.response = None
         self.summary = []
         self.unit_system = "SI"
+        self._draw_pending = False  # new results arrived while the plot was hidden
 
         self.quantity = QtWidgets.QComboBox(self)
         self.quantity.addItems([TORQUE, STRESS, SHARE])
@@ -171,6 +172,7 @@ class ResponseView(QtWidgets.QWidget):
 
     def clear(self) -> None:
         self.response = None
+        self._draw_pending = False
         self.plot.clear()
         self.legend.clear()
         self.links.clear()
@@ -241,7 +243,24 @@ class ResponseView(QtWidgets.QWidget):
             return None
         return 100.0 * np.nanmax(np.vstack(parts), axis=0)
 
+    def showEvent(self, event) -> None:
+        super().showEvent(event)
+        self.ensure_drawn()
+
+    def ensure_drawn(self) -> None:
+        """Draw the plot now if results came while it was hidden (exports, tests)."""
+        if self._draw_pending:
+            self._draw_now()
+
     def _draw(self) -> None:
+        """Redraw when on screen; a hidden plot is drawn when it shows."""
+        if self.isVisible():
+            self._draw_now()
+        else:
+            self._draw_pending = True
+
+    def _draw_now(self) -> None:
+        self._draw_pending = False
         p = self.plot
         p.clear()
         self.legend.clear()
