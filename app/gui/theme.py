@@ -146,6 +146,9 @@ def style_plot(plot_item, x_label: str = "", y_label: str = "") -> None:
         ax.setPen(pen(INK_MUTED, THIN_WIDTH))
         ax.setTextPen(pen(INK))
         ax.setTickFont(tick_font)
+        # major and minor ticks only: the third, faintest level's grid lines cost more to
+        # paint than the rest of a mode plot and are barely visible
+        ax.setStyle(maxTickLevel=1)
     plot_item.showGrid(x=True, y=True, alpha=0.25)
     label_style = {"color": INK, "font-size": f"{BASE_POINT_SIZE}pt"}
     if x_label:

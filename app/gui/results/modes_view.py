@@ -28,6 +28,9 @@ class ModesView(QtWidgets.QWidget):
         self.cap_hz = None
         self._index = -1
         self._line = None
+        self._line_key = None  # topology the train line was placed for
+        self._pool = {}  # (plot, name) -> plot item kept from one redraw to the next
+        self._used = set()
 
         self.table_model = RowsModel(R.FREQUENCY_HEADERS, self, numeric_columns=(0, 1, 2))
         self.table = make_table_view(self.table_model, self)
@@ -99,7 +102,10 @@ class ModesView(QtWidgets.QWidget):
     # ------------------------------------------------------------ data
     def set_modes(self, modes, cap_hz=None, select: int | None = None) -> None:
         self.modes, self.cap_hz = modes, cap_hz
-        self._line = train_line(modes.train)
+        train = modes.train
+        key = (tuple(train.disc_ids), tuple((l.id, l.from_id, l.to_id) for l in train.links))
+        if key != self._line_key:  # a value edit keeps the positions along the train
+            self._line_key, self._line = key, train_line(train)
         self.table_model.set_rows(R.frequency_rows(modes, cap_hz))
         fit_columns(self.table)
         n = len(modes)
@@ -111,9 +117,11 @@ class ModesView(QtWidgets.QWidget):
 
     def clear(self) -> None:
         self.modes, self._line, self._index = None, None, -1
+        self._line_key = None
         self.table_model.set_rows([])
         self.upper.clear()
         self.lower.clear()
+        self._pool = {}
         self.title.setText("")
 
     def select_mode(self, index: int) -> None:
@@ -136,12 +144,38 @@ class ModesView(QtWidgets.QWidget):
             self.modeSelected.emit(i)
 
     # ------------------------------------------------------------ drawing
+    def _item(self, plot, name: str, make):
+        """Plot item ``name`` of this redraw: the one kept from the last redraw, or
+        ``make()`` added to ``plot`` (adding items is the slow part of a redraw)."""
+        key = (id(plot), name)
+        item = self._pool.get(key)
+        if item is None:
+            item = make()
+            plot.addItem(item)
+            self._pool[key] = item
+        self._used.add(key)
+        return item
+
+    def _drop_unused(self) -> None:
+        for key in [k for k in self._pool if k not in self._used]:
+            item = self._pool.pop(key)
+            plot = self.upper if key[0] == id(self.upper) else self.lower
+            plot.removeItem(item)
+
     def _draw(self) -> None:
-        self.upper.clear()
-        self.lower.clear()
         m, i, line = self.modes, self._index, self._line
         if m is None or i < 0 or line is None:
+            self.upper.clear()
+            self.lower.clear()
+            self._pool = {}
             return
+        self._used = set()
+        try:
+            self._draw_mode(m, i, line)
+        finally:
+            self._drop_unused()
+
+    def _draw_mode(self, m, i, line) -> None:
         train = m.train
         f = float(m.frequency_hz[i])
         kind = "rigid-body mode" if m.rigid_body[i] else f"{fmt.hz(f)} Hz, {fmt.cpm(f)} cpm"
@@ -174,29 +208,35 @@ class ModesView(QtWidgets.QWidget):
         self.lower.getAxis("bottom").setTicks(ticks)
         self.upper.getAxis("bottom").setTicks(ticks)
 
+    def _zero_line(self, plot):
+        return self._item(plot, "zero", lambda: pg.InfiniteLine(
+            0, angle=0, pen=theme.pen(theme.INK_MUTED, theme.THIN_WIDTH)))
+
     def _draw_twist(self, m, i, line, names) -> None:
         shape = m.shape[i]
         self._title(self.upper, "Twist angle per disc (largest = 1)")
-        self.upper.addItem(pg.InfiniteLine(0, angle=0, pen=theme.pen(theme.INK_MUTED, theme.THIN_WIDTH)))
+        self._zero_line(self.upper)
         for s, members in enumerate(line.series):
-            self.upper.plot(line.disc_x[members], shape[members], pen=theme.series_pen(s, theme.BOLD_WIDTH))
-        for j, di, gx in line.ground:  # a grounded link ends at zero twist
-            self.upper.plot([line.disc_x[di], gx], [shape[di], 0.0],
-                            pen=theme.pen(theme.INK_MUTED, theme.LINE_WIDTH, QtCore.Qt.DashLine))
-            self.upper.plot([gx], [0.0], pen=None, symbol="t1", symbolSize=11,
-                            symbolBrush=theme.brush(theme.INK_MUTED), symbolPen=None)
+            self._item(self.upper, f"series {s}", pg.PlotDataItem).setData(
+                line.disc_x[members], shape[members], pen=theme.series_pen(s, theme.BOLD_WIDTH))
+        dashed = theme.pen(theme.INK_MUTED, theme.LINE_WIDTH, QtCore.Qt.DashLine)
+        for k, (j, di, gx) in enumerate(line.ground):  # a grounded link ends at zero twist
+            self._item(self.upper, f"ground {k}", pg.PlotDataItem).setData(
+                [line.disc_x[di], gx], [shape[di], 0.0], pen=dashed)
+            self._item(self.upper, f"ground mark {k}", pg.PlotDataItem).setData(
+                [gx], [0.0], pen=None, symbol="t1", symbolSize=11,
+                symbolBrush=theme.brush(theme.INK_MUTED), symbolPen=None)
         # one scatter per row with a single brush: per-point brushes render a symbol per disc
         white = theme.pen(theme.BACKGROUND, 1.0)
         for row in range(int(line.disc_row.max(initial=0)) + 1):
             k = np.flatnonzero(line.disc_row == row)
             if not k.size:
                 continue
-            spots = pg.ScatterPlotItem(
-                line.disc_x[k], shape[k], size=10, brush=theme.brush(theme.series_color(row)), pen=white,
-                data=[f"{names[j]} ({m.train.discs[j].id})" for j in k],
+            spots = self._item(self.upper, f"discs {row}", lambda: pg.ScatterPlotItem(
                 hoverable=True, hoverSize=14,
-                tip=lambda x, y, data: f"{data}\ntwist {y:+.3f} (largest = 1)")
-            self.upper.addItem(spots)
+                tip=lambda x, y, data: f"{data}\ntwist {y:+.3f} (largest = 1)"))
+            spots.setData(line.disc_x[k], shape[k], size=10, brush=theme.brush(theme.series_color(row)),
+                          pen=white, data=[f"{names[j]} ({m.train.discs[j].id})" for j in k])
         self.upper.setYRange(-1.1, 1.1, padding=0)
 
         torque = np.nan_to_num(m.link_torque[i], nan=0.0, posinf=0.0, neginf=0.0)
@@ -212,17 +252,25 @@ class ModesView(QtWidgets.QWidget):
         self._title(self.lower, "Strain energy per link, % of the mode's total")
         colors = [theme.series_color(s) for s in range(len(line.series))]
         row_brushes = [theme.brush(c) for c in colors]
-        bx, bw = side_by_side(line.disc_x, 0.55)
-        bar = pg.BarGraphItem(x=bx, height=ke, width=bw,
-                              brushes=[row_brushes[min(r, len(row_brushes) - 1)] for r in line.disc_row],
-                              pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(ke))
-        self.upper.addItem(bar)
-        spots = pg.ScatterPlotItem(bx, ke, size=14, brush=theme.brush((0, 0, 0, 0)), pen=None,
-                                   data=names, hoverable=True,
-                                   tip=lambda x, y, data: f"{data}\n{y:.1f} % of the kinetic energy")
-        self.upper.addItem(spots)
+        bx, bw = self._side_by_side("discs", line.disc_x, 0.55)
+        bar = self._item(self.upper, "energy bars", lambda: pg.BarGraphItem(x=[], height=[], width=1))
+        bar.setOpts(x=bx, height=ke, width=bw,
+                    brushes=[row_brushes[min(r, len(row_brushes) - 1)] for r in line.disc_row],
+                    pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(ke))
+        spots = self._item(self.upper, "energy tips", lambda: pg.ScatterPlotItem(
+            hoverable=True, tip=lambda x, y, data: f"{data}\n{y:.1f} % of the kinetic energy"))
+        spots.setData(bx, ke, size=14, brush=theme.brush((0, 0, 0, 0)), pen=None, data=names)
         self.upper.setYRange(0, max(5.0, float(np.nanmax(ke)) * 1.1 if ke.size else 5.0), padding=0)
         self._bars(self.lower, line, se, lambda j, v: f"{m.link_ids[j]}: {v:.1f} % of the strain energy")
+
+    def _side_by_side(self, which: str, x, width: float):
+        """plotting.side_by_side, kept while the train line is the same object."""
+        if getattr(self, "_sbs_line", None) is not self._line:
+            self._sbs_line, self._sbs_cache = self._line, {}
+        key = (which, width)
+        if key not in self._sbs_cache:
+            self._sbs_cache[key] = side_by_side(x, width)
+        return self._sbs_cache[key]
 
     @staticmethod
     def _title(plot, text: str) -> None:
@@ -234,14 +282,17 @@ class ModesView(QtWidgets.QWidget):
         colors = [theme.series_color(s) for s in range(len(line.series))]
         row_brushes = [theme.brush(c) for c in colors]
         brushes = [row_brushes[min(r, len(row_brushes) - 1)] for r in line.link_row]
-        plot.addItem(pg.InfiniteLine(0, angle=0, pen=theme.pen(theme.INK_MUTED, theme.THIN_WIDTH)))
-        bx, bw = side_by_side(line.link_x, 0.45)
-        plot.addItem(pg.BarGraphItem(x=bx, height=values, width=bw, brushes=brushes,
-                                     pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(values)))
-        # invisible hover targets at the bar tops: a tooltip per link
-        plot.addItem(pg.ScatterPlotItem(bx, values, size=16, brush=theme.brush((0, 0, 0, 0)),
-                                        pen=None, data=list(range(len(values))), hoverable=True,
-                                        tip=lambda x, y, data: tip(data, y)))
+        self._zero_line(plot)
+        bx, bw = self._side_by_side("links", line.link_x, 0.45)
+        bars = self._item(plot, "bars", lambda: pg.BarGraphItem(x=[], height=[], width=1))
+        bars.setOpts(x=bx, height=values, width=bw, brushes=brushes,
+                     pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(values))
+        # invisible hover targets at the bar tops: a tooltip per link (the tip reads the current mode)
+        self._bar_tip = tip
+        targets = self._item(plot, "bar tips", lambda: pg.ScatterPlotItem(
+            hoverable=True, tip=lambda x, y, data: self._bar_tip(data, y)))
+        targets.setData(bx, values, size=16, brush=theme.brush((0, 0, 0, 0)), pen=None,
+                        data=list(range(len(values))))
         lo, hi = float(np.min(values)), float(np.max(values))
         span = max(hi - lo, abs(hi), abs(lo), 1e-12)
         plot.setYRange(min(0.0, lo) - 0.08 * span, max(0.0, hi) + 0.08 * span, padding=0)

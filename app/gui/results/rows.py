@@ -51,31 +51,38 @@ def mode_label(modes, i: int) -> str:
 
 
 def frequency_rows(modes, cap_hz: float | None = None) -> list[Row]:
-    """One row per mode: number, Hz, cpm, rigid-body mark, dominant link and disc."""
+    """One row per mode: number, Hz, cpm, rigid-body mark, dominant link and disc
+    (the same picks as ``Modes.dominant_link`` / ``dominant_disc``, taken for all
+    modes at once: a 200-disc train has as many rows as modes)."""
     rows = []
     train = modes.train
-    for i in range(len(modes)):
+    disc_ids, link_ids = list(modes.disc_ids), list(modes.link_ids)
+    names = {d.id: d.name or d.id for d in train.discs}
+    n = len(modes)
+    if link_ids:
+        strain = np.asarray(modes.strain_share)
+        top_link, top_strain = np.argmax(strain, axis=1), strain.max(axis=1)
+    if disc_ids:
+        kinetic = np.asarray(modes.kinetic_share)
+        top_disc, top_kinetic = np.argmax(kinetic, axis=1), kinetic.max(axis=1)
+    for i in range(n):
         f = float(modes.frequency_hz[i])
         rigid = bool(modes.rigid_body[i])
-        if rigid:
-            strain = "—"
+        if rigid or not link_ids:
+            strain_text = "—"
         else:
-            li = modes.dominant_link(i)
-            strain = f"{li} ({fmt.percent(float(modes.strain_share[i].max()))} %)" if li else "—"
-        if len(modes.disc_ids):
-            di = modes.dominant_disc(i)
-            kinetic = f"{di} ({fmt.percent(float(modes.kinetic_share[i].max()))} %)"
-        else:
-            kinetic = "—"
+            strain_text = f"{link_ids[int(top_link[i])]} ({fmt.percent(float(top_strain[i]))} %)"
+        di = disc_ids[int(top_disc[i])] if disc_ids else None
+        kinetic_text = f"{di} ({fmt.percent(float(top_kinetic[i]))} %)" if disc_ids else "—"
         above = cap_hz is not None and cap_hz > 0 and f > cap_hz
         tip = ("Rigid-body mode: the whole train turns as one; not screened." if rigid else
                f"Mode {int(modes.number[i])}: {fmt.hz(f)} Hz = {fmt.cpm(f)} cycles per minute.")
-        if len(modes.disc_ids):
-            tip += f" Largest kinetic energy in {_name(train, modes.dominant_disc(i))}."
+        if disc_ids:
+            tip += f" Largest kinetic energy in {names.get(di, di)}."
         if above:
             tip += f" Above the screening cap of {fmt.hz(cap_hz)} Hz: shown, not screened."
         rows.append(Row([mode_label(modes, i), fmt.hz(f), fmt.cpm(f), "yes" if rigid else "",
-                         strain, kinetic], tip, "muted" if (rigid or above) else None, i))
+                         strain_text, kinetic_text], tip, "muted" if (rigid or above) else None, i))
     return rows
 
 
@@ -98,8 +105,11 @@ def coincidence_rows(screening, modes=None) -> list[Row]:
     """Coincidences in core's order (worst first)."""
     modes = modes if modes is not None else screening.modes
     rows = []
+    index = {}  # mode number -> first index, as mode_index gives
+    for i, number in enumerate(np.asarray(modes.number).tolist()):
+        index.setdefault(int(number), i)
     for c in screening.coincidences:
-        idx = mode_index(modes, c.mode)
+        idx = index.get(int(c.mode))
         where = ("fixed frequency" if c.order is None else
                  f"order {fmt.order(c.order)} of '{c.line.at}'")
         tip = (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
