@@ -56,12 +56,18 @@ class SetValue(QtGui.QUndoCommand):
         self.new = _MISSING if value is None else copy.deepcopy(value)
 
     def redo(self):
-        _set_path(self.project.doc, self.path, copy.deepcopy(self.new))
+        _set_path(self.project.doc, self.path, _copy(self.new))
         self.project._changed()
 
     def undo(self):
-        _set_path(self.project.doc, self.path, copy.deepcopy(self.old))
+        _set_path(self.project.doc, self.path, _copy(self.old))
         self.project._changed()
+
+
+def _copy(value):
+    """A deep copy that keeps the 'no value' marker itself (deepcopy would make a new
+    object, and undoing an edit of a field that was absent would store that object)."""
+    return value if value is _MISSING else copy.deepcopy(value)
 
 
 class ReplaceDocument(QtGui.QUndoCommand):
