@@ -126,6 +126,8 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         self._element_labels: dict = {}  # (kind, id) -> label records
         self._label_fit = None  # (column px, stagger, widest) the labels were elided for
         self._placement_key = self._placement = None
+        self._disc_centre: dict = {}  # disc key -> (x, y) of its block's centre
+        self._width_items: dict = {}  # link key -> [(item, pen role, colour)] drawn with the stiffness weight
         self.context_actions: list = []
         self._press_pos = None
 
@@ -154,18 +156,28 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         wanted = {}  # key -> (signature, draw function)
         for l in links:
             key = ("link", l.get("id"))
-            sig = (repr(l), pos.get(l.get("from")), pos.get(l.get("to")), widths.get(l.get("id")),
-                   ground_side.get(l.get("id")), f"link '{l.get('id')}'" in bad, system)
+            sig = ((repr(l), pos.get(l.get("from")), pos.get(l.get("to")),
+                    ground_side.get(l.get("id")), f"link '{l.get('id')}'" in bad, system), widths.get(l.get("id")))
             wanted.setdefault(key, []).append((sig, l))
         for d in discs:
             if d["id"] not in pos:
                 continue
             key = ("disc", d["id"])
-            sig = (repr(d), pos[d["id"]], heights[d["id"]], f"disc '{d['id']}'" in bad, system)
+            sig = ((repr(d), pos[d["id"]], f"disc '{d['id']}'" in bad, system), heights[d["id"]])
             wanted.setdefault(key, []).append((sig, d))
 
-        stale = [k for k in self._drawn_from if k not in wanted or
-                 [s for s, _e in wanted[k]] != self._drawn_from[k]]
+        # (drawing, size) per element: a new size on the log scale (another element's
+        # edit moved the end of the range) is set in place, anything else is redrawn
+        stale = []
+        for key, drawn in self._drawn_from.items():
+            now = [sig for sig, _e in wanted.get(key, ())]
+            if now == drawn:
+                continue
+            if len(now) == len(drawn) == 1 and now[0][0] == drawn[0][0]:
+                self._resize(key, now[0][1])
+                drawn[0] = now[0]
+            else:
+                stale.append(key)
         for key in stale:
             self._remove_element(key)
         redrawn, qpos = [], None
@@ -204,6 +216,30 @@ class TrainCanvas(QtWidgets.QGraphicsView):
             self._placement_key, self._placement = key, place_document(doc)
         return self._placement
 
+    def _resize(self, key, size) -> None:
+        """A disc's height or a link's line weight, changed in place."""
+        if key[0] == "disc":
+            item, (x, y) = self._items.get(key), self._disc_centre.get(key, (None, None))
+            if item is not None and x is not None:
+                item.setRect(QtCore.QRectF(x - DISC_W / 2, y - size / 2, DISC_W, size))
+            return
+        width = 2.0 if size is None else size
+        for item, role, color in self._width_items.get(key, ()):
+            item.setPen(self._width_pen(role, color, width))
+
+    @staticmethod
+    def _width_pen(role: str, color, width: float) -> QtGui.QPen:
+        """Pens whose weight shows the stiffness: the line itself, or the outer ink and
+        white core of a shaft with distributed inertia (drawn as a hollow tube)."""
+        if role == "main":
+            pen = QtGui.QPen(color, width)
+            pen.setCapStyle(QtCore.Qt.FlatCap)
+            return pen
+        outer = max(width + 4.0, 6.0)
+        if role == "outer":
+            return QtGui.QPen(color, outer, QtCore.Qt.SolidLine, QtCore.Qt.FlatCap)
+        return QtGui.QPen(QtGui.QColor("white"), outer - 3.0, QtCore.Qt.SolidLine, QtCore.Qt.FlatCap)
+
     def _remove_element(self, key) -> None:
         scene = self.scene()
         for item in self._element_items.pop(key, []):
@@ -216,6 +252,8 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         self._disc_brush.pop(key, None)
         self._disc_pen.pop(key, None)
         self._shown_fill.pop(key, None)
+        self._disc_centre.pop(key, None)
+        self._width_items.pop(key, None)
         if self._shown_selection == key:
             self._shown_selection = None
 
@@ -223,7 +261,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         """Forget everything drawn (a new document: the next set_document draws afresh)."""
         self.scene().clear()
         for d in (self._items, self._disc_brush, self._disc_pen, self._shown_fill, self._drawn_from,
-                  self._element_items, self._element_labels):
+                  self._element_items, self._element_labels, self._disc_centre, self._width_items):
             d.clear()
         self._labels = []
         self._label_fit = None
@@ -272,6 +310,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         rect = QtCore.QRectF(p.x() - DISC_W / 2, p.y() - h / 2, DISC_W, h)
         item = self.scene().addRect(rect)
         key = ("disc", d["id"])
+        self._disc_centre[key] = (p.x(), p.y())
         item.setData(0, key)
         item.setZValue(2)
         pen = QtGui.QPen(theme.qcolor(theme.FAIL if bad else theme.INK), 2.0 if bad else 1.2)
@@ -364,20 +403,22 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         return item
 
     def _link_body(self, group, kind, l, pts, width, color):
-        pen = QtGui.QPen(color, width)
-        pen.setCapStyle(QtCore.Qt.FlatCap)
+        key = ("link", l.get("id"))
+        weighted = self._width_items.setdefault(key, [])
+
+        def weighted_line(points, role):  # a line whose weight shows the stiffness (see _resize)
+            weighted.append((self._polyline(group, points, self._width_pen(role, color, width)), role, color))
+
         thin = QtGui.QPen(color, 1.3)
         last_a, last_b = pts[-2], pts[-1]
         mid = QtCore.QPointF((last_a.x() + last_b.x()) / 2, last_b.y())
         if kind == "shaft":
             if l.get("mass") == "distributed":
                 # a hollow tube: wide ink line with a white core reads as a double line
-                outer = max(width + 4.0, 6.0)
-                self._polyline(group, pts, QtGui.QPen(color, outer, QtCore.Qt.SolidLine, QtCore.Qt.FlatCap))
-                self._polyline(group, pts, QtGui.QPen(QtGui.QColor("white"), outer - 3.0,
-                                                      QtCore.Qt.SolidLine, QtCore.Qt.FlatCap))
+                weighted_line(pts, "outer")
+                weighted_line(pts, "inner")
             else:
-                self._polyline(group, pts, pen)
+                weighted_line(pts, "main")
                 if l.get("mass") == "lumped":
                     dot = QtWidgets.QGraphicsEllipseItem(mid.x() - 4, mid.y() - 4, 8, 8)
                     dot.setBrush(color)
@@ -386,8 +427,8 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         elif kind == "coupling":
             gap = 26.0
             x0, x1 = mid.x() - gap / 2, mid.x() + gap / 2
-            self._polyline(group, pts[:-1] + [QtCore.QPointF(x0, mid.y())], pen)
-            self._polyline(group, [QtCore.QPointF(x1, mid.y()), last_b], pen)
+            weighted_line(pts[:-1] + [QtCore.QPointF(x0, mid.y())], "main")
+            weighted_line([QtCore.QPointF(x1, mid.y()), last_b], "main")
             y = mid.y()
             for x in (x0, x1):  # flange bars
                 bar = QtWidgets.QGraphicsLineItem(x, y - 11, x, y + 11)
