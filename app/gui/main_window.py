@@ -448,26 +448,34 @@ class MainWindow(QtWidgets.QMainWindow):
         self.error_banner.show()
         if self.project.train is None and hasattr(self.results_panel, "clear_results"):
             self.results_panel.clear_results(f"The model cannot be solved: {error}")
-            self.status_verdict.setText("no valid model")
-            self.status_verdict.setStyleSheet(theme.verdict_style(None))
+            self._set_status(self.status_verdict, "no valid model", theme.verdict_style(None))
 
     def _show_results(self, res):
         self.results = res
         self.results_panel.set_results(res.train, res.modes, res.screening, res.response, res.solve_time_s)
         s = res.screening
         if s is None:
-            self.status_verdict.setText("no screening (no operating data)")
-            self.status_verdict.setStyleSheet(theme.verdict_style(None))
+            self._set_status(self.status_verdict, "no screening (no operating data)", theme.verdict_style(None))
         else:
             n_fail = len(s.failures)
-            self.status_verdict.setText("PASS" if s.passed else f"FAIL ({n_fail} inside the margin)")
-            self.status_verdict.setStyleSheet(theme.verdict_style(s.passed))
+            self._set_status(self.status_verdict, "PASS" if s.passed else f"FAIL ({n_fail} inside the margin)",
+                             theme.verdict_style(s.passed))
         n_el = int(res.modes.elastic.sum())
         self.status_modes.setText(f"{n_el} elastic mode{'s' if n_el != 1 else ''}")
         self.status_time.setText(f"solved in {res.solve_time_s * 1e3:.1f} ms")
         if res.note:
             self.statusBar().showMessage(res.note, 8000)
         self._show_mode_colour()
+
+    @staticmethod
+    def _set_status(label, text, style):
+        """Text and style of a status label, set only when they change (a style sheet
+        set again re-polishes the label and re-lays out the status bar)."""
+        if label.text() != text:
+            label.setText(text)
+        if label.property("style_text") != style:
+            label.setProperty("style_text", style)
+            label.setStyleSheet(style)
 
     def _solve_failed(self, text):
         self.statusBar().showMessage(f"Solve failed: {text}", 10000)

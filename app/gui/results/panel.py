@@ -37,7 +37,7 @@ class ResultsPanel(QtWidgets.QWidget):
         self.verdict.setFont(theme.font(theme.BASE_POINT_SIZE, bold=True))
         self.verdict.setTextFormat(QtCore.Qt.PlainText)
         self.verdict.setWordWrap(True)
-        self.verdict.setStyleSheet(theme.verdict_style(None))
+        self._set_label(self.verdict, "", theme.verdict_style(None))
         self.details = QtWidgets.QLabel(self)
         self.details.setStyleSheet(f"color: {theme.INK_MUTED};")
         self.details.setAlignment(QtCore.Qt.AlignRight | QtCore.Qt.AlignVCenter)
@@ -53,7 +53,8 @@ class ResultsPanel(QtWidgets.QWidget):
         self.tabs.setTabToolTip(TAB_MODES, "Natural-frequency table, mode shapes, modal torque and energy shares")
         self.tabs.setTabToolTip(TAB_CAMPBELL, "Excitation orders against natural frequencies over speed, "
                                               "coincidences and the speed cursor")
-        self.tabs.setTabToolTip(TAB_RESPONSE, "Damped vibratory torque and stress against speed")
+        self.response_tip = "Damped vibratory torque and stress against speed"
+        self.tabs.setTabToolTip(TAB_RESPONSE, self.response_tip)
 
         self.caution = QtWidgets.QLabel(CAUTION, self)
         self.caution.setWordWrap(True)
@@ -90,7 +91,8 @@ class ResultsPanel(QtWidgets.QWidget):
             previous_number = int(self.modes.number[previous])
         self.train, self.modes, self.screening, self.response = train, modes, screening, response
         self.solve_time_s = float(solve_time_s)
-        self.tabs.setEnabled(True)
+        if not self.tabs.isEnabled():
+            self.tabs.setEnabled(True)
         # keep the same mode number selected across live edits
         keep = None if previous_number is None else R.mode_index(modes, previous_number)
         self.modes_view.set_modes(modes, screening.cap_hz if screening is not None else None, keep)
@@ -99,20 +101,19 @@ class ResultsPanel(QtWidgets.QWidget):
         else:
             self.campbell_view.clear("No operating data: give the reference disc, the operating speed "
                                      "range and the excitations to draw the interference diagram.")
-        self.tabs.setTabEnabled(TAB_CAMPBELL, True)
+        self._set_tab(TAB_CAMPBELL, True)
         if response is not None:
             try:
                 self.response_view.set_response(train, response)
-                self.tabs.setTabEnabled(TAB_RESPONSE, True)
+                self._set_tab(TAB_RESPONSE, True, self.response_tip)
             except Exception as exc:  # the rest still shows; say why this part does not
                 self.response_view.clear()
-                self.tabs.setTabEnabled(TAB_RESPONSE, False)
-                self.tabs.setTabToolTip(TAB_RESPONSE, f"Forced response not shown: {exc}")
+                self._set_tab(TAB_RESPONSE, False, f"Forced response not shown: {exc}")
         else:
-            self.response_view.clear()
-            self.tabs.setTabEnabled(TAB_RESPONSE, False)
-            self.tabs.setTabToolTip(TAB_RESPONSE, "No excitation has an amplitude: give amplitudes to the "
-                                                  "excitation orders to compute the forced response.")
+            if self.response_view.response is not None:
+                self.response_view.clear()
+            self._set_tab(TAB_RESPONSE, False, "No excitation has an amplitude: give amplitudes to the "
+                                               "excitation orders to compute the forced response.")
         if not self.tabs.isTabEnabled(self.tabs.currentIndex()):
             self.tabs.setCurrentIndex(TAB_MODES)
         self.campbell_view.select_mode(self.modes_view.current_index())
@@ -124,8 +125,7 @@ class ResultsPanel(QtWidgets.QWidget):
         self.modes_view.clear()
         self.campbell_view.clear(message)
         self.response_view.clear()
-        self.verdict.setText(message)
-        self.verdict.setStyleSheet(theme.verdict_style(None))
+        self._set_label(self.verdict, message, theme.verdict_style(None))
         self.details.setText("")
 
     def select_mode(self, index: int) -> None:
@@ -219,6 +219,21 @@ class ResultsPanel(QtWidgets.QWidget):
         canvas.export(path)
 
     # ------------------------------------------------------------ internals
+    def _set_tab(self, index: int, enabled: bool, tip: str | None = None) -> None:
+        """Enable a tab (and set its tip) only when that changes: each call re-lays out the tab bar."""
+        if self.tabs.isTabEnabled(index) != enabled:
+            self.tabs.setTabEnabled(index, enabled)
+        if tip is not None and self.tabs.tabToolTip(index) != tip:
+            self.tabs.setTabToolTip(index, tip)
+
+    def _set_label(self, label, text: str, style: str | None = None) -> None:
+        """setText / setStyleSheet only on a change: a style sheet set again re-polishes the label."""
+        if label.text() != text:
+            label.setText(text)
+        if style is not None and label.property("style_text") != style:
+            label.setProperty("style_text", style)
+            label.setStyleSheet(style)
+
     def _user_selected(self, index: int) -> None:
         self.select_mode(index)
         self.modeSelected.emit(index)
@@ -228,21 +243,20 @@ class ResultsPanel(QtWidgets.QWidget):
         n_el = int(m.elastic.sum())
         details = f"{len(m)} modes ({n_el} elastic) · solved in {self.solve_time_s * 1e3:.1f} ms"
         if s is None:
-            self.verdict.setText("Natural frequencies only: no operating data to screen against.")
-            self.verdict.setStyleSheet(theme.verdict_style(None))
+            self._set_label(self.verdict, "Natural frequencies only: no operating data to screen against.",
+                            theme.verdict_style(None))
         elif s.passed:
-            self.verdict.setText(f"PASS: every excitation keeps at least {fmt.percent(s.margin)} % "
-                                 "separation from the natural frequencies in the operating range.")
-            self.verdict.setStyleSheet(theme.verdict_style(True))
+            self._set_label(self.verdict, f"PASS: every excitation keeps at least {fmt.percent(s.margin)} % "
+                            "separation from the natural frequencies in the operating range.",
+                            theme.verdict_style(True))
         else:
             w = s.failures[0]
             n = len(s.failures)
-            self.verdict.setText(f"FAIL: {n} coincidence{'s' if n > 1 else ''} inside the "
-                                 f"{fmt.percent(s.margin)} % margin; worst mode {w.mode} "
-                                 f"({fmt.hz(w.frequency_hz)} Hz) with {w.line.label}, "
-                                 f"{fmt.percent(w.separation)} %.")
-            self.verdict.setStyleSheet(theme.verdict_style(False))
+            self._set_label(self.verdict, f"FAIL: {n} coincidence{'s' if n > 1 else ''} inside the "
+                            f"{fmt.percent(s.margin)} % margin; worst mode {w.mode} "
+                            f"({fmt.hz(w.frequency_hz)} Hz) with {w.line.label}, "
+                            f"{fmt.percent(w.separation)} %.", theme.verdict_style(False))
         if self.response is not None and self.response_view.exceeded:
             details += f" · {len(self.response_view.exceeded)} response exceedance(s)"
-        self.details.setText(details)
+        self._set_label(self.details, details)
         self.verdict.setToolTip(details)

@@ -38,9 +38,26 @@ class RowsModel(QtCore.QAbstractTableModel):
         self._bold = theme.font(bold=True)
 
     def set_rows(self, rows: list[Row]) -> None:
-        self.beginResetModel()
-        self.rows = list(rows)
-        self.endResetModel()
+        """New rows.  With the same number of rows (a live re-solve) only the rows
+        whose text, tip or status changed are signalled, so the view repaints those
+        and keeps its selection and scroll position; otherwise the model resets."""
+        rows = list(rows)
+        if len(rows) != len(self.rows) or not rows:
+            self.beginResetModel()
+            self.rows = rows
+            self.endResetModel()
+            return
+        old, self.rows = self.rows, rows
+        changed = [i for i, (a, b) in enumerate(zip(old, rows))
+                   if a.cells != b.cells or a.tooltip != b.tooltip or a.status != b.status]
+        last = len(self.headers) - 1
+        start = None
+        for k, i in enumerate(changed):  # one signal per run of adjacent rows
+            if start is None:
+                start = i
+            if k + 1 == len(changed) or changed[k + 1] != i + 1:
+                self.dataChanged.emit(self.index(start, 0), self.index(i, last))
+                start = None
 
     def rowCount(self, parent=QtCore.QModelIndex()):
         return 0 if parent.isValid() else len(self.rows)
