@@ -275,6 +275,9 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         item.setFont(_small_font())
         item.setBrush(theme.qcolor(color))
         item.setFlag(QtWidgets.QGraphicsItem.ItemIgnoresTransformations)
+        # painted once into a pixmap: a 200-disc train has 400 labels, and the schematic
+        # repaints whole whenever the mode colours change (every re-solve)
+        item.setCacheMode(QtWidgets.QGraphicsItem.DeviceCoordinateCache)
         item.setPos(x, y)
         item.setData(0, key)
         item.setToolTip(text)
