@@ -272,6 +272,32 @@ def test_log_axis_chosen_for_wide_frequency_span_and_user_can_override(panel):
     assert y1 == pytest.approx(s.cap_hz, rel=1e-6)
 
 
+def test_log_axis_bottom_holds_through_small_edits_and_follows_big_ones(panel):
+    """Live editing: the log axis keeps its bottom while the lowest mode stays 2-4 times
+    above it (no jumping per keystroke), and moves when the mode leaves that band."""
+    doc = load_document(SAMPLES[IDS.index("compressor_train")])
+    panel.tabs.setCurrentIndex(1)
+    cv = panel.campbell_view
+
+    def show(inertia_factor):
+        d = copy.deepcopy(doc)
+        base = build_train(doc)
+        for disc in d["discs"]:
+            disc["inertia"] = f"{inertia_factor * base.disc(disc['id']).inertia} kg*m^2"
+        train = build_train(d)
+        s = screen(train)
+        panel.set_results(train, s.modes, s)
+        lowest = min(float(f) for i, f in enumerate(s.modes.frequency_hz) if s.modes.elastic[i] and f > 0)
+        bottom = cv._y_inv(cv.plot.vb.viewRange()[1][0])
+        assert cv._log
+        assert 2.0 - 1e-9 <= lowest / bottom <= 4.0 + 1e-9  # the lowest mode is in the window
+        return bottom
+
+    first = show(1.0)
+    assert show(0.9) == pytest.approx(first)  # frequencies x 1.054 (f ~ 1/sqrt(J)): the axis holds
+    assert show(0.05) != pytest.approx(first)  # frequencies x 4.5: the axis follows
+
+
 # ------------------------------------------------------------ verdict, no operating data, clear
 def test_verdict_line_follows_core(panel, solved):
     train, modes, s = solved

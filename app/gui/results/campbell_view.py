@@ -62,6 +62,7 @@ class CampbellView(QtWidgets.QWidget):
         self._log_chosen_by_user = False
         self._window = None
         self._draw_pending = False  # new results arrived while the diagram was hidden
+        self._limits = None
 
         self.canvas = PlotCanvas(self)
         self.canvas.export_title = "Interference diagram"
@@ -266,7 +267,7 @@ class CampbellView(QtWidgets.QWidget):
 
     def fit_view(self) -> None:
         if self.screening is not None:
-            self._ranges = None
+            self._ranges = self._window = None
             self._draw()
 
     # ------------------------------------------------------------ data
@@ -316,7 +317,7 @@ class CampbellView(QtWidgets.QWidget):
         self.rings.setVisible(False)
         self.legend.clear()
         self._legend_key = None
-        self._ranges = None
+        self._ranges = self._window = None
         self.coincidence_model.set_rows([])
         self.cursor_model.set_rows([])
         self.coincidence_title.setText("Coincidences")
@@ -358,8 +359,13 @@ class CampbellView(QtWidgets.QWidget):
             return 0.0, y_max
         lows = [float(f) for f in el if 0 < f <= y_max]
         lows += [l.fixed_hz for l in s.lines if l.fixed_hz]
-        low = 0.5 * min(lows) if lows else y_max / 1000.0
-        return min(low, y_max / 10.0), y_max
+        low = min(0.5 * min(lows) if lows else y_max / 1000.0, y_max / 10.0)
+        # live edits move the lowest mode a little: the axis keeps its bottom while that
+        # mode stays between 2 and 4 times above it, so the diagram does not jump per edit
+        prev = self._window
+        if prev is not None and prev[2] == y_max and prev[1] > 0 and low / 2.0 <= prev[1] <= low:
+            return prev[1], y_max
+        return low, y_max
 
     def auto_log(self) -> bool:
         """Logarithmic frequency axis when a coincidence (or, without any, the lowest
@@ -459,7 +465,9 @@ class CampbellView(QtWidgets.QWidget):
 
         # excitation lines: one colour per source, the order number beside the line
         sources = list(dict.fromkeys(l.source for l in s.lines))
-        xs_line = np.geomspace(x_max * 1e-4, x_max, 160) if self._log else np.array([0.0, x_max])
+        # on a log axis an order line is a curve: 40 points a factor 1.27 apart keep each chord
+        # within 0.003 decades (under a pixel) of log10(slope * x), and cost a quarter of 160 to paint
+        xs_line = np.geomspace(x_max * 1e-4, x_max, 40) if self._log else np.array([0.0, x_max])
         bold = theme.font(theme.SMALL_POINT_SIZE, bold=True)
         in_legend = set()
         self.line_items = []
@@ -502,7 +510,10 @@ class CampbellView(QtWidgets.QWidget):
         self._set_legend(legend)
 
         span = y1 - y0  # limits first: the previous ones (e.g. of a log axis) would clamp the new range
-        p.vb.setLimits(xMin=-0.05 * x_max, xMax=3 * x_max, yMin=y0 - 0.05 * span, yMax=y1 + 2 * span)
+        limits = (-0.05 * x_max, 3 * x_max, y0 - 0.05 * span, y1 + 2 * span)
+        if limits != self._limits:  # set again, the view box would re-run its range update
+            self._limits = limits
+            p.vb.setLimits(xMin=limits[0], xMax=limits[1], yMin=limits[2], yMax=limits[3])
         ranges = (x_max, y0, y1, self._log)
         if ranges != self._ranges:
             p.setXRange(0.0, x_max, padding=0)
@@ -596,8 +607,11 @@ class CampbellView(QtWidgets.QWidget):
             self._label_pool.append(item)
         item = self._label_pool[self._n_labels]
         self._n_labels += 1
-        item.setText(text, color=theme.qcolor(color))
-        item.setFont(font)
+        look = (text, color, font.key())
+        if getattr(item, "_look", None) != look:  # set again, a TextItem lays its text out anew
+            item._look = look
+            item.setText(text, color=theme.qcolor(color))
+            item.setFont(font)
         self._labels.append((item, kind, value))
 
     def _cursor_label_box(self, w, h, vx0, sx):

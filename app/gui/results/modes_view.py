@@ -16,6 +16,21 @@ SHOW_TWIST = "Twist and modal torque"
 SHOW_ENERGY = "Energy shares"
 
 
+def _bar_style(brushes: list) -> dict:
+    """Bar fills and outlines: one brush for all when the train has no branches
+    (pyqtgraph then paints the bars in one call instead of one by one)."""
+    outline = theme.pen(theme.BACKGROUND, 1.0)
+    if len({b.color().rgba() for b in brushes}) <= 1:
+        return {"brush": brushes[0] if brushes else theme.brush(theme.series_color(0)), "pen": outline,
+                "brushes": None, "pens": None}
+    return {"brushes": brushes, "pens": [outline] * len(brushes), "brush": None, "pen": None}
+
+
+def _set_text(label, text: str) -> None:
+    if label.text() != text:  # a label set again re-lays out its row
+        label.setText(text)
+
+
 class ModesView(QtWidgets.QWidget):
     """Left: the frequency table.  Right: plots of the selected mode, the upper
     one per disc along the train, the lower one per link, x axes linked."""
@@ -53,6 +68,10 @@ class ModesView(QtWidgets.QWidget):
         self.upper = new_plot(self.canvas, 0, "", "")
         self.lower = new_plot(self.canvas, 1, "Along the train (discs in schematic order)", "")
         self.lower.setXLink(self.upper)
+        self.upper.getAxis("bottom").setStyle(showValues=False)  # the lower plot names the discs
+        self._ticks = None
+        self._titles = {}
+        self._draw_pending = False
         self.upper.getAxis("left").setWidth(72)
         self.lower.getAxis("left").setWidth(72)
         self.canvas.ci.layout.setRowStretchFactor(0, 3)
@@ -122,6 +141,7 @@ class ModesView(QtWidgets.QWidget):
         self.upper.clear()
         self.lower.clear()
         self._pool = {}
+        self._titles, self._ticks = {}, None
         self.title.setText("")
 
     def select_mode(self, index: int) -> None:
@@ -162,12 +182,23 @@ class ModesView(QtWidgets.QWidget):
             plot = self.upper if key[0] == id(self.upper) else self.lower
             plot.removeItem(item)
 
+    def showEvent(self, event) -> None:
+        super().showEvent(event)
+        if self._draw_pending:
+            self._draw()
+
     def _draw(self) -> None:
+        """Redraw the plots of the selected mode; while the tab is hidden, when it shows."""
+        if not self.isVisible() and self.modes is not None:
+            self._draw_pending = True
+            return
+        self._draw_pending = False
         m, i, line = self.modes, self._index, self._line
         if m is None or i < 0 or line is None:
             self.upper.clear()
             self.lower.clear()
             self._pool = {}
+            self._titles, self._ticks = {}, None
             return
         self._used = set()
         try:
@@ -179,20 +210,19 @@ class ModesView(QtWidgets.QWidget):
         train = m.train
         f = float(m.frequency_hz[i])
         kind = "rigid-body mode" if m.rigid_body[i] else f"{fmt.hz(f)} Hz, {fmt.cpm(f)} cpm"
-        self.title.setText(f"Mode {int(m.number[i])}: {kind}")
+        _set_text(self.title, f"Mode {int(m.number[i])}: {kind}")
         self.canvas.export_title = f"{train.title}: mode {int(m.number[i])}, {kind}"
         if len(line.series) > 1:
             parts = []
             for s, members in enumerate(line.series):
                 label = "main line" if s == 0 else f"branch to {train.discs[members[-1]].id}"
                 parts.append(f"<span style='color:{theme.series_color(s)}'>&#9632;</span>&nbsp;{label}")
-            self.key.setText("&nbsp;&nbsp;&nbsp;".join(parts))
+            _set_text(self.key, "&nbsp;&nbsp;&nbsp;".join(parts))
         else:
-            self.key.setText("")
+            _set_text(self.key, "")
         energy = self.show_box.currentText() == SHOW_ENERGY
         names = [d.name or d.id for d in train.discs]
         self._update_ticks()
-        self.upper.getAxis("bottom").setStyle(showValues=False)
         if energy:
             self._draw_energy(m, i, line, names)
         else:
@@ -205,6 +235,9 @@ class ModesView(QtWidgets.QWidget):
         w = float(self.lower.vb.width())
         ticks = column_ticks(self.modes.train, self._line, w if w > 40 else 600.0,
                              theme.font(theme.SMALL_POINT_SIZE))
+        if ticks == self._ticks:
+            return  # the same ticks set again would re-lay out both axes' text
+        self._ticks = ticks
         self.lower.getAxis("bottom").setTicks(ticks)
         self.upper.getAxis("bottom").setTicks(ticks)
 
@@ -255,8 +288,7 @@ class ModesView(QtWidgets.QWidget):
         bx, bw = self._side_by_side("discs", line.disc_x, 0.55)
         bar = self._item(self.upper, "energy bars", lambda: pg.BarGraphItem(x=[], height=[], width=1))
         bar.setOpts(x=bx, height=ke, width=bw,
-                    brushes=[row_brushes[min(r, len(row_brushes) - 1)] for r in line.disc_row],
-                    pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(ke))
+                    **_bar_style([row_brushes[min(r, len(row_brushes) - 1)] for r in line.disc_row]))
         spots = self._item(self.upper, "energy tips", lambda: pg.ScatterPlotItem(
             hoverable=True, tip=lambda x, y, data: f"{data}\n{y:.1f} % of the kinetic energy"))
         spots.setData(bx, ke, size=14, brush=theme.brush((0, 0, 0, 0)), pen=None, data=names)
@@ -272,8 +304,10 @@ class ModesView(QtWidgets.QWidget):
             self._sbs_cache[key] = side_by_side(x, width)
         return self._sbs_cache[key]
 
-    @staticmethod
-    def _title(plot, text: str) -> None:
+    def _title(self, plot, text: str) -> None:
+        if self._titles.get(id(plot)) == text:
+            return  # a title set again re-lays out the whole plot
+        self._titles[id(plot)] = text
         plot.setTitle(text, color=theme.INK, size=f"{theme.SMALL_POINT_SIZE + 0.5}pt")
 
     def _bars(self, plot, line, values, tip) -> None:
@@ -285,8 +319,7 @@ class ModesView(QtWidgets.QWidget):
         self._zero_line(plot)
         bx, bw = self._side_by_side("links", line.link_x, 0.45)
         bars = self._item(plot, "bars", lambda: pg.BarGraphItem(x=[], height=[], width=1))
-        bars.setOpts(x=bx, height=values, width=bw, brushes=brushes,
-                     pens=[theme.pen(theme.BACKGROUND, 1.0)] * len(values))
+        bars.setOpts(x=bx, height=values, width=bw, **_bar_style(brushes))
         # invisible hover targets at the bar tops: a tooltip per link (the tip reads the current mode)
         self._bar_tip = tip
         targets = self._item(plot, "bar tips", lambda: pg.ScatterPlotItem(
