@@ -289,6 +289,8 @@ class DocTable(QtWidgets.QTableWidget):
                 t = tip(tip_key, kind, system)
                 if stored is not None and isinstance(kind, u.Kind):
                     t += f"\nStored as: {stored}"
+                elif shown and kind is TEXT:
+                    t = f"{shown}\n\n{t}"  # the full text of a cell too narrow for it
                 if problem:
                     item.setBackground(theme.qcolor(theme.FAIL_FILL))
                     item.setForeground(theme.qcolor(theme.FAIL))
@@ -359,9 +361,16 @@ class DiscTable(DocTable):
 
     def __init__(self, parent=None):
         super().__init__(parent)
-        self.setColumnWidth(0, 110)
-        self.setColumnWidth(1, 170)
-        self.setColumnWidth(2, 120)
+        # the name takes the width the others leave (elided, in full in its tooltip), so
+        # inertia and damping stay in view in a narrow pane (1366 x 768 screens)
+        h = self.horizontalHeader()
+        h.setStretchLastSection(False)
+        h.setMinimumSectionSize(60)
+        h.setDefaultAlignment(QtCore.Qt.AlignLeft | QtCore.Qt.AlignVCenter)  # a cut header keeps its start
+        self.setColumnWidth(0, 88)
+        self.setColumnWidth(2, 118)
+        self.setColumnWidth(3, 100)
+        h.setSectionResizeMode(1, QtWidgets.QHeaderView.Stretch)
 
 
 class LinkTable(DocTable):

@@ -284,13 +284,13 @@ class CampbellView(QtWidgets.QWidget):
             self._draw_pending = True
             self._place_cursor()
         self.coincidence_model.set_rows(R.coincidence_rows(screening, self.modes))
-        fit_columns(self.coincidence_table, max_width=240)
+        fit_columns(self.coincidence_table, max_width=240, elastic=2)
         n, nf = len(screening.coincidences), len(screening.failures)
         self.coincidence_title.setText(
             f"Coincidences within {fmt.percent(2 * screening.margin)} %: {n}"
             + (f", {nf} inside the {fmt.percent(screening.margin)} % margin" if nf else ""))
         self._cursor_moved()
-        fit_columns(self.cursor_table, max_width=190)
+        fit_columns(self.cursor_table, max_width=190, elastic=0)
 
     def showEvent(self, event) -> None:
         super().showEvent(event)

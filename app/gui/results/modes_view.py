@@ -126,7 +126,7 @@ class ModesView(QtWidgets.QWidget):
         if key != self._line_key:  # a value edit keeps the positions along the train
             self._line_key, self._line = key, train_line(train)
         self.table_model.set_rows(R.frequency_rows(modes, cap_hz))
-        fit_columns(self.table)
+        fit_columns(self.table, elastic=4)
         n = len(modes)
         if select is None or not 0 <= select < n:
             elastic = np.flatnonzero(modes.elastic)
