@@ -220,7 +220,9 @@ def test_shaft_geometry_segments_and_material(qtbot, window):
 def test_operating_data_editor(qtbot, window):
     open_sample(qtbot, window)
     form = window.operating_form
+    window.project.set_value(("margin_percent",), 12)  # while the tab is hidden: shown when it opens
     window.tabs.setCurrentWidget(form)
+    assert field_at(window, ("margin_percent",)).text() == "12"
     type_into(qtbot, field_at(window, ("margin_percent",)), "15")
     assert window.project.doc["margin_percent"] == 15
     wait_results(qtbot, window)

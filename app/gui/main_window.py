@@ -161,8 +161,8 @@ class MainWindow(QtWidgets.QMainWindow):
         self.tabs.setTabToolTip(2, "Title, reference disc, speed range, margin and excitations")
         self.property_form = PropertyForm()
         # the operating data have no selected element: give that tab the full width
-        self.tabs.currentChanged.connect(
-            lambda _i: self.property_form.setVisible(self.tabs.currentWidget() is not self.operating_form))
+        self.tabs.currentChanged.connect(self._forms_tab_changed)
+        self._operating_stale = False
 
         forms = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
         forms.addWidget(self.tabs)
@@ -420,6 +420,13 @@ class MainWindow(QtWidgets.QMainWindow):
             self.tabs.setCurrentWidget(self.link_table)
         self.property_form.show_element(self.project.doc, self.selection, self.project, self.system)
 
+    def _forms_tab_changed(self, _index):
+        on_operating = self.tabs.currentWidget() is self.operating_form
+        self.property_form.setVisible(not on_operating)
+        if on_operating and self._operating_stale:
+            self._operating_stale = False
+            self.operating_form.refresh(self.project.doc, self.project, self.system)
+
     # ------------------------------------------------------------ refresh
     def refresh_views(self):
         doc, p = self.project.doc, self.project
@@ -431,7 +438,10 @@ class MainWindow(QtWidgets.QMainWindow):
         self.canvas.select(self.selection)
         self.disc_table.refresh(doc, p, self.system)
         self.link_table.refresh(doc, p, self.system)
-        self.operating_form.refresh(doc, p, self.system)
+        # the operating data sit on their own tab: refreshed when it shows (1-2 ms a live edit)
+        self._operating_stale = self.tabs.currentWidget() is not self.operating_form
+        if not self._operating_stale:
+            self.operating_form.refresh(doc, p, self.system)
         self.property_form.show_element(doc, self.selection, p, self.system)
         kind = self.selection[0] if self.selection else None
         self.disc_table.select_id(self.selection[1] if kind == "disc" else None)
