@@ -196,6 +196,21 @@ def test_table_edit_and_disc_rename_update_references(qtbot, window):
     assert window.project.error is None
 
 
+def test_hidden_forms_tab_shows_the_current_document_when_opened(qtbot, window):
+    """Only the forms tab on screen is refreshed per edit; the link table catches up
+    (values and selection) as soon as its tab is opened."""
+    open_sample(qtbot, window)
+    window.tabs.setCurrentWidget(window.disc_table)
+    index = [l["id"] for l in window.project.doc["links"]].index("coupling")
+    window.project.set_value(("links", index, "stiffness"), "41 kN*m/rad")
+    window.project.set_value(("links", index, "id"), "soft_coupling")
+    window.set_selection(("link", "soft_coupling"))  # opens the Links tab
+    assert window.tabs.currentWidget() is window.link_table
+    assert window.link_table.item(index, 0).text() == "soft_coupling"
+    assert "41" in window.link_table.item(index, 4).text()
+    assert window.link_table.selectionModel().selectedRows()[0].row() == index
+
+
 def test_shaft_geometry_segments_and_material(qtbot, window):
     open_sample(qtbot, window)
     links = window.project.doc["links"]

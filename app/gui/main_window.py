@@ -161,8 +161,8 @@ class MainWindow(QtWidgets.QMainWindow):
         self.tabs.setTabToolTip(2, "Title, reference disc, speed range, margin and excitations")
         self.property_form = PropertyForm()
         # the operating data have no selected element: give that tab the full width
+        self._stale_forms = set()
         self.tabs.currentChanged.connect(self._forms_tab_changed)
-        self._operating_stale = False
 
         forms = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
         forms.addWidget(self.tabs)
@@ -421,11 +421,21 @@ class MainWindow(QtWidgets.QMainWindow):
         self.property_form.show_element(self.project.doc, self.selection, self.project, self.system)
 
     def _forms_tab_changed(self, _index):
-        on_operating = self.tabs.currentWidget() is self.operating_form
-        self.property_form.setVisible(not on_operating)
-        if on_operating and self._operating_stale:
-            self._operating_stale = False
-            self.operating_form.refresh(self.project.doc, self.project, self.system)
+        shown = self.tabs.currentWidget()
+        self.property_form.setVisible(shown is not self.operating_form)
+        if shown in self._stale_forms:
+            self._refresh_form(shown)
+
+    def _refresh_form(self, form) -> None:
+        """Bring one forms tab (disc table, link table, operating data) up to the document."""
+        self._stale_forms.discard(form)
+        doc, p = self.project.doc, self.project
+        form.refresh(doc, p, self.system)
+        kind = self.selection[0] if self.selection else None
+        if form is self.disc_table:
+            form.select_id(self.selection[1] if kind == "disc" else None)
+        elif form is self.link_table:
+            form.select_id(self.selection[1] if kind == "link" else None)
 
     # ------------------------------------------------------------ refresh
     def refresh_views(self):
@@ -436,16 +446,11 @@ class MainWindow(QtWidgets.QMainWindow):
         bad = [p.error.element.split(" segment")[0].split(" order")[0]] if p.error and p.error.element else []
         self.canvas.set_document(doc, self.system, bad)
         self.canvas.select(self.selection)
-        self.disc_table.refresh(doc, p, self.system)
-        self.link_table.refresh(doc, p, self.system)
-        # the operating data sit on their own tab: refreshed when it shows (1-2 ms a live edit)
-        self._operating_stale = self.tabs.currentWidget() is not self.operating_form
-        if not self._operating_stale:
-            self.operating_form.refresh(doc, p, self.system)
+        # the forms tab showing is refreshed now, the two hidden ones when they show
+        # (a 200-link table or the excitations editor costs 1-3 ms a live edit)
+        self._stale_forms = {self.disc_table, self.link_table, self.operating_form}
+        self._refresh_form(self.tabs.currentWidget())
         self.property_form.show_element(doc, self.selection, p, self.system)
-        kind = self.selection[0] if self.selection else None
-        self.disc_table.select_id(self.selection[1] if kind == "disc" else None)
-        self.link_table.select_id(self.selection[1] if kind == "link" else None)
         self._show_mode_colour()
         self._update_title()
 
