@@ -211,6 +211,22 @@ def test_hidden_forms_tab_shows_the_current_document_when_opened(qtbot, window):
     assert window.link_table.selectionModel().selectedRows()[0].row() == index
 
 
+def test_editing_the_selected_link_repeatedly_keeps_it_highlighted(qtbot, window):
+    """Each edit redraws the selected link; its highlight moves to the new drawing
+    (an earlier highlight made with a graphics effect crashed on the second edit)."""
+    open_sample(qtbot, window)
+    window.set_selection(("link", "coupling"))
+    index = [l["id"] for l in window.project.doc["links"]].index("coupling")
+    for value in ("30 kN*m/rad", "31 kN*m/rad", "32 kN*m/rad", "33 kN*m/rad"):
+        window.project.set_value(("links", index, "stiffness"), value)
+        wait_results(qtbot, window)
+        window.canvas.viewport().grab()  # paint now
+        halos = window.canvas._halos.get(("link", "coupling"))
+        assert halos and all(h.scene() is window.canvas.scene() for h in halos)
+    window.set_selection(None)
+    assert not window.canvas._halos
+
+
 def test_shaft_geometry_segments_and_material(qtbot, window):
     open_sample(qtbot, window)
     links = window.project.doc["links"]

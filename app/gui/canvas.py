@@ -126,6 +126,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         self._element_labels: dict = {}  # (kind, id) -> label records
         self._label_fit = None  # (column px, stagger, widest) the labels were elided for
         self._placement_key = self._placement = None
+        self._halos: dict = {}  # link key -> glow items drawn behind the selected link
         self._disc_centre: dict = {}  # disc key -> (x, y) of its block's centre
         self._width_items: dict = {}  # link key -> [(item, pen role, colour)] drawn with the stiffness weight
         self.context_actions: list = []
@@ -242,9 +243,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
 
     def _remove_element(self, key) -> None:
         scene = self.scene()
-        for item in self._element_items.pop(key, []):
-            if item.graphicsEffect() is not None:
-                item.setGraphicsEffect(None)  # an item deleted with its effect can crash the next paint
+        for item in self._element_items.pop(key, []) + self._halos.pop(key, []):
             scene.removeItem(item)
         self._element_labels.pop(key, None)
         self._drawn_from.pop(key, None)
@@ -261,7 +260,8 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         """Forget everything drawn (a new document: the next set_document draws afresh)."""
         self.scene().clear()
         for d in (self._items, self._disc_brush, self._disc_pen, self._shown_fill, self._drawn_from,
-                  self._element_items, self._element_labels, self._disc_centre, self._width_items):
+                  self._element_items, self._element_labels, self._disc_centre, self._width_items,
+                  self._halos):
             d.clear()
         self._labels = []
         self._label_fit = None
@@ -494,15 +494,42 @@ class TrainCanvas(QtWidgets.QGraphicsView):
             selected = key == self._selection
             if key[0] == "disc":
                 item.setPen(QtGui.QPen(theme.qcolor(theme.ACCENT), 3.2) if selected else self._disc_pen[key])
-            elif selected:
-                eff = QtWidgets.QGraphicsDropShadowEffect()
-                eff.setColor(theme.qcolor(theme.ACCENT))
-                eff.setBlurRadius(14)
-                eff.setOffset(0, 0)
-                item.setGraphicsEffect(eff)
-            elif key == self._shown_selection:
-                item.setGraphicsEffect(None)
+            else:
+                for halo in self._halos.pop(key, []):
+                    self.scene().removeItem(halo)
+                if selected:
+                    self._halos[key] = self._halo(key, item)
         self._shown_selection = self._selection if self._selection in self._items else None
+
+    def _halo(self, key, group) -> list:
+        """A selected link glows: a wide, pale accent stroke behind each of its lines.
+        (Plain items rather than a QGraphicsEffect: an item that carried an effect
+        crashes PySide when it is deleted on a redraw, and blurring costs a pixmap
+        pass per paint.)"""
+        glow = theme.qcolor(theme.ACCENT, 90)
+        out = []
+        for child in group.childItems():
+            if isinstance(child, QtWidgets.QGraphicsPathItem):
+                shape = QtGui.QPainterPath(child.path())
+            elif isinstance(child, QtWidgets.QGraphicsLineItem):
+                shape = QtGui.QPainterPath(child.line().p1())
+                shape.lineTo(child.line().p2())
+            elif isinstance(child, (QtWidgets.QGraphicsRectItem, QtWidgets.QGraphicsEllipseItem)):
+                shape = QtGui.QPainterPath()
+                (shape.addRect if isinstance(child, QtWidgets.QGraphicsRectItem) else shape.addEllipse)(
+                    child.rect())
+            else:
+                continue
+            halo = QtWidgets.QGraphicsPathItem(child.sceneTransform().map(shape))
+            pen = QtGui.QPen(glow, child.pen().widthF() + 8.0)
+            pen.setCapStyle(QtCore.Qt.RoundCap)
+            pen.setJoinStyle(QtCore.Qt.RoundJoin)
+            halo.setPen(pen)
+            halo.setZValue(0.5)  # under the links (1) and discs (2)
+            halo.setData(0, key)
+            self.scene().addItem(halo)
+            out.append(halo)
+        return out
 
     def set_mode_shape(self, amplitudes: dict | None) -> None:
         """Colour each disc by its twist amplitude in the selected mode
