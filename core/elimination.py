@@ -23,6 +23,8 @@ sparse summation matrix; ``np.add.at`` is avoided.
 """
 from __future__ import annotations
 
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass
 
 import numpy as np
@@ -167,6 +169,32 @@ def build_schedule(n_nodes: int, edges_a: np.ndarray, edges_b: np.ndarray) -> Sc
             r.n1_sum = sp.csr_matrix((np.ones(k), (inv.ravel(), np.arange(k))), shape=(len(u), k))
         rounds.append(r)
     return Schedule(n_nodes, rounds, root, order, slot_pos[:n_edges], next_slot)
+
+
+_PLANS: "OrderedDict[tuple, Schedule]" = OrderedDict()
+_PLANS_LOCK = threading.Lock()  # the desktop program solves in a worker thread
+
+
+def cached_schedule(n_nodes: int, edges_a: np.ndarray, edges_b: np.ndarray) -> Schedule:
+    """:func:`build_schedule`, remembered for the last few topologies.
+
+    The plan depends only on which nodes are joined, not on any value, and a live
+    edit of a stiffness or an inertia keeps the topology; schedules are read-only.
+    """
+    ea = np.ascontiguousarray(edges_a, np.int64)
+    eb = np.ascontiguousarray(edges_b, np.int64)
+    key = (n_nodes, ea.tobytes(), eb.tobytes())
+    with _PLANS_LOCK:
+        plan = _PLANS.get(key)
+        if plan is not None:
+            _PLANS.move_to_end(key)
+            return plan
+    plan = build_schedule(n_nodes, ea, eb)
+    with _PLANS_LOCK:
+        _PLANS[key] = plan
+        while len(_PLANS) > 8:
+            _PLANS.popitem(last=False)
+    return plan
 
 
 def _sub_n1(D, r, upd):

@@ -61,7 +61,7 @@ import numpy as np
 import scipy.sparse as sp
 
 from .assembly import assemble, effective_disc_inertia, peel_rigid_meshes
-from .elimination import build_schedule, factor, solve_factored
+from .elimination import cached_schedule, factor, solve_factored
 from .errors import ModelError
 from .model import Train
 from .solver import _map  # the solver's thread pool over independent column pieces
@@ -465,7 +465,7 @@ class _Setup:
     def __init__(self, train: Train):
         self.asm = asm = assemble(train)
         mem = asm.members
-        self.schedule = build_schedule(asm.n_nodes, asm.edges_a, asm.edges_b)
+        self.schedule = cached_schedule(asm.n_nodes, asm.edges_a, asm.edges_b)
         self.tree = mem.b >= 0
         n_mem = len(mem.k)
         # node <- member scatter as sparse incidence matrices (each member touches a and b)

@@ -33,7 +33,7 @@ import scipy.sparse as sp
 
 from .assembly import (Assembly, assemble, clamped_count, effective_disc_inertia, member_stiffness,
                        peel_rigid_meshes)
-from .elimination import build_schedule, factor, factor_solve, solve_factored
+from .elimination import cached_schedule, factor, factor_solve, solve_factored
 from .model import Train
 
 TWO_PI = 2.0 * np.pi
@@ -65,7 +65,7 @@ class DynamicSystem:
         self.train = train
         self.asm: Assembly = assemble(train)
         a = self.asm
-        self.schedule = build_schedule(a.n_nodes, a.edges_a, a.edges_b)
+        self.schedule = cached_schedule(a.n_nodes, a.edges_a, a.edges_b)
         sch = self.schedule
         mem = a.members
         self._tree = mem.b >= 0
