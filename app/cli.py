@@ -97,10 +97,10 @@ def cmd_solve(args) -> int:
             dom = "rigid-body mode"
         else:
             li = modes.dominant_link(i)
-            dom = f"{li} ({100 * modes.strain_share[i].max():.0f} %)" if li else "—"
+            dom = fmt.share(li, modes.strain_share[i].max()) if li else "—"
         di = modes.dominant_disc(i)
         print(f"{int(modes.number[i]):>4}  {fmt.hz(modes.frequency_hz[i]):>10}  "
-              f"{fmt.cpm(modes.frequency_hz[i]):>9}  {dom:<28} {di} ({100 * modes.kinetic_share[i].max():.0f} %)")
+              f"{fmt.cpm(modes.frequency_hz[i]):>9}  {dom:<28} {fmt.share(di, modes.kinetic_share[i].max())}")
     for n in modes.notes:
         print(f"Note: {n}")
     print(CAUTION)

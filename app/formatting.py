@@ -59,3 +59,9 @@ def stress_mpa(value_pa: float | None) -> str:
 def power_kw(value_w: float | None) -> str:
     """Dissipated power in kW, three significant digits."""
     return _sig(None if value_w is None else value_w / 1e3)
+
+
+def share(name: str, fraction: float, space: str = " ") -> str:
+    """An element and its share of a mode's energy, e.g. 'coupling (79.3 %)';
+    ``space`` lets the sheet keep the number and its % sign on one line."""
+    return f"{name} ({percent(fraction)}{space}%)"

@@ -316,8 +316,8 @@ def mode_shape_drawing(modes, i: int, placement, width: float, height: float, li
     d.add(String(p.x0, height - 9, title, fontName=BOLD, fontSize=7, fillColor=INK))
     dom = modes.dominant_link(i)
     if dom:
-        share = 100 * float(modes.strain_share[i].max())
-        d.add(String(p.x0, height - 17, fit_text(f"largest strain energy: {dom} ({share:.0f}\u00a0%)", p.w, 6),
+        text = "largest strain energy: " + fmt.share(dom, float(modes.strain_share[i].max()), "\u00a0")
+        d.add(String(p.x0, height - 17, fit_text(text, p.w, 6),
                      fontName=FONT, fontSize=6, fillColor=GREY))
     index = {x: k for k, x in enumerate(ids)}
     for l in links:

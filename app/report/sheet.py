@@ -420,10 +420,10 @@ def frequency_block(data: SheetData, width):
             dom = "rigid-body mode"
         else:
             li = m.dominant_link(i)
-            dom = f"{escape(li)} ({100 * m.strain_share[i].max():.0f}\u00a0%)" if li else "—"
+            dom = fmt.share(escape(li), m.strain_share[i].max(), "\u00a0") if li else "—"
         di = m.dominant_disc(i)
         r = [str(int(m.number[i])), fmt.hz(m.frequency_hz[i]), fmt.cpm(m.frequency_hz[i]), dom,
-             f"{escape(di)} ({100 * m.kinetic_share[i].max():.0f}\u00a0%)"]
+             fmt.share(escape(di), m.kinetic_share[i].max(), "\u00a0")]
         if s is not None:
             r.append("—" if m.rigid_body[i] else ("yes" if m.frequency_hz[i] <= s.cap_hz else "above cap"))
         rows.append(r)

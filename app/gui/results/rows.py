@@ -71,9 +71,9 @@ def frequency_rows(modes, cap_hz: float | None = None) -> list[Row]:
         if rigid or not link_ids:
             strain_text = "—"
         else:
-            strain_text = f"{link_ids[int(top_link[i])]} ({fmt.percent(float(top_strain[i]))} %)"
+            strain_text = fmt.share(link_ids[int(top_link[i])], float(top_strain[i]))
         di = disc_ids[int(top_disc[i])] if disc_ids else None
-        kinetic_text = f"{di} ({fmt.percent(float(top_kinetic[i]))} %)" if disc_ids else "—"
+        kinetic_text = fmt.share(di, float(top_kinetic[i])) if disc_ids else "—"
         above = cap_hz is not None and cap_hz > 0 and f > cap_hz
         tip = ("Rigid-body mode: the whole train turns as one; not screened." if rigid else
                f"Mode {int(modes.number[i])}: {fmt.hz(f)} Hz = {fmt.cpm(f)} cycles per minute.")
