@@ -19,7 +19,7 @@ from core.screening import ExcitationLine, nearest_at_speed, pair_separation
 
 from . import rows as R
 from .label_layout import Spot, place_labels
-from .plotting import PlotCanvas, new_plot
+from .plotting import PlotCanvas, new_plot, plot_over_table
 from .table import RowsModel, fit_columns, make_table_view
 
 RPM = 2.0 * math.pi / 60.0  # rad/s per rpm
@@ -205,16 +205,7 @@ class CampbellView(QtWidgets.QWidget):
         ul.addWidget(self.message, 1)
         ul.addWidget(self.hover)
 
-        split = QtWidgets.QSplitter(QtCore.Qt.Vertical, self)
-        split.addWidget(upper)
-        split.addWidget(lower)
-        split.setStretchFactor(0, 3)
-        split.setStretchFactor(1, 1)
-        split.setChildrenCollapsible(False)
-        self.splitter = split
-        lay = QtWidgets.QVBoxLayout(self)
-        lay.setContentsMargins(0, 0, 0, 0)
-        lay.addWidget(split)
+        self.splitter = split = plot_over_table(self, upper, lower)
 
         self._proxy = pg.SignalProxy(self.plot.scene().sigMouseMoved, rateLimit=30, slot=self._mouse_moved)
         self.plot.vb.sigResized.connect(self._layout_labels)

@@ -108,6 +108,21 @@ def _accept_closed_svg_paths() -> None:
     mod.correctCoordinates = correct
 
 
+def plot_over_table(parent: QtWidgets.QWidget, upper: QtWidgets.QWidget,
+                    lower: QtWidgets.QWidget) -> QtWidgets.QSplitter:
+    """Fill ``parent`` with a plot above its table, 3:1, neither collapsible."""
+    split = QtWidgets.QSplitter(QtCore.Qt.Vertical, parent)
+    split.addWidget(upper)
+    split.addWidget(lower)
+    split.setStretchFactor(0, 3)
+    split.setStretchFactor(1, 1)
+    split.setChildrenCollapsible(False)
+    lay = QtWidgets.QVBoxLayout(parent)
+    lay.setContentsMargins(0, 0, 0, 0)
+    lay.addWidget(split)
+    return split
+
+
 def new_plot(canvas: PlotCanvas, row: int, x_label: str, y_label: str) -> pg.PlotItem:
     p = canvas.addPlot(row=row, col=0)
     theme.style_plot(p, x_label, y_label)

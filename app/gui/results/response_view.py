@@ -17,7 +17,7 @@ from app.gui import theme
 from core import units
 
 from . import rows as R
-from .plotting import PlotCanvas, new_plot
+from .plotting import PlotCanvas, new_plot, plot_over_table
 from .table import RowsModel, fit_columns, make_table_view
 
 RPM = 2.0 * math.pi / 60.0
@@ -113,16 +113,7 @@ class ResponseView(QtWidgets.QWidget):
         ll.addWidget(self.verdict)
         ll.addWidget(self.peak_table, 1)
 
-        split = QtWidgets.QSplitter(QtCore.Qt.Vertical, self)
-        split.addWidget(top)
-        split.addWidget(lower)
-        split.setStretchFactor(0, 3)
-        split.setStretchFactor(1, 1)
-        split.setChildrenCollapsible(False)
-        self.splitter = split
-        lay = QtWidgets.QVBoxLayout(self)
-        lay.setContentsMargins(0, 0, 0, 0)
-        lay.addWidget(split)
+        self.splitter = plot_over_table(self, top, lower)
         self._proxy = pg.SignalProxy(self.plot.scene().sigMouseMoved, rateLimit=30, slot=self._mouse_moved)
 
     # ------------------------------------------------------------ data
