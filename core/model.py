@@ -60,6 +60,11 @@ class Link:
     stress_concentration: float = 1.0
     permissible_torque: float | None = None  # N*m, vibratory amplitude
     permissible_stress: float | None = None  # Pa, vibratory shear amplitude
+    name: str = ""  # as shown to people; the id where empty
+
+    @property
+    def label(self) -> str:
+        return self.name or self.id
 
     @property
     def is_rigid(self) -> bool:
@@ -140,6 +145,17 @@ class Train:
             if d.id == disc_id:
                 return d
         raise KeyError(disc_id)
+
+    def name_of(self, element_id: str | None) -> str:
+        """The name people see for a disc or link id (the id itself where it has no name)."""
+        if element_id is None:
+            return ""
+        names = self.__dict__.get("_names")
+        if names is None:
+            names = {l.id: l.label for l in self.links}
+            names.update({d.id: d.name or d.id for d in self.discs})
+            object.__setattr__(self, "_names", names)
+        return names.get(element_id, element_id)
 
     @property
     def disc_ids(self) -> list[str]:

@@ -234,8 +234,9 @@ def _link(obj, index: int) -> Link:
     ps = _opt(obj, "permissible_stress", u.STRESS, where)
     if ps is not None:
         _positive(ps, where, "permissible_stress")
+    name = obj.get("name")
     return Link(lid, kind, ends[0], ends[1], k, segments, material, mass, ratio, c,
-                _loss_factor(obj, where), scf, pt, ps)
+                _loss_factor(obj, where), scf, pt, ps, str(name) if name else "")
 
 
 def _order(obj, where: str, index: int) -> Order:

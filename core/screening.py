@@ -158,7 +158,7 @@ def screen(train: Train, modes: Modes | None = None, margin: float | None = None
     m = op.margin if margin is None else margin
     lines = excitation_lines(train, op)
     cap = screening_cap_hz(lines, op.speed_max, m)
-    if modes is None or (modes.cap_hz is None or modes.cap_hz < cap):
+    if modes is None or modes.complete_to_hz < cap:
         modes = natural_modes(train, max_frequency_hz=max(cap, 1e-9))
     pairs = []
     for i in np.flatnonzero(modes.elastic):

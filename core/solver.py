@@ -252,6 +252,10 @@ class Modes:
     requested: str
     solve_time_s: float = 0.0
     notes: list = field(default_factory=list)
+    # every natural frequency up to this one (Hz) is in the set: the cap of a
+    # frequency request, the highest mode of a count request, inf when a lumped
+    # model's every finite mode was found
+    complete_to_hz: float = 0.0
 
     def __len__(self):
         return len(self.frequency_hz)
@@ -711,5 +715,11 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         torque[0] = 0.0
         strain[0] = 0.0
     numbers = np.arange(len(omega)) + (1 - rb)
+    if system.asm.n_finite_modes is not None and len(omega) >= system.asm.n_finite_modes:
+        complete = float("inf")
+    elif max_frequency_hz is not None:
+        complete = float(max_frequency_hz)
+    else:
+        complete = float(omega[-1] / TWO_PI) if len(omega) else 0.0
     return Modes(train, omega / TWO_PI, rigid, numbers, theta, torque, kin, lkin, strain,
-                 max_frequency_hz, requested, time.perf_counter() - t0, notes)
+                 max_frequency_hz, requested, time.perf_counter() - t0, notes, complete)

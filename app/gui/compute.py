@@ -11,7 +11,6 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass
-from types import SimpleNamespace
 
 from PySide6 import QtCore
 
@@ -21,39 +20,39 @@ DEBOUNCE_MS = 150
 
 @dataclass
 class Results:
-    train: object
-    modes: object
-    screening: object | None
-    response: object | None
+    """A study and how long it took; the views read ``study`` only."""
+
+    study: object  # core.study.Study
     solve_time_s: float
     note: str = ""
 
+    @property
+    def train(self):
+        return self.study.train
+
+    @property
+    def modes(self):
+        return self.study.modes
+
+    @property
+    def screening(self):
+        return self.study.screening
+
+    @property
+    def response(self):
+        return self.study.response
+
 
 def compute(train) -> Results:
-    """Modes (the command line's default choice of cap or count), screening when
-    the train has operating data with excitations, forced response when any
-    excitation carries an amplitude."""
-    from app.cli import _modes_args  # same mode selection as `twistwise solve`
+    """The study of ``train`` (:func:`core.study.run_study`): the same modes, screening and
+    forced response as the command line and the sheet."""
+    from core.study import run_study
     t0 = time.perf_counter()
-    modes = _modes_args(SimpleNamespace(max_frequency=None, modes=None), train)
-    screening = None
-    op = train.operating
-    if op is not None and op.excitations:
-        from core.screening import screen
-        screening = screen(train, modes)
-        modes = screening.modes
-    response, note = None, ""
-    try:
-        from core import response as core_response
-    except ImportError:
-        core_response = None
-    if core_response is not None and op is not None:
-        try:
-            if core_response.has_amplitudes(train):
-                response = core_response.forced_response(train)
-        except Exception as exc:  # the modes and screening still show
-            note = f"forced response not computed: {exc}"
-    return Results(train, modes, screening, response, time.perf_counter() - t0, note)
+    study = run_study(train)
+    note = ""
+    if study.response_error is not None:
+        note = f"forced response not computed: {study.response_error}"
+    return Results(study, time.perf_counter() - t0, note)
 
 
 class _Signals(QtCore.QObject):

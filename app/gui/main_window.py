@@ -16,11 +16,11 @@ from pathlib import Path
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
+from core.about import CAUTION
 from core.errors import ModelError
 from core.project import ProjectFileError, load_document
 
 from .. import formatting as fmt
-from ..cli import CAUTION, InputError
 from . import edits, theme
 from .canvas import TrainCanvas
 from .compute import ResultsRunner
@@ -850,16 +850,6 @@ def run_gui(path_or_none=None) -> int:
     return app.exec()
 
 
-def _parse_size(text: str) -> tuple[int, int]:
-    m = re.fullmatch(r"\s*(\d+)\s*[xX×]\s*(\d+)\s*", text or "")
-    if not m:
-        raise InputError(f"--size must be WIDTHxHEIGHT in pixels, e.g. 1600x1000, got {text!r}")
-    w, h = int(m.group(1)), int(m.group(2))
-    if not (320 <= w <= 8000 and 240 <= h <= 8000):
-        raise InputError(f"--size {w}x{h} is outside 320x240 ... 8000x8000")
-    return w, h
-
-
 def render_window(doc, path, size, system: str = "SI", mode_number: int | None = 1,
                   results_tab: int | None = None, selection=None) -> QtGui.QImage:
     """The main window with the project's results, rendered offscreen to an image
@@ -897,22 +887,4 @@ def render_window(doc, path, size, system: str = "SI", mode_number: int | None =
     return image
 
 
-def cmd_screenshot(args) -> int:
-    """``twistwise screenshot FILE -o PNG [--size WxH]``: exit 0, or 2 with one line on bad input."""
-    size = _parse_size(args.size)
-    out = Path(args.output)
-    if out.parent and not out.parent.exists():
-        raise InputError(f"output folder {out.parent} does not exist")
-    doc = load_document(args.file)  # ProjectFileError -> one line, exit 2 (app.cli)
-    from core.project import build_train
-    build_train(doc)  # a model that does not build is bad input here too
-    if not os.environ.get("DISPLAY") and not os.environ.get("WAYLAND_DISPLAY"):
-        os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
-    image = render_window(doc, args.file, size, getattr(args, "units", "SI") or "SI")
-    if image.isNull() or not image.save(str(out), "PNG"):
-        raise InputError(f"could not write {out}")
-    print(f"wrote {out} ({size[0]}x{size[1]})")
-    return 0
-
-
-__all__ = ["MainWindow", "run_gui", "cmd_screenshot", "render_window", "ProjectFileError"]
+__all__ = ["MainWindow", "run_gui", "render_window", "ProjectFileError"]

@@ -15,9 +15,8 @@ import json
 import math
 import os
 import tempfile
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
-from types import SimpleNamespace
 
 import numpy as np
 from reportlab.lib.pagesizes import A4, LETTER
@@ -27,11 +26,12 @@ from reportlab.platypus import (CondPageBreak, KeepInFrame, KeepTogether, Paragr
                                 SimpleDocTemplate, Spacer, Table, TableStyle)
 
 from core import units as u
+from core.about import CAUTION, program_line
 from core.errors import ModelError
 from core.project import build_train, dump_document
 
 from .. import formatting as fmt
-from ..cli import CAUTION, _modes_args
+from .. import wording
 from . import charts
 from .schematic import legend_drawing, schematic_drawings
 from .styles import (BOLD, FAIL_FILL, FAIL_INK, FONT, GREY, HEAD_FILL, INK, NEUTRAL_FILL, PASS_FILL,
@@ -45,70 +45,54 @@ N_SHAPE_PLOTS = 6
 # ----------------------------------------------------------------- results
 @dataclass
 class SheetData:
-    """Everything the sheet shows, computed once from the document."""
+    """The study the sheet shows, with the document it came from and its hash."""
 
     doc: dict
-    train: object
-    modes: object
-    screening: object | None
-    response: object | None = None
-    response_summary: list = field(default_factory=list)
-    response_exceedances: list = field(default_factory=list)
-    response_note: str | None = None
+    study: object  # core.study.Study
     source_name: str = ""
     sha256: str = ""
     hash_note: str = ""
 
     @property
+    def train(self):
+        return self.study.train
+
+    @property
+    def modes(self):
+        return self.study.modes
+
+    @property
+    def screening(self):
+        return self.study.screening
+
+    @property
+    def response(self):
+        return self.study.response
+
+    @property
+    def response_summary(self) -> list:
+        return list(self.study.response_peaks)
+
+    @property
+    def response_exceedances(self) -> list:
+        return list(self.study.exceedances)
+
+    @property
+    def response_note(self) -> str | None:
+        return None
+
+    @property
     def response_failed(self) -> bool:
-        return bool(self.response_exceedances)
+        return self.study.response_failed
 
     @property
     def passed(self) -> bool:
-        ok = self.screening is None or self.screening.passed
-        return ok and not self.response_failed
+        return self.study.passed
 
 
 def verdict_sentence(s) -> str:
     """The verdict in words, exactly as ``twistwise check`` words it."""
-    if s.passed:
-        return f"PASS — every coincidence keeps at least {fmt.percent(s.margin)}\u00a0% separation."
-    n_fail = len(s.failures)
-    worst = s.failures[0]
-    return (f"FAIL — {n_fail} coincidence{'s' if n_fail > 1 else ''} inside the "
-            f"{fmt.percent(s.margin)}\u00a0% margin (worst: mode {worst.mode} with {worst.source}, "
-            f"{fmt.percent(worst.separation)}\u00a0%).")
-
-
-def _amplitudes_given(train) -> bool:
-    op = train.operating
-    if op is None:
-        return False
-    return any(e.amplitude is not None or any(o.amplitude is not None for o in e.orders)
-               for e in op.excitations)
-
-
-def _forced_response(data: SheetData) -> None:
-    """Fill the forced-response part of ``data`` (issue 6) when amplitudes are given."""
-    try:
-        from core import response as resp_mod
-    except ImportError:
-        if _amplitudes_given(data.train):
-            data.response_note = ("The project gives excitation amplitudes, but this build has no "
-                                  "forced-response solver; the vibratory torque was not computed.")
-        return
-    if not resp_mod.has_amplitudes(data.train):
-        return
-    try:
-        r = resp_mod.forced_response(data.train)
-        data.response = r
-        data.response_summary = list(resp_mod.response_summary(r))
-        data.response_exceedances = list(resp_mod.exceedances(r))
-    except ModelError:
-        raise
-    except Exception as exc:  # the sheet says so honestly rather than failing the whole sheet
-        data.response = None
-        data.response_note = f"The forced response could not be computed ({type(exc).__name__}: {exc})."
+    return wording.separation_verdict(s, nbsp="\u00a0")
 
 
 def project_hash(doc: dict, project_path) -> tuple[str, str, str]:
@@ -135,22 +119,13 @@ def project_hash(doc: dict, project_path) -> tuple[str, str, str]:
 
 
 def compute(doc: dict, project_path=None) -> SheetData:
-    """Validate the document and compute every result the sheet shows (raises ModelError)."""
-    from core.screening import screen
-    train = build_train(doc)
-    # the same mode set as `twistwise solve`, so the table matches the screen digit for digit
-    modes = _modes_args(SimpleNamespace(max_frequency=None, modes=None), train)
-    screening = None
-    if train.operating is not None:
-        screening = screen(train, modes=modes)
-        if screening.modes is not modes:
-            modes_cover = len(modes) and modes.frequency_hz.max() >= screening.cap_hz
-            if not modes_cover:
-                modes = screening.modes
+    """Validate the document and run the study the sheet shows (raises ModelError)."""
+    from core.study import run_study
+    study = run_study(build_train(doc))
+    if study.response_error is not None:
+        raise study.response_error
     name, digest, note = project_hash(doc, project_path)
-    data = SheetData(doc, train, modes, screening, source_name=name, sha256=digest, hash_note=note)
-    _forced_response(data)
-    return data
+    return SheetData(doc, study, source_name=name, sha256=digest, hash_note=note)
 
 
 # ----------------------------------------------------------------- helpers
@@ -693,7 +668,7 @@ def render(data: SheetData, out_path, paper: str = "a4", author: str = "", revis
     doc = SimpleDocTemplate(str(out_path), pagesize=pagesize, leftMargin=MARGIN, rightMargin=MARGIN,
                             topMargin=MARGIN + 4, bottomMargin=MARGIN + 10,
                             title=f"Review sheet — {data.train.title}", author=author or "",
-                            subject="Torsional vibration screening", creator="Twistwise")
+                            subject="Torsional vibration screening", creator=program_line())
     width = doc.width
     frame_h = doc.height
     date_text = date_text or _dt.datetime.now().astimezone().strftime("%Y-%m-%d %H:%M %Z")

@@ -10,7 +10,7 @@ from __future__ import annotations
 from PySide6 import QtCore, QtGui, QtWidgets
 
 from app import formatting as fmt
-from app.cli import CAUTION
+from core.about import CAUTION
 from app.gui import theme
 
 from . import rows as R

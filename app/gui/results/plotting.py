@@ -10,7 +10,7 @@ import pyqtgraph as pg
 import pyqtgraph.exporters  # noqa: F401  (registers pg.exporters)
 from PySide6 import QtCore, QtWidgets
 
-from app.cli import CAUTION
+from core.about import CAUTION
 from app.gui import theme
 from app.schematic_layout import place
 from core.model import GROUND

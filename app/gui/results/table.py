@@ -5,7 +5,7 @@ import csv
 
 from PySide6 import QtCore, QtGui, QtWidgets
 
-from app.cli import CAUTION
+from core.about import CAUTION
 from app.gui import theme
 
 from .rows import Row

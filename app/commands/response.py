@@ -6,20 +6,18 @@ line on stderr by :mod:`app.cli`).
 """
 from __future__ import annotations
 
-import json
 import math
 
-import numpy as np
-
+from core.about import CAUTION
 from core.errors import ModelError
 
-from . import formatting as fmt
+from .. import formatting as fmt
+from .common import EXIT_FAIL, EXIT_OK, finite, load_train, print_json
 
-EXIT_OK, EXIT_FAIL = 0, 1
 RPM = 2.0 * math.pi / 60.0  # rad/s per rpm
 
 
-def parse_speeds(text: str) -> np.ndarray:
+def parse_speeds(text: str):
     """'MIN:MAX:COUNT' in rpm -> reference speeds in rad/s (raises ModelError)."""
     where, fld = "option", "--speeds"
     parts = str(text).split(":")
@@ -43,16 +41,15 @@ def parse_speeds(text: str) -> np.ndarray:
         raise ModelError(f"COUNT must be at least 2, got {count}", where, fld)
     if count > 200_000:
         raise ModelError(f"COUNT {count} is more than 200000 speeds", where, fld)
+    import numpy as np
     return np.linspace(lo, hi, count) * RPM
 
 
-def _num(v):
-    v = float(v)
-    return v if math.isfinite(v) else None
+_num = finite
 
 
 def _list(a):
-    return [_num(v) for v in a]
+    return [finite(v) for v in a]
 
 
 def _rpm(w: float) -> float:
@@ -60,12 +57,19 @@ def _rpm(w: float) -> float:
     return float(f"{fmt.rad_s_to_rpm(w):.10g}")
 
 
+def add_parser(sub):
+    r = sub.add_parser("response", help="damped forced response across the speed range")
+    r.add_argument("file")
+    r.add_argument("--speeds", metavar="MIN:MAX:COUNT", help="reference speeds in rpm")
+    r.add_argument("--json", action="store_true", help="one JSON object on stdout")
+    return r
+
+
 def response_to_json(resp, peaks, over) -> dict:
-    from .cli import CAUTION
     op = resp.train.operating
     links = {}
     for i, lid in enumerate(resp.link_ids):
-        has_stress = bool(np.any(np.isfinite(resp.link_stress[i])))
+        has_stress = any(math.isfinite(v) for v in resp.link_stress[i])
         pk = peaks[i]
         links[lid] = {
             "kind": resp.link_kinds[i],
@@ -132,7 +136,6 @@ def _status(p) -> str:
 
 
 def print_table(resp, peaks, over, path: str) -> None:
-    from .cli import CAUTION
     train = resp.train
     op = train.operating
     rpm = resp.speed_rpm
@@ -175,19 +178,24 @@ def print_table(resp, peaks, over, path: str) -> None:
     print(CAUTION)
 
 
-def cmd_response(args) -> int:
-    from core.project import build_train, load_document
-    from core.response import exceedances, forced_response, response_summary
-    train = build_train(load_document(args.file))
+def run(args) -> int:
+    from core.study import StudyOptions, run_study
+    train = load_train(args.file)
     if train.operating is None:
         raise ModelError("the project has no operating data: give reference, operating_speed and "
                          "excitations", "operating data", "operating_speed")
     speeds = parse_speeds(args.speeds) if getattr(args, "speeds", None) else None
-    resp = forced_response(train, speeds)
-    peaks = response_summary(resp)
-    over = exceedances(resp)
+    study = run_study(train, StudyOptions(speeds=None if speeds is None else tuple(speeds),
+                                          parts=frozenset({"response", "acceptance"})))
+    if study.response_error is not None:
+        raise study.response_error
+    if study.response is None:
+        raise ModelError("no excitation carries an amplitude; give orders as {\"order\": 3, "
+                         "\"amplitude\": \"1.2 kN*m\"} for a forced response", "operating data",
+                         "excitations")
+    resp, peaks, over = study.response, list(study.response_peaks), list(study.exceedances)
     if args.json:
-        print(json.dumps(response_to_json(resp, peaks, over), indent=1))
+        print_json(response_to_json(resp, peaks, over))
     else:
         print_table(resp, peaks, over, args.file)
     return EXIT_FAIL if over else EXIT_OK

@@ -1,0 +1,36 @@
+"""``twistwise report FILE -o SHEET.pdf [--paper] [--author] [--revision] [--units]``.
+
+Exit codes: 0 sheet written and the verdict passes (or the project has no
+operating data, so nothing was screened); 1 sheet written and the verdict fails
+(a coincidence inside the margin, as ``twistwise check``, or a forced-response
+exceedance); 2 bad input: one line on stderr naming the element and field, and
+no file written.
+"""
+from __future__ import annotations
+
+
+def add_parser(sub):
+    rp = sub.add_parser("report", help="PDF review sheet")
+    rp.add_argument("file")
+    rp.add_argument("-o", "--output", required=True, metavar="SHEET.pdf")
+    rp.add_argument("--paper", choices=("a4", "letter"), default="a4")
+    rp.add_argument("--author", default="")
+    rp.add_argument("--revision", default="")
+    rp.add_argument("--units", choices=("SI", "US"), default="SI", help="unit system of the sheet")
+    return rp
+
+
+def run(args) -> int:
+    from core.project import load_document
+
+    from ..report import write_sheet
+    from .common import EXIT_FAIL, EXIT_OK
+    doc = load_document(args.file)
+    data = write_sheet(doc, args.file, args.output, paper=args.paper, author=args.author,
+                       revision=args.revision, unit_system=args.units)
+    screening = data.screening
+    verdict = "not screened (no operating data)" if screening is None else screening.verdict.upper()
+    if data.response_exceedances:
+        verdict += f"; forced response: {len(data.response_exceedances)} exceedance(s)"
+    print(f"Review sheet written to {args.output} — verdict {verdict}")
+    return EXIT_OK if data.passed else EXIT_FAIL

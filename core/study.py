@@ -1,0 +1,207 @@
+"""The study: every result any view shows, computed once from one :class:`Train`.
+
+One result object flows one way: file -> document -> model -> **study** -> views.
+The command line, the desktop program and the review sheet all call
+:func:`run_study` and only format what it holds; none of them chooses modes or
+runs a solve of its own.  New analyses plug in here as a named part (see
+``PARTS``): each is computed from the train and the results before it, and is
+``None`` when it does not apply or was not asked for.
+
+The one rule for how many modes are solved (:func:`choose_modes`):
+  * ``max_frequency_hz`` given: every mode up to it;
+  * ``n_modes`` given: the lowest N elastic modes;
+  * otherwise every mode up to the screening limit (above the highest
+    excitation frequency the operating range reaches, :func:`core.screening.screening_cap_hz`),
+    and never fewer than the lowest ``MIN_ELASTIC_MODES`` elastic modes — those
+    above the screening limit are shown and marked, not left out.
+"""
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import numpy as np
+
+from .errors import ModelError
+from .model import Train
+
+MIN_ELASTIC_MODES = 6
+
+#: the analyses a study can hold, in the order they are computed
+PARTS = ("screening", "response", "design", "acceptance", "damped", "transients")
+ALL_PARTS = frozenset(PARTS)
+
+
+@dataclass(frozen=True)
+class StudyOptions:
+    """What the user asked for; ``None`` means the project's own setting.
+
+    ``margin``: required separation as a fraction (overrides the project's).
+    ``speeds``: reference-shaft speeds in rad/s for the forced response.
+    ``parts``: which analyses to run besides the modes (all by default; the
+    command line's ``solve`` asks for fewer).
+    """
+
+    max_frequency_hz: float | None = None
+    n_modes: int | None = None
+    margin: float | None = None
+    speeds: tuple[float, ...] | None = None
+    parts: frozenset = ALL_PARTS
+
+    def __post_init__(self):
+        if self.max_frequency_hz is not None and self.n_modes is not None:
+            raise ModelError("give either a frequency limit or a number of modes, not both",
+                             "option", "--modes")
+        if self.max_frequency_hz is not None and not self.max_frequency_hz > 0:
+            raise ModelError("must be greater than zero", "option", "--max-frequency")
+        if self.n_modes is not None and self.n_modes < 1:
+            raise ModelError("must be at least 1", "option", "--modes")
+        if self.margin is not None and not 0.0 <= self.margin <= 0.5:
+            raise ModelError(f"must be between 0 and 50 %, got {100 * self.margin:g}", "option", "--margin")
+        unknown = set(self.parts) - ALL_PARTS
+        if unknown:
+            raise ValueError(f"unknown study parts {sorted(unknown)}")
+
+
+def screening_limit_hz(train: Train, margin: float | None = None) -> float | None:
+    """The screening limit of ``train`` (Hz), or None without operating data or excitations."""
+    op = train.operating
+    if op is None or not op.excitations:
+        return None
+    from .screening import excitation_lines, screening_cap_hz
+    cap = screening_cap_hz(excitation_lines(train, op), op.speed_max, op.margin if margin is None else margin)
+    return cap if cap > 0 else None
+
+
+def choose_modes(train: Train, options: StudyOptions = StudyOptions()):
+    """The modes a study shows, by the one rule in the module docstring."""
+    from .solver import natural_modes
+    if options.max_frequency_hz is not None:
+        return natural_modes(train, max_frequency_hz=options.max_frequency_hz)
+    if options.n_modes is not None:
+        return natural_modes(train, n_modes=options.n_modes)
+    cap = screening_limit_hz(train, options.margin)
+    if cap is not None:
+        modes = natural_modes(train, max_frequency_hz=cap)
+        if int(modes.elastic.sum()) >= MIN_ELASTIC_MODES or modes.complete_to_hz == float("inf"):
+            return modes
+        # fewer than the minimum under the limit: the lowest N hold all of them
+        return natural_modes(train, n_modes=MIN_ELASTIC_MODES)
+    return natural_modes(train, n_modes=MIN_ELASTIC_MODES)
+
+
+@dataclass(frozen=True)
+class Study:
+    """Everything the views show.  Arrays and results are read-only by convention.
+
+    ``response_error``: why the forced response could not be computed although
+    amplitudes are given (a :class:`ModelError`), else None.  Views that must
+    refuse (``twistwise response``) raise it; the others print it.
+    """
+
+    train: Train
+    options: StudyOptions
+    modes: object  # core.solver.Modes
+    screening: object | None = None  # core.screening.Screening
+    response: object | None = None  # core.response.Response
+    response_error: ModelError | None = None
+    design: object | None = None
+    acceptance: object | None = None
+    damped: object | None = None
+    transients: object | None = None
+    notes: tuple[str, ...] = ()
+    solve_time_s: float = 0.0
+    timings: dict = field(default_factory=dict, compare=False)
+
+    # ------------------------------------------------------------- modes
+    @property
+    def screening_limit_hz(self) -> float | None:
+        """Modes above this frequency are shown but were not screened (None: no limit)."""
+        return None if self.screening is None else self.screening.cap_hz
+
+    @cached_property
+    def above_screening_limit(self) -> np.ndarray:
+        """Per mode: True where the mode lies above the screening limit (marked, not screened)."""
+        cap = self.screening_limit_hz
+        f = self.modes.frequency_hz
+        if cap is None:
+            return np.zeros(len(f), bool)
+        return (f > cap) & self.modes.elastic
+
+    # ------------------------------------------------------------- forced response
+    @property
+    def has_amplitudes(self) -> bool:
+        from .response import has_amplitudes
+        return has_amplitudes(self.train)
+
+    @cached_property
+    def response_peaks(self) -> tuple:
+        """Per-link peaks (:func:`core.response.response_summary`), on first use."""
+        if self.response is None:
+            return ()
+        from .response import response_summary
+        return tuple(response_summary(self.response))
+
+    @cached_property
+    def exceedances(self) -> tuple:
+        """Permissible values exceeded, worst first (:func:`core.response.exceedances`)."""
+        if self.response is None:
+            return ()
+        from .response import exceedances
+        return tuple(exceedances(self.response))
+
+    # ------------------------------------------------------------- verdicts
+    @property
+    def separation_passed(self) -> bool | None:
+        return None if self.screening is None else self.screening.passed
+
+    @property
+    def response_failed(self) -> bool:
+        return bool(self.exceedances)
+
+    @property
+    def passed(self) -> bool:
+        """Separation passes (or nothing was screened) and no permissible value is exceeded."""
+        ok = self.screening is None or self.screening.passed
+        return ok and not self.response_failed
+
+
+def _timed(timings: dict, name: str, fn, *args, **kwargs):
+    t0 = time.perf_counter()
+    try:
+        return fn(*args, **kwargs)
+    finally:
+        timings[name] = time.perf_counter() - t0
+
+
+def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
+    """Modes, screening and, where they apply, the analyses that follow — once.
+
+    Raises :class:`ModelError` for input the analyses refuse (named element and
+    field); a forced response that cannot be computed is recorded in
+    ``response_error`` so that the modes and screening still show.
+    """
+    t0 = time.perf_counter()
+    timings: dict = {}
+    parts = options.parts
+    modes = _timed(timings, "modes", choose_modes, train, options)
+    notes = list(modes.notes)
+    screening = None
+    op = train.operating
+    if "screening" in parts and op is not None and op.excitations:
+        from .screening import screen
+        screening = _timed(timings, "screening", screen, train, modes, options.margin)
+        if options.max_frequency_hz is None and options.n_modes is None:
+            modes = screening.modes  # the same set, or more when the margin option raised the limit
+    response, response_error = None, None
+    if "response" in parts and op is not None:
+        from . import response as core_response
+        if core_response.has_amplitudes(train):
+            speeds = None if options.speeds is None else np.asarray(options.speeds, float)
+            try:
+                response = _timed(timings, "response", core_response.forced_response, train, speeds)
+            except ModelError as exc:
+                response_error = exc
+    return Study(train, options, modes, screening, response, response_error,
+                 notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)
