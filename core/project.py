@@ -319,17 +319,23 @@ def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
         name = str(e.get("name") or f"Excitation {i + 1}")
         ew = f"excitation '{name}'"
         if e.get("frequency") is not None:
-            if e.get("at") is not None or e.get("orders"):
-                raise ModelError("a fixed-frequency source has no 'at' disc or orders", ew, "frequency")
+            if e.get("orders"):
+                raise ModelError("a fixed-frequency source has no orders", ew, "frequency")
             f = u.parse(e["frequency"], u.FREQUENCY, ew, "frequency")
             if f <= 0:
                 raise ModelError("frequency must be greater than zero", ew, "frequency")
             amp = _opt(e, "amplitude", u.TORQUE, ew)
             if amp is not None and amp < 0:
                 raise ModelError("amplitude must not be negative", ew, "amplitude")
-            applied_at = e.get("applied_at")
+            # 'at' and the older 'applied_at' name one idea: the disc the torque acts on
+            at, applied_at = e.get("at"), e.get("applied_at")
+            if at is not None and applied_at is not None and at != applied_at:
+                raise ModelError(f"'at' ({at!r}) and 'applied_at' ({applied_at!r}) name different discs; "
+                                 "give one ('at')", ew, "applied_at")
+            key = "at" if at is not None else "applied_at"
+            applied_at = at if at is not None else applied_at
             if applied_at is not None and applied_at not in disc_ids:
-                raise ModelError(f"unknown disc '{applied_at}'", ew, "applied_at")
+                raise ModelError(f"unknown disc '{applied_at}'", ew, key)
             excitations.append(Excitation(name, None, (), f, amp,
                                           u.parse_number(e.get("phase_deg", 0.0), ew, "phase_deg"),
                                           applied_at))

@@ -143,8 +143,8 @@ def excitation_harmonics(train: Train) -> tuple[list[OrderGroup], list[Harmonic]
             if e.amplitude is None:
                 continue
             if e.applied_at is None:
-                raise ModelError("a fixed-frequency source with an amplitude needs 'applied_at' (the disc "
-                                 "its torque acts on) for the forced response", ew, "applied_at")
+                raise ModelError("a fixed-frequency source with an amplitude needs 'at' (the disc "
+                                 "its torque acts on) for the forced response", ew, "at")
             w = TWO_PI * e.frequency
             g = group_of(("fixed", round(w, 9)), f"{e.name} ({e.frequency:g} Hz)", 0.0, w, e.name, None)
             harmonics.append(Harmonic(g, index[e.applied_at], e.amplitude, math.radians(e.phase_deg),

@@ -324,16 +324,36 @@ def test_no_amplitudes_is_a_clear_error():
     assert e.value.field == "excitations"
 
 
-def test_fixed_source_amplitude_needs_applied_at():
+def test_fixed_source_amplitude_needs_the_disc_it_acts_at():
     doc = two_disc_doc()
     doc["excitations"].append({"name": "grid", "frequency": "100 Hz", "amplitude": "50 N*m"})
     with pytest.raises(ModelError) as e:
         forced_response(build_train(doc), [200.0])
-    assert e.value.field == "applied_at" and "grid" in e.value.element
+    assert e.value.field == "at" and "grid" in e.value.element
     doc["excitations"][-1]["applied_at"] = "nowhere"
     with pytest.raises(ModelError) as e:
         build_train(doc)
     assert e.value.field == "applied_at"
+    doc["excitations"][-1].pop("applied_at")
+    doc["excitations"][-1]["at"] = "nowhere"
+    with pytest.raises(ModelError) as e:
+        build_train(doc)
+    assert e.value.field == "at"
+
+
+def test_at_and_applied_at_name_one_idea():
+    # issue 9 item 7: both keys are read for a fixed-frequency source; they must agree
+    doc = two_disc_doc()
+    doc["excitations"].append({"name": "grid", "frequency": "100 Hz", "amplitude": "50 N*m", "at": "b"})
+    old = two_disc_doc()
+    old["excitations"].append({"name": "grid", "frequency": "100 Hz", "amplitude": "50 N*m", "applied_at": "b"})
+    a = forced_response(build_train(doc), [200.0])
+    b = forced_response(build_train(old), [200.0])
+    assert np.array_equal(a.link_torque, b.link_torque)
+    doc["excitations"][-1]["applied_at"] = "a"
+    with pytest.raises(ModelError) as e:
+        build_train(doc)
+    assert e.value.field == "applied_at" and "grid" in e.value.element
 
 
 def test_cylinders_must_be_on_one_shaft():
