@@ -159,11 +159,20 @@ class Train:
 
     @property
     def disc_ids(self) -> list[str]:
-        return [d.id for d in self.discs]
+        """Disc ids in train order (built once: a long train asks for them often)."""
+        ids = self.__dict__.get("_disc_ids")
+        if ids is None:
+            ids = [d.id for d in self.discs]
+            object.__setattr__(self, "_disc_ids", ids)
+        return ids
 
     @property
     def link_ids(self) -> list[str]:
-        return [l.id for l in self.links]
+        ids = self.__dict__.get("_link_ids")
+        if ids is None:
+            ids = [l.id for l in self.links]
+            object.__setattr__(self, "_link_ids", ids)
+        return ids
 
     @property
     def grounded(self) -> bool:

@@ -2,10 +2,15 @@
 frequencies, mode shapes, modal torques and energy shares."""
 from __future__ import annotations
 
+import io
+import json
+import operator
+import sys
+
 from core.about import CAUTION
 
 from .. import formatting as fmt
-from .common import EXIT_OK, finite, load_train, parse_frequency_option, print_json
+from .common import EXIT_OK, load_train, parse_frequency_option
 
 
 def add_parser(sub):
@@ -18,27 +23,59 @@ def add_parser(sub):
     return s
 
 
-def modes_to_json(study) -> dict:
+def _keyed(prefixes: list[str], values) -> str:
+    """A JSON object from pre-escaped ``'"id": '`` prefixes and a float array, built
+    from the array in one pass (a 100 000-disc train has millions of values)."""
+    import numpy as np
+    vals = np.asarray(values, float)
+    texts = list(map(float.__repr__, vals.tolist()))
+    if not np.isfinite(vals).all():  # JSON has no NaN: null
+        for j in np.flatnonzero(~np.isfinite(vals)):
+            texts[j] = "null"
+    return "{" + ", ".join(map(operator.add, prefixes, texts)) + "}"
+
+
+def _mode_texts(study):
+    """Each mode as JSON text, one at a time (the whole output never sits in memory)."""
     modes = study.modes
     above = study.above_screening_limit
-    out = []
+    discs = [json.dumps(d) + ": " for d in modes.disc_ids]
+    links = [json.dumps(l) + ": " for l in modes.link_ids]
     for i in range(len(modes)):
-        out.append({
+        head = json.dumps({
             "number": int(modes.number[i]),
             "frequency_hz": float(modes.frequency_hz[i]),
             "frequency_cpm": float(modes.frequency_hz[i] * 60.0),
             "rigid_body": bool(modes.rigid_body[i]),
             "above_screening_limit": bool(above[i]),
-            "shape": modes.shape_dict(i),
-            "link_torque_nm": {l: finite(v) for l, v in zip(modes.link_ids, modes.link_torque[i])},
-            "kinetic_energy_share": {d: float(v) for d, v in zip(modes.disc_ids, modes.kinetic_share[i])},
-            "strain_energy_share": {l: float(v) for l, v in zip(modes.link_ids, modes.strain_share[i])},
             "dominant_link": modes.dominant_link(i),
         })
-    return {"title": modes.train.title, "requested": modes.requested,
+        yield (head[:-1] + ', "shape": ' + _keyed(discs, modes.shape[i])
+               + ', "link_torque_nm": ' + _keyed(links, modes.link_torque[i])
+               + ', "kinetic_energy_share": ' + _keyed(discs, modes.kinetic_share[i])
+               + ', "strain_energy_share": ' + _keyed(links, modes.strain_share[i]) + "}")
+
+
+def write_modes_json(study, stream=None) -> None:
+    """``solve --json``: one JSON object, written mode by mode (keys as documented in
+    the README; values that are not finite are written as null)."""
+    stream = stream or sys.stdout
+    modes = study.modes
+    head = {"title": modes.train.title, "requested": modes.requested,
             "screening_limit_hz": study.screening_limit_hz,
-            "solve_time_s": modes.solve_time_s, "notes": list(study.notes), "modes": out,
-            "caution": CAUTION}
+            "solve_time_s": modes.solve_time_s, "notes": list(study.notes), "caution": CAUTION}
+    text = json.dumps(head, allow_nan=False)
+    stream.write(text[:-1] + ', "modes": [')
+    for k, mode in enumerate(_mode_texts(study)):
+        stream.write((",\n" if k else "\n") + mode)
+    stream.write("\n]}\n")
+
+
+def modes_to_json(study) -> dict:
+    """The same object as a dict (tests, small trains)."""
+    buf = io.StringIO()
+    write_modes_json(study, buf)
+    return json.loads(buf.getvalue())
 
 
 def print_table(study, path: str) -> None:
@@ -74,7 +111,7 @@ def run(args) -> int:
                            n_modes=args.modes, parts=frozenset({"screening", "design", "damped"}))
     study = run_study(train, options)
     if args.json:
-        print_json(modes_to_json(study))
+        write_modes_json(study)
     else:
         print_table(study, args.file)
     return EXIT_OK
