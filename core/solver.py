@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import os
 import time
+import weakref
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
@@ -34,6 +35,7 @@ import scipy.sparse as sp
 from .assembly import (Assembly, assemble, clamped_count, effective_disc_inertia, member_stiffness,
                        peel_rigid_meshes)
 from .elimination import cached_schedule, factor, factor_solve, solve_factored
+from .errors import ModelError
 from .model import Train
 
 TWO_PI = 2.0 * np.pi
@@ -224,6 +226,21 @@ class DynamicSystem:
         num = mem.k @ (dx * dx)
         den = self.J @ (x * x)
         return num / den
+
+
+_LAST_SYSTEM: tuple = (None, None)
+
+
+def dynamic_system(train: Train) -> DynamicSystem:
+    """The assembled system of ``train``, reused while the same (immutable) train is
+    solved again — a study asks for its modes and its screening one after the other."""
+    global _LAST_SYSTEM
+    ref, system = _LAST_SYSTEM
+    if ref is not None and ref() is train:
+        return system
+    system = DynamicSystem(train)
+    _LAST_SYSTEM = (weakref.ref(train), system)
+    return system
 
 
 # ----------------------------------------------------------------- results
@@ -673,21 +690,49 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
             (strain / tot_str).T)
 
 
+MAX_MODES = 400  # elastic modes one solve returns with their shapes
+MAX_SHAPE_VALUES = 4_000_000  # modes x degrees of freedom held in memory (~32 MB per array)
+
+
+def mode_limit(n_dof: int) -> int:
+    """How many elastic modes one solve returns with shapes: MAX_MODES, fewer on a very
+    long train so that the shape arrays stay bounded (100 modes of a 100 000-disc train)."""
+    return int(max(20, min(MAX_MODES, MAX_SHAPE_VALUES // max(n_dof, 1))))
+
+
+class ModeLimitError(ModelError):
+    """More modes were asked for than one solve returns (:func:`mode_limit`)."""
+
+    def __init__(self, count: int, limit: int, below_hz: float | None = None):
+        self.count, self.limit, self.below_hz = count, limit, below_hz
+        where = "" if below_hz is None else f" below {below_hz:.6g} Hz"
+        super().__init__(f"{count} natural frequencies lie{where}; one solve returns at most {limit} "
+                         f"modes for this train (limit {MAX_MODES}, fewer for very long trains so the "
+                         "mode shapes fit in memory)", "option", "--modes")
+
+
 def natural_modes(train: Train, max_frequency_hz: float | None = None,
                   n_modes: int | None = None) -> Modes:
     """Natural frequencies and modes of ``train``.
 
     Give either ``max_frequency_hz`` (every mode up to that cap) or ``n_modes``
     (the lowest N elastic modes; a rigid-body mode is reported in addition).
-    Without either, the lowest 10 elastic modes.
+    Without either, the lowest 10 elastic modes.  Raises :class:`ModeLimitError`
+    when more than :func:`mode_limit` elastic modes are asked for (counted first,
+    in time proportional to the train's size).
     """
     t0 = time.perf_counter()
-    system = DynamicSystem(train)
+    system = dynamic_system(train)
     rb = 0 if system.asm.grounded else 1
     notes = []
+    limit = mode_limit(system.n_dof)
+    if n_modes is not None and int(n_modes) > limit:
+        raise ModeLimitError(int(n_modes), limit)
     if max_frequency_hz is not None:
         cap_w = TWO_PI * max_frequency_hz
         total = int(system.count(cap_w)[0])
+        if total - rb > limit:
+            raise ModeLimitError(total - rb, limit, max_frequency_hz)
         targets = np.arange(rb, total)
         hi = cap_w
         requested = f"all modes up to {max_frequency_hz:.6g} Hz"

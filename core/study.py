@@ -75,15 +75,33 @@ def screening_limit_hz(train: Train, margin: float | None = None) -> float | Non
 
 
 def choose_modes(train: Train, options: StudyOptions = StudyOptions()):
-    """The modes a study shows, by the one rule in the module docstring."""
-    from .solver import natural_modes
+    """The modes a study shows, by the one rule in the module docstring.
+
+    A request for more modes than one solve returns (:func:`core.solver.mode_limit`)
+    is refused naming the option; where the screening limit holds more, the lowest
+    modes up to the limit are shown with a note.
+    """
+    from .solver import ModeLimitError, natural_modes
     if options.max_frequency_hz is not None:
-        return natural_modes(train, max_frequency_hz=options.max_frequency_hz)
+        try:
+            return natural_modes(train, max_frequency_hz=options.max_frequency_hz)
+        except ModeLimitError as exc:
+            raise ModelError(exc.message + "; ask for a lower --max-frequency", "option",
+                             "--max-frequency") from None
     if options.n_modes is not None:
-        return natural_modes(train, n_modes=options.n_modes)
+        try:
+            return natural_modes(train, n_modes=options.n_modes)
+        except ModeLimitError as exc:
+            raise ModelError(exc.message, "option", "--modes") from None
     cap = screening_limit_hz(train, options.margin)
     if cap is not None:
-        modes = natural_modes(train, max_frequency_hz=cap)
+        try:
+            modes = natural_modes(train, max_frequency_hz=cap)
+        except ModeLimitError as exc:
+            modes = natural_modes(train, n_modes=exc.limit)
+            modes.notes.append(f"{exc.count} natural frequencies lie below the screening limit "
+                               f"({cap:.6g} Hz); the lowest {exc.limit} are shown")
+            return modes
         if int(modes.elastic.sum()) >= MIN_ELASTIC_MODES or modes.complete_to_hz == float("inf"):
             return modes
         # fewer than the minimum under the limit: the lowest N hold all of them
@@ -98,6 +116,9 @@ class Study:
     ``response_error``: why the forced response could not be computed although
     amplitudes are given (a :class:`ModelError`), else None.  Views that must
     refuse (``twistwise response``) raise it; the others print it.
+    ``screening_error`` likewise for a screening that cannot be complete (more
+    modes below the screening limit than one solve returns): there is then no
+    verdict, never a PASS.
     """
 
     train: Train
@@ -106,6 +127,7 @@ class Study:
     screening: object | None = None  # core.screening.Screening
     response: object | None = None  # core.response.Response
     response_error: ModelError | None = None
+    screening_error: ModelError | None = None
     design: object | None = None
     acceptance: object | None = None
     damped: object | None = None
@@ -162,7 +184,10 @@ class Study:
 
     @property
     def passed(self) -> bool:
-        """Separation passes (or nothing was screened) and no permissible value is exceeded."""
+        """Separation passes (or nothing was screened) and no permissible value is exceeded;
+        never when the screening could not be completed."""
+        if self.screening_error is not None:
+            return False
         ok = self.screening is None or self.screening.passed
         return ok and not self.response_failed
 
@@ -189,11 +214,21 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
     notes = list(modes.notes)
     screening = None
     op = train.operating
+    screening_error = None
     if "screening" in parts and op is not None and op.excitations:
         from .screening import screen
-        screening = _timed(timings, "screening", screen, train, modes, options.margin)
-        if options.max_frequency_hz is None and options.n_modes is None:
-            modes = screening.modes  # the same set, or more when the margin option raised the limit
+        from .solver import ModeLimitError
+        try:
+            screening = _timed(timings, "screening", screen, train, modes, options.margin)
+        except ModeLimitError as exc:
+            screening_error = ModelError(
+                f"cannot screen: {exc.count} natural frequencies lie below the screening limit of "
+                f"{exc.below_hz:.6g} Hz and one solve returns at most {exc.limit} for this train; "
+                "a model this fine resolves modes no excitation needs — merge discs, or narrow the "
+                "excitations", "operating data", "excitations")
+        else:
+            if options.max_frequency_hz is None and options.n_modes is None:
+                modes = screening.modes  # the same set, or more when the margin option raised the limit
     response, response_error = None, None
     if "response" in parts and op is not None:
         from . import response as core_response
@@ -203,5 +238,5 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
                 response = _timed(timings, "response", core_response.forced_response, train, speeds)
             except ModelError as exc:
                 response_error = exc
-    return Study(train, options, modes, screening, response, response_error,
+    return Study(train, options, modes, screening, response, response_error, screening_error,
                  notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)

@@ -88,6 +88,8 @@ def run(args) -> int:
         raise ModelError("the project names no excitations to screen against", "operating data",
                          "excitations")
     study = run_study(train, StudyOptions(margin=margin, parts=frozenset({"screening", "design"})))
+    if study.screening_error is not None:
+        raise study.screening_error
     if args.json:
         print_json(screening_to_json(study))
     else:

@@ -50,7 +50,9 @@ def compute(train) -> Results:
     t0 = time.perf_counter()
     study = run_study(train)
     note = ""
-    if study.response_error is not None:
+    if study.screening_error is not None:
+        note = f"not screened: {study.screening_error}"
+    elif study.response_error is not None:
         note = f"forced response not computed: {study.response_error}"
     return Results(study, time.perf_counter() - t0, note)
 

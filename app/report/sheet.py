@@ -122,8 +122,9 @@ def compute(doc: dict, project_path=None) -> SheetData:
     """Validate the document and run the study the sheet shows (raises ModelError)."""
     from core.study import run_study
     study = run_study(build_train(doc))
-    if study.response_error is not None:
-        raise study.response_error
+    for error in (study.screening_error, study.response_error):
+        if error is not None:
+            raise error
     name, digest, note = project_hash(doc, project_path)
     return SheetData(doc, study, source_name=name, sha256=digest, hash_note=note)
 
