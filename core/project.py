@@ -27,14 +27,45 @@ class ProjectFileError(ModelError):
 
 
 # ---------------------------------------------------------------- file level
+MAX_FILE_BYTES = 256 * 1024 * 1024  # far above any real train (a 100 000-disc chain is ~15 MB)
+MAX_NESTING = 32  # a project nests a few levels deep; hostile files nest thousands
+
+
+def _nesting_depth(obj) -> int:
+    """Deepest nesting of lists and objects, without recursion."""
+    depth, stack = 0, [(obj, 1)]
+    while stack:
+        o, d = stack.pop()
+        if isinstance(o, dict):
+            o = o.values()
+        elif not isinstance(o, list):
+            continue
+        depth = max(depth, d)
+        if d > MAX_NESTING:
+            return d
+        stack.extend((v, d + 1) for v in o if isinstance(v, (dict, list)))
+    return depth
+
+
 def parse_document(text: str) -> dict:
+    if len(text) > MAX_FILE_BYTES:
+        raise ProjectFileError(f"the file is larger than {MAX_FILE_BYTES // 2 ** 20} MB; not a project",
+                               "file")
     try:
         doc = json.loads(text)
     except json.JSONDecodeError as exc:
         raise ProjectFileError(f"not valid JSON (line {exc.lineno}, column {exc.colno}: {exc.msg})",
                                "file") from None
+    except RecursionError:
+        raise ProjectFileError(f"lists or objects nested more than {MAX_NESTING} deep; not a project",
+                               "file") from None
+    except ValueError:  # an integer of thousands of digits
+        raise ProjectFileError("holds a number with thousands of digits; not a project", "file") from None
     if not isinstance(doc, dict):
         raise ProjectFileError("a project file must hold one JSON object", "file")
+    if _nesting_depth(doc) > MAX_NESTING:
+        raise ProjectFileError(f"lists or objects nested more than {MAX_NESTING} deep; not a project",
+                               "file")
     fmt = doc.get("format", FORMAT)
     if fmt != FORMAT:
         raise ProjectFileError(f"not a Twistwise project (format is {fmt!r})", "file", "format")
@@ -50,6 +81,9 @@ def parse_document(text: str) -> dict:
 def load_document(path: str | os.PathLike) -> dict:
     path = Path(path)
     try:
+        if path.stat().st_size > MAX_FILE_BYTES:
+            raise ProjectFileError(f"the file is larger than {MAX_FILE_BYTES // 2 ** 20} MB; not a project",
+                                   "file")
         text = path.read_text(encoding="utf-8")
     except FileNotFoundError:
         raise ProjectFileError("file not found", "file") from None

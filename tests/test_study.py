@@ -113,3 +113,17 @@ def test_check_on_a_too_fine_train_ends_cleanly(tmp_path):
     assert p.returncode == 2, p.stderr
     assert "operating data" in p.stderr and "excitations" in p.stderr
     assert "Traceback" not in p.stderr and len(p.stderr.strip().splitlines()) == 1
+
+
+@pytest.mark.parametrize("text, words", [
+    ("[" * 100_000 + "]" * 100_000, "nested"),  # RecursionError before (issue 10 item 9)
+    ('{"discs": ' + "[" * 40 + "]" * 40 + "}", "nested"),
+    ('{"v": ' + "9" * 5000 + "}", "digits"),  # ValueError before
+])
+def test_hostile_files_end_with_one_named_line(tmp_path, text, words):
+    path = tmp_path / "hostile.json"
+    path.write_text(text)
+    p = subprocess.run([sys.executable, "-m", "app", "check", str(path)], capture_output=True, text=True,
+                       cwd=ROOT, timeout=120)
+    assert p.returncode == 2
+    assert words in p.stderr and "file" in p.stderr and "Traceback" not in p.stderr
