@@ -119,7 +119,7 @@ def test_check_on_a_too_fine_train_ends_cleanly(tmp_path):
     ("[" * 100_000 + "]" * 100_000, "nested"),  # RecursionError before (issue 10 item 9)
     ('{"discs": ' + "[" * 40 + "]" * 40 + "}", "nested"),
     ('{"v": ' + "9" * 5000 + "}", "digits"),  # ValueError before
-])
+], ids=["deep-list", "deep-discs", "long-integer"])
 def test_hostile_files_end_with_one_named_line(tmp_path, text, words):
     path = tmp_path / "hostile.json"
     path.write_text(text)
