@@ -27,6 +27,8 @@ class ProjectFileError(ModelError):
 
 
 # ---------------------------------------------------------------- file level
+MIN_GEAR_RATIO = 1e-3  # one stage between 1:1000 and 1000:1 (real stages stay within 1:20)
+MAX_SPEED_FACTOR = 1e6  # any shaft's speed against the first disc's, over all stages
 MAX_FILE_BYTES = 256 * 1024 * 1024  # far above any real train (a 100 000-disc chain is ~15 MB)
 MAX_NESTING = 32  # a project nests a few levels deep; hostile files nest thousands
 
@@ -253,9 +255,10 @@ def _link(obj, index: int) -> Link:
                 raise ModelError("a gear mesh needs a speed_ratio (speed of 'to' / speed of 'from')",
                                  where, "speed_ratio")
             ratio = u.parse_number(obj["speed_ratio"], where, "speed_ratio")
-            if ratio <= 0:
-                raise ModelError(f"speed_ratio must be greater than zero, got {ratio:g}", where,
-                                 "speed_ratio")
+            if not MIN_GEAR_RATIO <= ratio <= 1.0 / MIN_GEAR_RATIO:
+                raise ModelError(f"speed_ratio (speed of 'to' / speed of 'from') must lie between "
+                                 f"{MIN_GEAR_RATIO:g} and {1 / MIN_GEAR_RATIO:g} for one gear stage, "
+                                 f"got {ratio:g}", where, "speed_ratio")
     c = _opt(obj, "damping", u.DAMPING, where) or 0.0
     _positive(c, where, "damping", allow_zero=True)
     scf = u.parse_number(obj.get("stress_concentration", 1.0), where, "stress_concentration")
@@ -402,6 +405,11 @@ def build_train(doc: dict) -> Train:
     discs = tuple(_disc(d, i) for i, d in enumerate(raw_discs))
     links = tuple(_link(l, i) for i, l in enumerate(raw_links))
     speed = check_topology(discs, links)
+    extreme = [d for d, f in speed.items() if not 1.0 / MAX_SPEED_FACTOR <= f <= MAX_SPEED_FACTOR]
+    if extreme:
+        raise ModelError(f"turns {speed[extreme[0]]:.3g} times as fast as '{discs[0].id}' through the gear "
+                         f"stages; more than {MAX_SPEED_FACTOR:g}:1 across a train leaves the model "
+                         "numerically meaningless", f"disc '{extreme[0]}'", "links")
     # A disc without inertia is only allowed where something gives its node mass.
     for d in discs:
         if d.inertia == 0:

@@ -192,6 +192,17 @@ class Study:
         return ok and not self.response_failed
 
 
+def _require_finite(modes) -> None:
+    """No result from a non-number: a study with a non-finite natural frequency or
+    mode shape stops here, naming what to look at."""
+    bad = ~np.isfinite(modes.frequency_hz)
+    if len(modes) and np.isfinite(modes.shape).all() and not bad.any():
+        return
+    raise ModelError("the natural frequencies are not finite numbers: a value far outside any real "
+                     "train (a huge gear ratio, stiffness or inertia) leaves the model meaningless; "
+                     "check the values entered", "train", "links")
+
+
 def _timed(timings: dict, name: str, fn, *args, **kwargs):
     t0 = time.perf_counter()
     try:
@@ -211,6 +222,7 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
     timings: dict = {}
     parts = options.parts
     modes = _timed(timings, "modes", choose_modes, train, options)
+    _require_finite(modes)
     notes = list(modes.notes)
     screening = None
     op = train.operating

@@ -127,3 +127,42 @@ def test_hostile_files_end_with_one_named_line(tmp_path, text, words):
                        cwd=ROOT, timeout=120)
     assert p.returncode == 2
     assert words in p.stderr and "file" in p.stderr and "Traceback" not in p.stderr
+
+
+@pytest.mark.parametrize("ratio", [1e308, 1e200, 1e150, 1e-200, 5000.0])
+def test_absurd_gear_ratios_are_refused_naming_the_field(ratio):
+    # issue 10 item 2: a ratio of 1e308 gave NaN frequencies and a green PASS
+    doc = two_discs()
+    doc["discs"].append({"id": "c", "inertia": "1 kg*m^2"})
+    doc["links"].append({"id": "g", "kind": "gear_mesh", "from": "b", "to": "c", "stiffness": "1 MN*m/rad",
+                         "speed_ratio": ratio})
+    with pytest.raises(ModelError) as e:
+        build_train(doc)
+    assert e.value.field == "speed_ratio" and "'g'" in e.value.element
+
+
+def test_speed_factors_across_many_stages_are_bounded():
+    doc = two_discs(operating=False)
+    prev = "b"
+    for i in range(4):  # 4 stages of 1:100 -> 1e8 across the train
+        doc["discs"].append({"id": f"g{i}", "inertia": "1 kg*m^2"})
+        doc["links"].append({"id": f"m{i}", "kind": "gear_mesh", "from": prev, "to": f"g{i}",
+                             "stiffness": "1 MN*m/rad", "speed_ratio": 100})
+        prev = f"g{i}"
+    with pytest.raises(ModelError) as e:
+        build_train(doc)
+    assert e.value.field == "links"
+
+
+def test_a_non_finite_result_stops_the_study():
+    from core.study import _require_finite
+
+    class Fake:  # a mode set with a NaN frequency, as a meaningless model would give
+        frequency_hz = np.array([0.0, np.nan])
+        shape = np.zeros((2, 2))
+
+        def __len__(self):
+            return 2
+
+    with pytest.raises(ModelError):
+        _require_finite(Fake())
