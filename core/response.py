@@ -385,18 +385,27 @@ def _families(groups: list[OrderGroup]):
 
 
 def _family_peak(A: np.ndarray, h: np.ndarray, chunk_cells: int = 2_000_000,
-                 candidates: int = 3, fine: int = 17) -> np.ndarray:
-    """max over tau of |sum_j Re(A_j exp(i h_j tau))|, A: (n_h, cols) complex, h integers.
+                 fine: int = 9, newton_steps: int = 12, pair_chunk: int = 100_000) -> np.ndarray:
+    """max over tau of |f(tau)|, f = sum_j Re(A_j exp(i h_j tau)); A: (n_h, cols) complex,
+    h coprime integers.
 
-    The signal is sampled at 8 points per period of its highest harmonic; around
-    each of the ``candidates`` largest local maxima of |f| on that grid it is
-    sampled again at ``fine`` points over +-1 grid step (the shift is a constant
-    matrix exp(i h delta), so this is one small matrix product), and the peak is
-    read off by parabolic interpolation through the three best fine samples.
-    Two nearly equal peaks therefore cannot hide the larger one.
+    1. Coarse grid: 8 samples per period of the highest harmonic H.  By Bernstein's
+       inequality for a trigonometric polynomial of degree H, |f''| <= H^2 max|f|
+       (e.g. A. Zygmund, Trigonometric Series, ch. X — from memory), so the sample
+       nearest the true maximum M (at most half a step, pi / (8 H), away) reads at
+       least M (1 - (pi/8)^2 / 2) > 0.922 M.  Every sample above 0.92 of the largest
+       sample is therefore a candidate: the true peak cannot hide among the others.
+    2. Around each candidate, ``fine`` samples over +-1 coarse step (one small
+       matrix product: the shift is a constant matrix exp(i h delta)).
+    3. From the best fine sample, safeguarded Newton steps on f'(tau) = 0 (f' and
+       f'' in closed form from the phasors) inside the bracket where f' changes
+       sign, bisecting when a step leaves it: converges quadratically to the
+       maximum, to rounding (checked against an independent dense maximisation;
+       parabolic interpolation alone read up to 7e-6 low).
     """
     n_h, cols = A.shape
-    n_t = max(16, 8 * int(h.max()))
+    H = int(h.max())
+    n_t = max(16, 8 * H)
     dt = TWO_PI / n_t
     tau = np.arange(n_t) * dt
     table = np.exp(1j * h[None, :] * tau[:, None])  # (n_t, n_h)
@@ -404,31 +413,55 @@ def _family_peak(A: np.ndarray, h: np.ndarray, chunk_cells: int = 2_000_000,
     delta = np.linspace(-dt, dt, fine)
     P = np.exp(1j * h[:, None] * delta[None, :])  # (n_h, fine)
     Pr, Pi = P.real, P.imag
-    out = np.empty(cols)
+    hf = h.astype(float)[:, None]
+    out = np.zeros(cols)
     step = max(1, chunk_cells // n_t)
-    kc = min(candidates, n_t)
     for c0 in range(0, cols, step):  # sequential: the matrix products already use BLAS threads
         a = A[:, c0:c0 + step]
         ch = a.shape[1]
-        # coarse grid in single precision: it only picks the candidates
+        # coarse grid in single precision: it only picks the candidates (slack for rounding)
         S = np.abs(np.concatenate([a.real, a.imag], axis=0).T.astype(np.float32) @ E.T)  # (ch, n_t)
-        r = np.arange(ch)
-        j = []
-        for _ in range(kc):  # largest sample, then the largest away from the ones taken
-            jc = np.argmax(S, axis=1)
-            j.append(jc)
-            for off in (-2, -1, 0, 1, 2):
-                S[r, (jc + off) % n_t] = -1.0
+        slack = 1e-5 * np.abs(a).sum(0)
+        thr = 0.92 * S.max(axis=1) - slack
+        ci, ki = np.nonzero(S >= thr[:, None])
         best = np.zeros(ch)
-        for c in range(len(j)):
-            B = a * table[j[c]].T  # phasors shifted to the candidate grid point (n_h, ch)
-            F = np.abs(B.real.T @ Pr - B.imag.T @ Pi)  # (ch, fine)
-            m = np.clip(np.argmax(F, axis=1), 1, fine - 2)
-            y0, y1, y2 = F[r, m - 1], F[r, m], F[r, m + 1]
-            den = y0 - 2 * y1 + y2
-            shift = np.divide(y0 - y2, 2 * den, out=np.zeros(ch), where=den < 0)
-            peak = np.where(np.abs(shift) <= 1, y1 - 0.25 * (y0 - y2) * shift, y1)
-            best = np.maximum(best, np.maximum(peak, F.max(axis=1)))
+        for p0 in range(0, len(ci), pair_chunk):
+            c, k = ci[p0:p0 + pair_chunk], ki[p0:p0 + pair_chunk]
+            B = a[:, c] * table[k].T  # phasors shifted to the candidate grid point (n_h, n_p)
+            Fs = B.real.T @ Pr - B.imag.T @ Pi  # (n_p, fine) signed signal
+            r = np.arange(len(c))
+            m = np.argmax(np.abs(Fs), axis=1)
+            sgn = np.sign(Fs[r, m])
+            sgn = np.where(sgn == 0, 1.0, sgn)
+            lo = delta[np.maximum(m - 1, 0)]
+            hi = delta[np.minimum(m + 1, fine - 1)]
+            t = delta[m].copy()
+            f = np.abs(Fs[r, m])
+            # a candidate whose best fine sample (spacing dt/4) is more than (pi/16)^2/8
+            # below the column's best cannot hold the maximum (same bound): drop it
+            np.maximum.at(best, c, f)
+            act = np.flatnonzero(f >= (1.0 - 0.0049) * best[c] - slack[c])
+            for _ in range(newton_steps):
+                if not len(act):
+                    break
+                ta = t[act]
+                z = B[:, act] * np.exp(1j * hf * ta[None, :])
+                f[act] = np.maximum(f[act], np.abs(z.real.sum(0)))
+                d1 = sgn[act] * -(hf * z).imag.sum(0)  # slope of sgn * f
+                d2 = sgn[act] * -(hf * hf * z).real.sum(0)
+                # the maximum of sgn * f lies where its slope turns negative
+                lo[act] = np.where(d1 > 0, np.maximum(lo[act], ta), lo[act])
+                hi[act] = np.where(d1 < 0, np.minimum(hi[act], ta), hi[act])
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    tn = ta - d1 / d2
+                bad = ~np.isfinite(tn) | (d2 >= 0) | (tn <= lo[act]) | (tn >= hi[act])
+                tn = np.where(bad, 0.5 * (lo[act] + hi[act]), tn)
+                t[act] = tn
+                moving = np.abs(tn - ta) > 1e-13 * TWO_PI / H
+                act = act[moving]
+            z = B * np.exp(1j * hf * t[None, :])
+            f = np.maximum(f, np.abs(z.real.sum(0)))
+            np.maximum.at(best, c, f)
         out[c0:c0 + step] = best
     return out
 
