@@ -60,6 +60,9 @@ class Link:
     stress_concentration: float = 1.0
     permissible_torque: float | None = None  # N*m, vibratory amplitude
     permissible_stress: float | None = None  # Pa, vibratory shear amplitude
+    # acceptance data (core.ratings.LinkRatings): coupling ratings, fatigue and shafting
+    # rule settings, transient permissible values; None when the project gives none
+    ratings: object | None = None
 
     @property
     def is_rigid(self) -> bool:
@@ -134,6 +137,7 @@ class Train:
     links: tuple[Link, ...]
     operating: Operating | None = None
     speed_factor: dict = field(default_factory=dict, compare=False)
+    load_cases: tuple = ()  # core.loads.LoadCase, in file order
 
     def disc(self, disc_id: str) -> Disc:
         for d in self.discs:
