@@ -46,7 +46,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from . import shafting as sh
-from .bands import OPERATING, OVERSPEED, TRANSIENT, speed_bands
+from .bands import OPERATING, OVERSPEED, TRANSIENT, band_of, speed_bands
 from .loads import LoadCase, link_shaft_speed, load_case_train, power_flow, reference_torque
 from .response import Response, forced_response
 
@@ -701,7 +701,7 @@ def _hammer_specs(ctx, li, link, acc: Acceptance, refine: bool) -> list:
         return ctx.vib(r, li), np.abs(ctx.mean(li, s))
 
     grid = ratio(ctx.resp, speed)
-    everywhere = np.flatnonzero(np.isin(speed, speed))  # ranges over every computed speed
+    everywhere = np.flatnonzero(band_of(speed, acc.bands) != "")  # every speed the train runs at
     found = _ranges(ctx, ratio, speed, everywhere, grid)
     edges = [x[k] for x in found for k in ("low_spec", "high_spec") if x[k] is not None]
     if refine:
@@ -797,8 +797,9 @@ def acceptance_argument(screening, acceptance: Acceptance | None) -> Argument:
     carries no amplitude, or no limit is given).
 
     A mode within the margin of lines whose amplitudes the forced response includes is
-    accepted when every check in the bands where it is met passes (the band of the
-    crossing speed, else of the speed of smallest separation).  Why separation is not
+    accepted when every check of the operating range passes (separation is judged over
+    the operating range; resonances passed through while starting are judged by the
+    checks of the other bands, which the acceptance verdict includes).  Why separation is not
     met is said per mode: a line crosses it inside a variable-speed range; it lies in a
     crowded zone where several lines overlap within the margin (the half orders of a
     four-stroke engine lie half the rotational frequency apart — 12.5 Hz at 1 500 rpm
@@ -849,12 +850,8 @@ def acceptance_argument(screening, acceptance: Acceptance | None) -> Argument:
             out.append(ModeArgument(mode, f, "open", labels, reason + "; no forced response covers every "
                                     "line within the margin (give their amplitudes)", (), near))
             continue
-        bands_hit = set()
-        for c in fails:
-            s = c.crossing_speed if c.crossing_speed is not None else c.worst_speed
-            hit = [b.name for b in acceptance.bands if b.contains(s)]
-            bands_hit.add(OPERATING if OPERATING in hit or not hit else hit[0])
-        relevant = [ch for ch in acceptance.checks if ch.speed_band in bands_hit
+        # separation is a matter of the operating range: the checks there carry the argument
+        relevant = [ch for ch in acceptance.checks if ch.speed_band == OPERATING
                     and ch.criterion not in STEADY_CRITERIA]
         if not relevant:
             out.append(ModeArgument(mode, f, "open", labels, reason + "; no limit is given to judge the "
