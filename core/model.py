@@ -61,6 +61,9 @@ class Link:
     permissible_torque: float | None = None  # N*m, vibratory amplitude
     permissible_stress: float | None = None  # Pa, vibratory shear amplitude
     name: str = ""  # as shown to people; the id where empty
+    # acceptance data (core.ratings.LinkRatings): coupling ratings, fatigue and shafting
+    # rule settings, transient permissible values; None when the project gives none
+    ratings: object | None = None
 
     @property
     def label(self) -> str:
@@ -139,6 +142,7 @@ class Train:
     links: tuple[Link, ...]
     operating: Operating | None = None
     speed_factor: dict = field(default_factory=dict, compare=False)
+    load_cases: tuple = ()  # core.loads.LoadCase, in file order
 
     def disc(self, disc_id: str) -> Disc:
         for d in self.discs:

@@ -15,6 +15,7 @@ from pathlib import Path
 from . import units as u
 from .errors import ModelError
 from .materials import LIBRARY, Material
+from .ratings import attach_ratings
 from .model import (LINK_KINDS, MASS_MODELS, Disc, Excitation, Link, Operating,
                     Order, Segment, Train, check_topology)
 
@@ -427,4 +428,5 @@ def build_train(doc: dict) -> Train:
                                  "of one excitation must be on the same shaft",
                                  f"excitation '{e.name}' cylinder {i + 1}", "at")
     title = doc.get("title")
-    return Train(str(title) if title else "Untitled train", discs, links, operating, speed)
+    train = Train(str(title) if title else "Untitled train", discs, links, operating, speed)
+    return attach_ratings(doc, train)  # acceptance data and load cases (core.ratings)

@@ -166,12 +166,36 @@ class Study:
         return tuple(response_summary(self.response))
 
     @cached_property
+    def band_peaks(self) -> tuple:
+        """Peaks of every link in every speed band (start-up/run-down, operating, overspeed),
+        polished between computed speeds (:func:`core.response.band_peaks`), on first use."""
+        if self.response is None:
+            return ()
+        from .response import band_peaks
+        return tuple(band_peaks(self.response))
+
+    @cached_property
     def exceedances(self) -> tuple:
         """Permissible values exceeded, worst first (:func:`core.response.exceedances`)."""
         if self.response is None:
             return ()
         from .response import exceedances
         return tuple(exceedances(self.response))
+
+    # ------------------------------------------------------------- acceptance
+    @cached_property
+    def argument(self):
+        """The acceptance argument the trade makes (:func:`core.acceptance.acceptance_argument`):
+        separation for the modes that can be kept clear, the forced response against the limits
+        for the rest, each mode named; None without a screening."""
+        if self.screening is None:
+            return None
+        from .acceptance import acceptance_argument
+        return acceptance_argument(self.screening, self.acceptance)
+
+    @property
+    def acceptance_failed(self) -> bool:
+        return self.acceptance is not None and self.acceptance.passed is False
 
     # ------------------------------------------------------------- verdicts
     @property
@@ -184,12 +208,12 @@ class Study:
 
     @property
     def passed(self) -> bool:
-        """Separation passes (or nothing was screened) and no permissible value is exceeded;
-        never when the screening could not be completed."""
+        """Separation passes (or nothing was screened) and no permissible value is exceeded
+        and no acceptance check fails; never when the screening could not be completed."""
         if self.screening_error is not None:
             return False
         ok = self.screening is None or self.screening.passed
-        return ok and not self.response_failed
+        return ok and not self.response_failed and not self.acceptance_failed
 
 
 def _require_finite(modes) -> None:
@@ -250,5 +274,9 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
                 response = _timed(timings, "response", core_response.forced_response, train, speeds)
             except ModelError as exc:
                 response_error = exc
+    acceptance = None
+    if "acceptance" in parts and response is not None:
+        from .acceptance import analyse_acceptance
+        acceptance = _timed(timings, "acceptance", analyse_acceptance, train, response)
     return Study(train, options, modes, screening, response, response_error, screening_error,
-                 notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)
+                 acceptance=acceptance, notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)

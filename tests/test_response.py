@@ -371,8 +371,12 @@ def test_default_speeds_include_resonance_crossings():
     train = build_train(two_disc_doc(c_rel=0.5))
     r = forced_response(train)
     op = train.operating
-    assert r.speed[0] == pytest.approx(op.speed_min * (1 - op.margin))
-    assert r.speed[-1] == pytest.approx(op.speed_max * (1 + op.margin))
+    # the speed bands (issue 12): from near standstill (1 % of the top speed: start-up and
+    # run-down) to the top of the range widened by the margin (no trip speed given)
+    top = op.speed_max * (1 + op.margin)
+    assert r.speed[0] == pytest.approx(0.01 * top)
+    assert r.speed[-1] == pytest.approx(top)
+    assert op.speed_min in r.speed and op.speed_max in r.speed
     wn = 2 * math.pi * natural_modes(train, n_modes=1).frequency_hz[-1]
     assert np.any(np.isclose(r.speed, wn / 2, rtol=1e-12))  # order 2 crossing is a grid point
 

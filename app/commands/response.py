@@ -12,6 +12,7 @@ from core.about import CAUTION
 from core.errors import ModelError
 
 from .. import formatting as fmt
+from .. import wording
 from .common import EXIT_FAIL, EXIT_OK, finite, load_train, print_json
 
 RPM = 2.0 * math.pi / 60.0  # rad/s per rpm
@@ -65,7 +66,12 @@ def add_parser(sub):
     return r
 
 
-def response_to_json(resp, peaks, over) -> dict:
+def response_to_json(study) -> dict:
+    resp, peaks, over = study.response, list(study.response_peaks), list(study.exceedances)
+    acc = None
+    if study.acceptance is not None:
+        from core.acceptance import acceptance_json
+        acc = acceptance_json(study.acceptance)
     op = resp.train.operating
     links = {}
     for i, lid in enumerate(resp.link_ids):
@@ -84,10 +90,12 @@ def response_to_json(resp, peaks, over) -> dict:
                        for g, label in enumerate(resp.orders)},
             "peak": _peak_json(pk),
         }
+        if acc is not None:
+            links[lid]["mean_torque_nm"] = acc["mean_torque_nm"].get(lid, {})
     discs = {d: {"angle_amplitude_rad": _list(resp.disc_angle[j]),
                  "dissipated_power_w": _list(resp.disc_power[j])}
              for j, d in enumerate(resp.disc_ids)}
-    return {
+    out = {
         "title": resp.train.title,
         "reference": op.reference,
         "operating_speed_rpm": {"min": fmt.rad_s_to_rpm(op.speed_min), "max": fmt.rad_s_to_rpm(op.speed_max)},
@@ -101,17 +109,35 @@ def response_to_json(resp, peaks, over) -> dict:
         "links": links,
         "discs": discs,
         "peaks": [dict(link=p.link_id, **_peak_json(p)) for p in peaks],
+        "band_peaks": [{"link": b.link_id, "speed_band": b.band, "quantity": b.quantity,
+                        "combination": b.combination, "peak": _num(b.peak), "speed_rpm": _rpm(b.speed)}
+                       for b in study.band_peaks],
         "exceedances": [{"link": e.link_id, "quantity": e.quantity,
                          "peak": e.peak, "permissible": e.permissible,
                          "unit": "N*m" if e.quantity == "torque" else "Pa",
                          "ratio": e.ratio, "speed_rpm": _rpm(e.speed),
                          "exceeded_from_rpm": _rpm(e.speed_band[0]),
-                         "exceeded_to_rpm": _rpm(e.speed_band[1])} for e in over],
-        "verdict": "fail" if over else ("pass" if any(p.passed is not None for p in peaks)
-                                        else "no permissible values given"),
-        "notes": list(resp.notes),
+                         "exceeded_to_rpm": _rpm(e.speed_band[1]), "speed_band": e.band,
+                         "limit_basis": e.limit_basis} for e in over],
+        "verdict": _verdict(study),
+        "notes": list(resp.notes) + ([] if acc is None else acc["notes"]),
         "caution": CAUTION,
     }
+    if acc is not None:
+        out.update({k: acc[k] for k in ("checks", "barred_speed_ranges", "gear_hammer_ranges", "speed_bands")})
+        out["acceptance_passed"] = acc["passed"]
+        out["load_cases"] = [lc.name for lc in study.acceptance.load_cases]
+    return out
+
+
+def _verdict(study) -> str:
+    peaks = study.response_peaks
+    if study.exceedances or study.acceptance_failed:
+        return "fail"
+    if any(p.passed is not None for p in peaks) or (study.acceptance is not None
+                                                     and study.acceptance.checks):
+        return "pass"
+    return "no permissible values given"
 
 
 def _peak_json(p) -> dict:
@@ -128,6 +154,7 @@ def _peak_json(p) -> dict:
         "permissible_stress_pa": p.permissible_stress,
         "peak_power_w": _num(p.peak_power),
         "passed": p.passed,
+        "speed_band": p.band or None,
     }
 
 
@@ -135,16 +162,17 @@ def _status(p) -> str:
     return "—" if p.passed is None else ("PASS" if p.passed else "FAIL")
 
 
-def print_table(resp, peaks, over, path: str) -> None:
+def print_table(study, path: str) -> None:
+    resp, peaks, over = study.response, list(study.response_peaks), list(study.exceedances)
     train = resp.train
     op = train.operating
     rpm = resp.speed_rpm
     print(f"{train.title} — {path}")
     print(f"Damped forced response, {len(rpm)} speeds {rpm[0]:.0f}–{rpm[-1]:.0f} rpm of "
-          f"'{op.reference}' (operating range {fmt.rpm(op.speed_min)}–{fmt.rpm(op.speed_max)} rpm), "
-          f"{len(resp.orders)} excitation orders with amplitudes")
+          f"'{train.name_of(op.reference)}' (operating range {fmt.rpm(op.speed_min)}–{fmt.rpm(op.speed_max)} "
+          f"rpm), {len(resp.orders)} excitation orders with amplitudes")
     print("Vibratory amplitudes are the sum over orders (conservative); 'phased' is the peak of the "
-          "summed time signal.")
+          "summed time signal.  Peaks below are those of the operating range.")
     head = (f"{'link':<20} {'kind':<9} {'torque kN*m':>11} {'phased':>8} {'at rpm':>7} {'perm.':>8}  "
             f"{'stress MPa':>10} {'phased':>7} {'at rpm':>7} {'perm.':>7}  {'power kW':>8}  status")
     print(head)
@@ -152,7 +180,7 @@ def print_table(resp, peaks, over, path: str) -> None:
     for p in peaks:
         stress = p.peak_stress is not None
         power = fmt.power_kw(p.peak_power) if lossy[p.link_id] else "—"
-        print(f"{p.link_id[:20]:<20} {p.kind:<9} {fmt.torque_knm(p.peak_torque):>11} "
+        print(f"{train.name_of(p.link_id)[:20]:<20} {p.kind:<9} {fmt.torque_knm(p.peak_torque):>11} "
               f"{fmt.torque_knm(p.peak_torque_phased):>8} {fmt.rpm(p.speed_at_peak_torque):>7} "
               f"{fmt.torque_knm(p.permissible_torque):>8}  "
               f"{fmt.stress_mpa(p.peak_stress) if stress else '—':>10} "
@@ -161,18 +189,43 @@ def print_table(resp, peaks, over, path: str) -> None:
               f"{fmt.stress_mpa(p.permissible_stress):>7}  {power:>8}  {_status(p)}")
     for n in resp.notes:
         print(f"Note: {n}")
-    if over:
-        print(f"Verdict: FAIL — {len(over)} permissible value{'s' if len(over) > 1 else ''} exceeded:")
+    acc = study.acceptance
+    if acc is not None and acc.checks:
+        print()
+        cases = ", ".join(lc.name for lc in acc.load_cases) or "no load case (vibratory limits only)"
+        print(f"Acceptance checks ({cases}), worst first:")
+        w = max(9, min(28, max(len(c.load_case or "—") for c in acc.checks)))
+        print(f"{'link':<20} {'criterion':<42} {'load case':<{w}} {'speed band':<19} {'use %':>6} "
+              f"{'at rpm':>7}  status")
+        for c in acc.worst_first():
+            print(f"{train.name_of(c.link)[:20]:<20} {wording.criterion(c.criterion)[:42]:<42} "
+                  f"{(c.load_case or '—')[:w]:<{w}} {wording.speed_band(c.speed_band):<19} "
+                  f"{fmt.percent(c.utilisation):>6} {fmt.rpm(c.at):>7}  {'PASS' if c.passed else 'FAIL'}")
+        for r in acc.barred_ranges:
+            print(f"Barred speed range ({train.name_of(r.link)}): {r.low_rpm:.0f}–{r.high_rpm:.0f} rpm")
+        for r in acc.hammer_ranges:
+            print(f"Gear hammer ({train.name_of(r.link)}, {r.load_case}): vibratory above mean torque "
+                  f"{r.low_rpm:.0f}–{r.high_rpm:.0f} rpm")
+        for n in acc.notes:
+            print(f"Note: {n}")
+    failed = [c for c in acc.checks if not c.passed] if acc is not None else []
+    if over or failed:
+        n = len(over) + len(failed)
+        print(f"Verdict: FAIL — {n} limit{'s' if n > 1 else ''} exceeded:")
         for e in over:
             if e.quantity == "torque":
                 val, lim, unit = fmt.torque_knm(e.peak), fmt.torque_knm(e.permissible), "kN*m"
             else:
                 val, lim, unit = fmt.stress_mpa(e.peak), fmt.stress_mpa(e.permissible), "MPa"
-            print(f"  {e.link_id}: vibratory {e.quantity} {val} {unit} > permissible {lim} {unit} "
-                  f"at {fmt.rpm(e.speed)} rpm (exceeded {fmt.rpm(e.speed_band[0])}–"
+            band = wording.speed_band(e.band) if e.band else "computed speeds"
+            print(f"  {train.name_of(e.link_id)}: vibratory {e.quantity} {val} {unit} > permissible {lim} {unit} "
+                  f"at {fmt.rpm(e.speed)} rpm ({band}; exceeded {fmt.rpm(e.speed_band[0])}–"
                   f"{fmt.rpm(e.speed_band[1])} rpm)")
-    elif any(p.passed is not None for p in peaks):
-        print("Verdict: PASS — no permissible vibratory torque or stress is exceeded at the speeds computed.")
+        for c in failed:
+            print(f"  {train.name_of(c.link)}: {wording.criterion(c.criterion)} at {fmt.percent(c.utilisation)} % of its limit, "
+                  f"{fmt.rpm(c.at)} rpm ({wording.speed_band(c.speed_band)})")
+    elif any(p.passed is not None for p in peaks) or (acc is not None and acc.checks):
+        print("Verdict: PASS — no permissible value is exceeded at the speeds computed.")
     else:
         print("Verdict: none — no link has a permissible vibratory torque or stress.")
     print(CAUTION)
@@ -193,9 +246,8 @@ def run(args) -> int:
         raise ModelError("no excitation carries an amplitude; give orders as {\"order\": 3, "
                          "\"amplitude\": \"1.2 kN*m\"} for a forced response", "operating data",
                          "excitations")
-    resp, peaks, over = study.response, list(study.response_peaks), list(study.exceedances)
     if args.json:
-        print_json(response_to_json(resp, peaks, over))
+        print_json(response_to_json(study))
     else:
-        print_table(resp, peaks, over, args.file)
-    return EXIT_FAIL if over else EXIT_OK
+        print_table(study, args.file)
+    return EXIT_FAIL if (study.exceedances or study.acceptance_failed) else EXIT_OK
