@@ -206,6 +206,13 @@ _UNIT_ALIASES = {"r/min": "rev/min"}
 # unit names refused with the spelling meant (pint would read 'Nm' as a wavenumber unit)
 _MISSPELLED = {f"{p}Nm": f"{p}N*m" for p in ("", "k", "M", "G", "m")}
 _MISSPELLED.update({f"{p}Nms": f"{p}N*m*s" for p in ("", "k")})
+_MISSPELLED["rads"] = "rad"        # pint: the radiation dose unit
+
+# unit names that mean different things to different readers
+_AMBIGUOUS_NAMES = {
+    name: "a metric tonne (1000 kg) or a short ton (907.18474 kg)? write t for the metric tonne"
+    for name in ("ton", "tons")
+}
 
 _PINT_BASES = {"meter": "m", "gram": "kg", "second": "s", "ampere": "A", "kelvin": "K",
                "mole": "mol", "candela": "cd", "radian": "rad"}
@@ -259,6 +266,8 @@ def _atom(name: str):
         return hit
     if name in _MISSPELLED:
         raise _Refused(f"'{name}' is not read as a unit")
+    if name in _AMBIGUOUS_NAMES:
+        raise _Refused(f"the unit '{name}' is ambiguous", _AMBIGUOUS_NAMES[name])
     hit = _pint_atom(name)
     if hit is None:
         near = [k for k in builtin_units() if k.casefold() == name.casefold()]
@@ -438,7 +447,7 @@ def _resolve_unit(unit: str):
             _resolved.clear()
         _resolved[unit] = hit
     if isinstance(hit, _Refused):
-        raise hit
+        raise type(hit)(hit.message, hit.hint)  # a fresh exception: no traceback piles up
     return hit
 
 
@@ -464,11 +473,14 @@ def _factor(unit: str, kind: Kind) -> tuple[float, float, float]:
     hit = cache.get(unit)
     if hit is not None:
         return hit
+    if unit == "":  # a bare number is in the kind's SI unit
+        cache[unit] = (1.0, 1.0, 1.0)
+        return cache[unit]
     frac, pi, dims = _resolve_unit(unit)
     kfrac, kpi, kdims = _resolve_unit(kind.si_unit)
-    if unit and _without_angle(dims) != _without_angle(kdims):
+    if _without_angle(dims) != _without_angle(kdims):
         raise _Refused(f"wrong kind of unit for {kind.name} (example: '{kind.example}')")
-    if unit and _angle(dims) == 0 and _angle(kdims) != 0 and _without_angle(kdims) in ((("s", -1),), ()):
+    if _angle(dims) == 0 and _angle(kdims) != 0 and _without_angle(kdims) in ((("s", -1),), ()):
         raise _AngleMissing("names no angle")
     ratio, pi = frac / kfrac, pi - kpi
     num, den = ratio.numerator, ratio.denominator
@@ -488,9 +500,8 @@ _NUMBER = r"[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?"
 _FAST = re.compile(rf"({_NUMBER})\s*(.*)", re.DOTALL)
 _NUMBER_AT = re.compile(_NUMBER)
 _NON_FINITE = re.compile(r"[+-]?(?:[nN][aA][nN]|[iI][nN][fF](?:[iI][nN][iI][tT][yY])?)(?![A-Za-z])")
-_SEPARATOR_CHARS = ".,'\u2019\u00a0\u2009\u202f\u2007\u2008\u200a "
-_BLOB = re.compile(r"[+-]?[0-9]*(?:[.,'\u2019\u00a0\u2009\u202f\u2007\u2008\u200a ][0-9]+)*")
-_SEPARATOR_NAMES = {",": "comma", ".": "point", "'": "apostrophe", "\u2019": "apostrophe",
+_BLOB = re.compile(r"[+-]?[0-9]*(?:[_.,'\u2019\u00a0\u2009\u202f\u2007\u2008\u200a ][0-9]+)*")
+_SEPARATOR_NAMES = {",": "comma", ".": "point", "'": "apostrophe", "\u2019": "apostrophe", "_": "underscore",
                     " ": "space", "\u00a0": "no-break space", "\u2009": "thin space",
                     "\u202f": "narrow no-break space", "\u2007": "figure space",
                     "\u2008": "punctuation space", "\u200a": "hair space"}
@@ -541,9 +552,9 @@ def _separator_problem(blob: str, tail: str, text: str) -> str | None:
         names = "/".join(sorted({_SEPARATOR_NAMES[c] for c in group_seps}))
         what = "digit-group separators" + (" and a decimal comma" if decimal == "," else "")
         return f"{what} are not read ('{shown}', {names}); write {written(int_groups, frac)}"
-    if kinds == {"space"} and not decimal:
-        first, second = groups[0], groups[1]
-        return (f"two numbers in a row ('{shown}': {sign}{first} and {second}); "
+    if any(c.isspace() for c in seps):
+        first, second = blob.split()[:2]
+        return (f"two numbers in a row ('{shown}': {first} and {second}); "
                 f"give one number, then its unit")
     if set(seps) == {"."}:
         return f"more than one decimal point ('{shown}'); write one number with one decimal point"
@@ -577,6 +588,10 @@ def _split(text: str) -> tuple[str, str]:
         raise _Refused(f"a number has at most {MAX_DIGITS} digits ('{_show(text)}')")
     rest = text[m.end():]
     lead = rest.lstrip()
+    if rest[:1] in (",", "'", "\u2019", "_"):
+        after = rest[1:].strip()
+        raise _Refused(f"{_a(_SEPARATOR_NAMES[rest[0]])} after the number is not read ('{_show(text)}'); "
+                       f"write {number}{' ' + after if after else ''}")
     if lead:
         op = re.match(r"(\*\*|\^|\*|/|x|\u00d7|\u00b7|\u22c5)\s*[-+(.0-9]", lead)
         unit_one = re.match(r"1\s*/\s*[A-Za-z_(\u00b5\u03bc\u00b0]", lead)
@@ -617,8 +632,8 @@ def _json_number(value, unit: str) -> float:
     """A number from JSON (int or float), bounded."""
     if isinstance(value, int):
         if not -_MAX_INT <= value <= _MAX_INT:
-            digits = len(str(abs(value))) if abs(value).bit_length() < 20000 else "thousands of"
-            raise _Refused(f"a whole number of {digits} digits is beyond the range read "
+            digits = int(abs(value).bit_length() * math.log10(2)) + 1
+            raise _Refused(f"a whole number of about {digits} digits is beyond the range read "
                            f"(magnitudes up to {MAX_MAGNITUDE:g}{' ' + unit if unit else ''})")
         value = float(value)
     if not math.isfinite(value):
