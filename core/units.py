@@ -22,12 +22,13 @@ that shows the reading the user probably meant ("write 1.5 MN*m/rad"), or both
 readings where two are possible ("1,500 rpm" may be 1500 or 1.5).  A text is
 at most ``MAX_TEXT`` characters and a number at most ``MAX_DIGITS`` digits.
 
-Bounds: every value read (any kind, and plain numbers) is finite and either
-zero or between ``MIN_MAGNITUDE`` and ``MAX_MAGNITUDE`` in SI units.  No
-quantity of a drive train comes within many decades of 1e-30 or 1e30, and the
-bound keeps products of values (J*omega^2, k*theta^2, ratio^2) far from float
-overflow.  Ranges that are physically meaningful for one field (a speed ratio,
-a margin) are the business of the caller, which knows the field.
+Bounds: every value read (any kind, and plain numbers) is finite and at most
+``MAX_MAGNITUDE`` (1e30) in size in SI units, and a non-zero number never reads
+as zero (``1e-400`` is refused, not rounded to 0).  No quantity of a drive train
+comes within many decades of 1e30, and the bound keeps products of values
+(J*omega^2, k*theta^2, ratio^2) far from float overflow.  Ranges that are
+physically meaningful for one field (a speed ratio, a margin) are the business
+of the caller, which knows the field.
 
 Speeds and frequencies: pint treats a revolution as 2*pi radians, but its
 ``hertz`` is plain 1/s.  A driveline engineer reads 60 rpm and 1 Hz as the same
@@ -59,7 +60,6 @@ MAX_DIGITS = 40         # digits in one number
 MAX_POWER = 9           # largest |exponent| of a unit (m^3, s^-2)
 MAX_NESTING = 4         # parentheses inside a unit
 MAX_MAGNITUDE = 1e30    # in SI units, any kind
-MIN_MAGNITUDE = 1e-30   # smallest non-zero magnitude in SI units
 _MAX_INT = 10 ** 30
 
 
@@ -277,7 +277,8 @@ def _atom(name: str):
 
 
 # ---------------------------------------------------------------- unit expressions
-_UNIT_TOKEN = re.compile(r"(?P<sp>\s+)|(?P<name>[A-Za-z_\u00b5\u03bc\u00b0%]+)|(?P<op>\*\*|[*/^()])"
+_UNIT_TOKEN = re.compile(r"(?P<sp>\s+)|(?P<name>[A-Za-z\u00b5\u03bc\u00b0][A-Za-z_\u00b5\u03bc\u00b0]*|%)"
+                         r"|(?P<op>\*\*|[*/^()])"
                          r"|(?P<int>[+-]?[0-9]+)")
 _SUPERSCRIPT = str.maketrans("\u2070\u00b9\u00b2\u00b3\u2074\u2075\u2076\u2077\u2078\u2079\u207b",
                              "0123456789-")
@@ -610,21 +611,24 @@ def _number(number: str, text: str) -> float:
     x = float(number)
     if not math.isfinite(x):
         raise _Refused(f"not a finite number ('{_show(text)}' is beyond the floating-point range)")
-    if x == 0.0 and any(c in "123456789" for c in re.split("[eE]", number)[0]):
-        raise _Refused(f"'{_show(text)}' is below the smallest magnitude read "
-                       f"({MIN_MAGNITUDE:g} in SI units); write 0 if zero is meant")
     return x
 
 
-def _bounded(x: float, text, unit: str) -> float:
+def _zero(number: str) -> bool:
+    """Whether the number as written is zero (its mantissa has no digit other than 0)."""
+    return not any(c in "123456789" for c in re.split("[eE]", number)[0])
+
+
+def _bounded(x: float, text, unit: str, typed_zero: bool = True) -> float:
+    """``x`` if finite and within MAX_MAGNITUDE; a non-zero number must not read as zero."""
     if x == 0.0:
+        if not typed_zero:
+            raise _Refused(f"'{_show(str(text))}' is too small to be represented (it would read "
+                           f"as 0); write 0 if zero is meant")
         return 0.0
     if not math.isfinite(x) or abs(x) > MAX_MAGNITUDE:
         raise _Refused(f"'{_show(str(text))}' is beyond the range read (magnitudes up to "
                        f"{MAX_MAGNITUDE:g}{' ' + unit if unit else ''})")
-    if abs(x) < MIN_MAGNITUDE:
-        raise _Refused(f"'{_show(str(text))}' is below the smallest magnitude read ("
-                       f"{MIN_MAGNITUDE:g}{' ' + unit if unit else ''}); write 0 if zero is meant")
     return x
 
 
@@ -676,7 +680,7 @@ def _read_quantity(text: str, kind: Kind) -> float:
         hint = exc.hint or f"example: '{kind.example}'"
         raise _Refused(f"{exc.message} in '{_show(text)}' ({hint})") from None
     x = _number(number, text) * mul / div * turn
-    return _bounded(x, text, kind.si_unit)
+    return _bounded(x, text, kind.si_unit, _zero(number))
 
 
 def _fail(exc: _Refused, element, field):
@@ -706,7 +710,7 @@ def parse(value, kind: Kind, element: str | None = None, field: str | None = Non
                     x = float(number) * hit[0] / hit[1] * hit[2]
                 except ValueError:
                     x = 0.0
-                if MIN_MAGNITUDE <= abs(x) <= MAX_MAGNITUDE:
+                if 0.0 < abs(x) <= MAX_MAGNITUDE:  # zero: was it written as zero?
                     return x
             # 2) "45mm", " 45 mm": the grammar's number by a regular expression
             if len(value) <= MAX_TEXT:
@@ -715,13 +719,13 @@ def parse(value, kind: Kind, element: str | None = None, field: str | None = Non
                     hit = cache.get(m[2])
                     if hit is not None:
                         x = float(m[1]) * hit[0] / hit[1] * hit[2]
-                        if MIN_MAGNITUDE <= abs(x) <= MAX_MAGNITUDE:
+                        if 0.0 < abs(x) <= MAX_MAGNITUDE:  # zero: was it written as zero?
                             return x
         try:
             return _read_quantity(value, kind)
         except _Refused as exc:
             _fail(exc, element, field)
-    if type(value) is float and MIN_MAGNITUDE <= abs(value) <= MAX_MAGNITUDE:
+    if type(value) is float and abs(value) <= MAX_MAGNITUDE:  # NaN and inf fail the test
         return value
     if type(value) is int and -_MAX_INT <= value <= _MAX_INT:
         return float(value)
@@ -757,7 +761,7 @@ def _plain(value, element, field, what: str, allow_percent: bool) -> tuple[float
             if percent:
                 raise _Refused(f"'{_show(text)}': this field takes a plain number, not a percentage")
             raise _Refused(f"expected {what} without a unit, got '{_show(text)}'")
-        return _bounded(_number(number, text), text, ""), percent
+        return _bounded(_number(number, text), text, "", _zero(number)), percent
     except _Refused as exc:
         _fail(exc, element, field)
 
