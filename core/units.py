@@ -365,8 +365,8 @@ class _UnitParser:
                 end = self._level_end()
                 a = f"({self.unit[start:op[2]].strip()}){self.unit[op[2]:end].strip()}"
                 b = f"{self.unit[start:slash + 1].strip()}({self.unit[slash + 1:end].strip()})"
-                raise _Refused(f"'{self.unit[start:end].strip()}' may be read as {a} or {b}; "
-                               f"write it with parentheses")
+                raise _Refused(f"'{self.unit[start:end].strip()}' may be read as {a} or {b}",
+                               "write the one meant, with parentheses")
             if op[1] == "/":
                 slash = op[2]
             value = _combine(value, self.factor(), -1 if op[1] == "/" else 1)
