@@ -101,8 +101,10 @@ def _shares(raw, where: str, key: str, disc_ids) -> tuple[LoadShare, ...]:
         if at in seen:
             raise ModelError(f"disc '{at}' is listed twice", iw, "at")
         seen.add(at)
-        raw_share = item.get("share", "100 %" if len(raw) == 1 else None)
-        share = u.parse_number(raw_share, iw, "share")
+        # no share anywhere: the load divides equally (six crank throws of one engine)
+        equal = all(isinstance(x, dict) and "share" not in x for x in raw)
+        raw_share = 1.0 / len(raw) if equal else item.get("share", "100 %" if len(raw) == 1 else None)
+        share = u.parse_fraction(raw_share, iw, "share")
         if isinstance(raw_share, (int, float)) and share > 1.0:
             raise ModelError(f"give a fraction (0.5) or a percentage (\"50 %\"), got {share:g}", iw, "share")
         if not 0.0 <= share <= 1.0:
@@ -166,7 +168,7 @@ def _excitation_scales(raw, where: str, names: set[str]) -> tuple[float, tuple[t
     if isinstance(raw, dict):
         overall, per = 1.0, []
         for name, v in raw.items():
-            s = u.parse_number(v, where, f"excitation_scale.{name}")
+            s = u.parse_fraction(v, where, f"excitation_scale.{name}")
             if s < 0:
                 raise ModelError("a scale must not be negative", where, f"excitation_scale.{name}")
             if name == "*":
@@ -176,7 +178,7 @@ def _excitation_scales(raw, where: str, names: set[str]) -> tuple[float, tuple[t
             else:
                 per.append((name, s))
         return overall, tuple(per)
-    s = u.parse_number(raw, where, "excitation_scale")
+    s = u.parse_fraction(raw, where, "excitation_scale")
     if s < 0:
         raise ModelError("a scale must not be negative", where, "excitation_scale")
     return s, ()
@@ -201,7 +203,7 @@ def _misfires(raw, where: str, train: Train) -> tuple[Misfire, ...]:
         if not any(cyl == c for e in engines for c, _ in e.cylinders):
             raise ModelError(f"{cyl!r} is not a cylinder of an engine excitation (one with \"cylinders\")",
                              mw, "misfire.cylinder")
-        frac = u.parse_number(m.get("gas_torque_fraction", 0.0), mw, "misfire.gas_torque_fraction")
+        frac = u.parse_fraction(m.get("gas_torque_fraction", 0.0), mw, "misfire.gas_torque_fraction")
         if not 0.0 <= frac <= 1.0:
             raise ModelError(f"must be between 0 and 1, got {frac:g}", mw, "misfire.gas_torque_fraction")
         out.append(Misfire(cyl, frac, exc))

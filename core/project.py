@@ -344,7 +344,7 @@ def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
     if trip is not None and trip < nmax:
         raise ModelError("the trip speed must not be below the maximum operating speed", where,
                          "operating_speed.trip")
-    margin_pct = u.parse_number(doc.get("margin_percent", 10), where, "margin_percent")
+    margin_pct = u.parse_percent(doc.get("margin_percent", 10), where, "margin_percent")
     if not 0 <= margin_pct <= 50:
         raise ModelError(f"must be between 0 and 50 %, got {margin_pct:g}", where, "margin_percent")
     exc_list = doc.get("excitations", [])

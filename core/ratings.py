@@ -138,7 +138,7 @@ def _fatigue(obj, link, where) -> FatigueSpec | None:
     if surf not in SURFACE_FINISH:
         raise ModelError(f"surface must be one of {', '.join(SURFACE_FINISH)}, got {surf!r}", where,
                          "fatigue.surface")
-    rel = u.parse_number(raw.get("reliability_percent", 50), where, "fatigue.reliability_percent")
+    rel = u.parse_percent(raw.get("reliability_percent", 50), where, "fatigue.reliability_percent")
     if float(rel) not in RELIABILITY:
         raise ModelError(f"reliability_percent must be one of {', '.join(f'{k:g}' for k in RELIABILITY)}",
                          where, "fatigue.reliability_percent")

@@ -87,7 +87,7 @@ def test_engine_torque_builds_up_along_the_crankshaft():
            "operating_speed": {"min": "1500 rpm", "max": "1500 rpm"},
            "load_cases": [{"name": "Rated", "law": "constant_power", "power": "500 kW", "speed": "1500 rpm",
                            "driven": [{"at": "gen"}],
-                           "driving": [{"at": f"c{i}", "share": "1/6"} for i in range(1, 7)]}]}
+                           "driving": [{"at": f"c{i}"} for i in range(1, 7)]}]}  # no share: equal
     train = build_train(doc)
     T = mean_torque(train, train.load_cases[0], np.array([1500 * RPM]))[:, 0]
     full = 500e3 / (1500 * RPM)  # 3183.10 N*m
