@@ -68,7 +68,7 @@ import bisect
 import math
 import time as _time
 from dataclasses import dataclass
-from typing import Callable, Mapping
+from typing import Mapping
 
 import numpy as np
 import scipy.sparse as sp
@@ -200,6 +200,8 @@ class _Lumped:
     K: sp.csr_matrix
     C: sp.csr_matrix
     D: sp.csr_matrix  # (n_e, n) element incidence (+1 at a, -1 at b)
+    ea: np.ndarray  # element end nodes
+    eb: np.ndarray  # -1: ground
     ek: np.ndarray  # element referred stiffness
     ec: np.ndarray  # element referred damping
     egain: np.ndarray  # sign / scale: actual link-convention torque per referred element force
@@ -301,7 +303,7 @@ def lumped_model(train: Train, f_res: float, damping_omega: float | None) -> _Lu
     node_c = np.zeros(n)
     np.add.at(node_c, asm.disc_node, np.array([d.damping for d in train.discs]) * asm.disc_scale ** 2)
     C = (D.T @ sp.diags(ec) @ D + sp.diags(node_c)).tocsr()
-    return _Lumped(n, mass, K, C, D, ek, ec, np.asarray(egain), elink, np.asarray(efactor, float),
+    return _Lumped(n, mass, K, C, D, ea, eb, ek, ec, np.asarray(egain), elink, np.asarray(efactor, float),
                    link_elements, asm.disc_node, asm.disc_scale, extra, asm.grounded)
 
 
@@ -341,9 +343,10 @@ def _time_torque(src: AppliedTorque, t: np.ndarray) -> np.ndarray:
     return out
 
 
-def _state_torque(src: AppliedTorque, where: str, load_case_torque) -> tuple[Callable, Callable | None]:
+def _state_torque(src: AppliedTorque, where: str, load_case_torque):
     """(torque(t, angle since start, speed) in N*m on the disc's shaft, excitation
-    frequency(speed) in Hz or None) of a speed-dependent source."""
+    frequency(speed) in Hz or None, largest |dT/d speed|, largest |dT/d angle|) of a
+    speed-dependent source."""
     if src.motor is not None:
         m = src.motor
         v2 = m.voltage_factor ** 2
@@ -360,7 +363,9 @@ def _state_torque(src: AppliedTorque, where: str, load_case_torque) -> tuple[Cal
 
         def freq(speed):
             return 2.0 * (1.0 - np.asarray(speed) / ws) * m.line_frequency
-        return motor, freq
+        lw = v2 * (_max_slope(m.speeds, m.average) + _max_slope(m.pulsating_speeds, m.pulsating))
+        la = v2 * max(abs(x) for x in m.pulsating) * k_phase / ws
+        return motor, freq, lw, la
     st: SpeedTable = src.speed_table
     if st.load_case is not None:
         if load_case_torque is None:
@@ -370,10 +375,16 @@ def _state_torque(src: AppliedTorque, where: str, load_case_torque) -> tuple[Cal
             speeds, torques = load_case_torque(st.load_case, src.at)
         except KeyError:
             raise ModelError(f"unknown load case {st.load_case!r}", where, "load_case") from None
-        f = _interp_fn(np.asarray(speeds, float), np.asarray(torques, float))
+        speeds = np.asarray(speeds, float)
+        torques = np.asarray(torques, float)
+        if speeds.ndim != 1 or speeds.shape != torques.shape or not speeds.size or \
+                not np.all(np.isfinite(speeds)) or not np.all(np.isfinite(torques)) or \
+                np.any(np.diff(speeds) <= 0):
+            raise ModelError(f"load case {st.load_case!r} gives no usable torque table", where, "load_case")
     else:
-        f = _interp_fn(st.speeds, st.torques)
-    return (lambda t, angle, speed: f(speed)), None
+        speeds, torques = st.speeds, st.torques
+    f = _interp_fn(speeds, torques)
+    return (lambda t, angle, speed: f(speed)), None, _max_slope(speeds, torques), 0.0
 
 
 # ----------------------------------------------------------------- step rule
@@ -471,16 +482,35 @@ def run_event(train: Train, event: TransientEvent, *, refine: int = 1,
         omega_d, fd_hz = None, None
     lm = lumped_model(train, f_res, omega_d)
     n = lm.n
+    # speed-dependent torques
+    state_srcs = [(j, src, index[src.at]) for j, src in enumerate(event.torques) if src.depends_on_state]
+    fns, freq_fn, slopes = [], None, []
+    s_nodes, s_scale = [], []
+    for j, src, d in state_srcs:
+        fn_j, fq, lw, la = _state_torque(src, f"{ew} torque {j + 1}", load_case_torque)
+        fns.append(fn_j)
+        slopes.append((lw, la))
+        if fq is not None:
+            freq_fn = (d, fq)
+        s_nodes.append(int(lm.disc_node[d]))
+        s_scale.append(float(lm.disc_scale[d]))
+    ps = len(fns)
+    # steep torque curves: shorten the step until the fixed point contracts by half or more
+    rho = contraction_bound(lm, h, slopes, s_nodes, s_scale)
+    while rho > 0.5:
+        n_steps *= 2
+        if n_steps > MAX_STEPS:
+            raise ModelError(f"the speed-dependent torques are too steep against speed (contraction "
+                             f"{rho:.2f} at a step of {h:.3g} s) for {MAX_STEPS} steps", ew, "torques")
+        h = event.duration / n_steps
+        rho = contraction_bound(lm, h, slopes, s_nodes, s_scale)
+        notes.append(f"step shortened to {h:.3g} s for the slope of the speed-dependent torques")
     t = np.arange(n_steps + 1) * h
     # time-only torques: node forces over the grid
     disc_torque = np.zeros((len(train.discs), n_steps + 1))
-    state_srcs = []
     for j, src in enumerate(event.torques):
-        d = index[src.at]
-        if src.depends_on_state:
-            state_srcs.append((j, src, d))
-        else:
-            disc_torque[d] += _time_torque(src, t)
+        if not src.depends_on_state:
+            disc_torque[index[src.at]] += _time_torque(src, t)
     known_discs = np.flatnonzero(np.any(disc_torque != 0, axis=1))
     kn_nodes = lm.disc_node[known_discs]
     Fk = disc_torque[known_discs].T * lm.disc_scale[known_discs]  # (n_t, p) referred node forces
@@ -488,17 +518,6 @@ def run_event(train: Train, event: TransientEvent, *, refine: int = 1,
         u_nodes, inv = np.unique(kn_nodes, return_inverse=True)
         Fk = np.stack([Fk[:, inv == i].sum(1) for i in range(len(u_nodes))], axis=1)
         kn_nodes = u_nodes
-    # speed-dependent torques
-    fns, freq_fn = [], None
-    s_nodes, s_scale = [], []
-    for j, src, d in state_srcs:
-        fn_j, fq = _state_torque(src, f"{ew} torque {j + 1}", load_case_torque)
-        fns.append(fn_j)
-        if fq is not None:
-            freq_fn = (d, fq)
-        s_nodes.append(int(lm.disc_node[d]))
-        s_scale.append(float(lm.disc_scale[d]))
-    ps = len(fns)
     # initial state: rigid rotation at the initial speed
     ref = train.operating.reference if train.operating is not None else train.disc_ids[0]
     v0 = event.initial_speed / lm.disc_scale[index[ref]]
@@ -514,21 +533,12 @@ def run_event(train: Train, event: TransientEvent, *, refine: int = 1,
     scale_f = max([1.0] + [abs(x) for x in f_state])
     for _, src, _ in state_srcs:
         tab = src.motor.average + src.motor.pulsating if src.motor else src.speed_table.torques
-        scale_f = max([scale_f] + [abs(x) for x in tab])
-    srcs = [src for _, src, _ in state_srcs]
-    rho = contraction_bound(lm, h, [s for s in srcs if s.speed_table is None or s.speed_table.load_case is None]
-                            , s_nodes, s_scale) if not any(
-        s.speed_table is not None and s.speed_table.load_case for s in srcs) else 0.5
-    if rho >= 0.9:
-        raise ModelError(f"the speed-dependent torques are too steep against speed for a step of "
-                         f"{h:.3g} s (contraction {rho:.2f}): give a smaller time_step", ew, "time_step")
+        scale_f = max([scale_f] + [abs(x) for x in tab])  # (a load case: the initial value)
     hist, F_state, worst = _integrate(lm, h, n_steps, t, theta, v, kn_nodes, Fk, fns, s_nodes, s_scale,
                                       f_state, max(rho, 1e-3), 1e-6 * scale_f, ew, progress, cancel)
     for i, (j, src, d) in enumerate(state_srcs):
         disc_torque[d] += F_state[:, i]
-    Theta = hist[:, :n].T  # (n, n_t)
-    V = hist[:, n:].T
-    return _event_result(train, event, lm, t, Theta, V, disc_torque, f_res, fd_hz, fn, freq_fn, h,
+    return _event_result(train, event, lm, t, hist[:, :n], hist[:, n:], disc_torque, f_res, fd_hz, fn, freq_fn, h,
                          peak_limits, sn_curves, notes, _time.perf_counter() - t_start)
 
 
@@ -577,7 +587,6 @@ def _integrate(lm: _Lumped, h, n_steps, t, theta, v, kn_nodes, Fk, fns, s_nodes,
     f_old = list(f0)
     theta0 = [float(state[sn[i]]) * scl[i] for i in rng]
     worst = 0
-    total_it = 0
     report_every = max(1, n_steps // 200)
     rhs = np.empty(n)
     tmp = np.empty(n)
@@ -620,7 +629,6 @@ def _integrate(lm: _Lumped, h, n_steps, t, theta, v, kn_nodes, Fk, fns, s_nodes,
             else:
                 raise ModelError(f"the speed-dependent torques do not settle within a step at t = {t1:.4g} s: "
                                  "give a smaller time_step", ew, "time_step")
-            total_it += it + 1
             if it >= worst:
                 worst = it + 1
             for i in rng:
@@ -636,15 +644,15 @@ def _integrate(lm: _Lumped, h, n_steps, t, theta, v, kn_nodes, Fk, fns, s_nodes,
     if progress is not None:
         progress(1.0)
     _check_cancel(cancel)
-    _integrate.last_mean_iterations = total_it / max(1, n_steps)
     return hist, np.array(f_hist, float).reshape(n_steps + 1, ps), worst
 
 
-def contraction_bound(lm: _Lumped, h: float, srcs, s_nodes, s_scale) -> float:
-    """Upper bound rho of the fixed-point map's contraction for one step (infinity norm of
-    its Jacobian, from each source's largest slope against speed and angle)."""
+def contraction_bound(lm: _Lumped, h: float, slopes, s_nodes, s_scale) -> float:
+    """Upper bound rho of the fixed-point map's contraction for one step: the infinity
+    norm of its Jacobian, from each source's largest slope against speed and angle
+    (``slopes``: (dT/d speed, dT/d angle) per source)."""
     n = lm.n
-    ps = len(srcs)
+    ps = len(slopes)
     if not ps:
         return 0.0
     S = (sp.diags(lm.mass) + 0.5 * h * lm.C + 0.25 * h * h * lm.K).tocsc()
@@ -652,8 +660,7 @@ def contraction_bound(lm: _Lumped, h: float, srcs, s_nodes, s_scale) -> float:
     E[list(s_nodes), np.arange(ps)] = 1.0
     Sinv = spla.splu(S).solve(E)
     rho = 0.0
-    for i, src in enumerate(srcs):
-        lw, la = _slopes(src)
+    for i, (lw, la) in enumerate(slopes):
         row = sum(abs(Sinv[s_nodes[i], q]) * 0.5 * h * s_scale[q] for q in range(ps))
         rho = max(rho, s_scale[i] * (lw + la * 0.5 * h) * row)
     return rho
@@ -666,18 +673,6 @@ def _max_slope(xs, ys) -> float:
     dx = np.diff(xs)
     ok = dx > 0
     return float(np.max(np.abs(np.diff(ys)[ok] / dx[ok]))) if ok.any() else 0.0
-
-
-def _slopes(src: AppliedTorque) -> tuple[float, float]:
-    """(largest |dT/d speed|, largest |dT/d angle|) of a speed-dependent source."""
-    if src.motor is not None:
-        m = src.motor
-        v2 = m.voltage_factor ** 2
-        lw = v2 * (_max_slope(m.speeds, m.average) + _max_slope(m.pulsating_speeds, m.pulsating))
-        la = v2 * max(abs(x) for x in m.pulsating) * 2.0 * TWO_PI * m.line_frequency / m.synchronous_speed
-        return lw, la
-    st = src.speed_table
-    return _max_slope(st.speeds, st.torques), 0.0
 
 
 def _equilibrium(lm: _Lumped, load: np.ndarray) -> np.ndarray:
@@ -697,24 +692,25 @@ def _equilibrium(lm: _Lumped, load: np.ndarray) -> np.ndarray:
 
 def _event_result(train, event, lm: _Lumped, t, Theta, V, disc_torque, f_res, fd_hz, fn, freq_fn, h,
                   peak_limits, sn_curves, notes, elapsed) -> EventResult:
+    """Peaks, stresses and fatigue from the node histories Theta, V (n_t, n), time-major."""
     links = train.links
     nl, nt = len(links), t.size
     # element torques in the link's convention (from-end ahead of to-end positive), own shaft
-    Te = (lm.D @ Theta) * lm.ek[:, None]
-    if np.any(lm.ec):
-        Te += (lm.D @ V) * lm.ec[:, None]
-    Te *= lm.egain[:, None]
+    Te = _element_torques(lm, Theta, V)  # (n_t, n_e)
     torque = np.zeros((nl, nt))
     stress = np.full((nl, nt), np.nan)
+    single = [li for li, els in enumerate(lm.link_elements) if len(els) == 1]
+    if single:
+        cols = [lm.link_elements[li][0] for li in single]
+        torque[single] = Te[:, cols].T
+        fac = lm.efactor[cols]
+        ok = np.isfinite(fac)
+        rows = np.asarray(single)[ok]
+        stress[rows] = torque[rows] * fac[ok][:, None]
     for li, els in enumerate(lm.link_elements):
-        if not els:
+        if len(els) < 2:
             continue
-        if len(els) == 1:
-            torque[li] = Te[els[0]]
-            if math.isfinite(lm.efactor[els[0]]):
-                stress[li] = Te[els[0]] * lm.efactor[els[0]]
-            continue
-        sub = Te[els]
+        sub = Te[:, els].T
         torque[li] = sub[int(np.argmax(np.abs(sub).max(axis=1)))]
         fac = lm.efactor[els]
         if np.all(np.isfinite(fac)):
@@ -723,7 +719,7 @@ def _event_result(train, event, lm: _Lumped, t, Theta, V, disc_torque, f_res, fd
     rigid = [li for li, l in enumerate(links) if l.is_rigid]
     if rigid:
         _rigid_mesh_torques(train, lm, Theta, V, disc_torque, Te, torque, rigid, notes)
-    speed = lm.disc_scale[:, None] * V[lm.disc_node]
+    speed = (V[:, lm.disc_node] * lm.disc_scale[None, :]).T.copy()
     # peaks and fatigue
     out = []
     for li, l in enumerate(links):
@@ -768,28 +764,41 @@ def _event_result(train, event, lm: _Lumped, t, Theta, V, disc_torque, f_res, fd
                        np.asarray(fn, float), exc_f, tuple(crossings), lm.n, elapsed, tuple(notes))
 
 
+def _element_torques(lm: _Lumped, Theta, V) -> np.ndarray:
+    """(n_t, n_e) element torques, actual, on the link's own shaft, from time-major node
+    histories: gain (k twist + c twist rate), twist = D theta."""
+    DT = lm.D.T.tocsr()
+    Te = Theta @ DT
+    Te *= (lm.ek * lm.egain)[None, :]
+    if np.any(lm.ec):
+        Tc = V @ DT
+        Tc *= (lm.ec * lm.egain)[None, :]
+        Te += Tc
+    return Te
+
+
 def _rigid_mesh_torques(train, lm: _Lumped, Theta, V, disc_torque, Te, torque, rigid, notes):
     """Torque through rigid gear meshes from their discs' equations of motion."""
     links = train.links
     end_torque = {}
     for li, els in enumerate(lm.link_elements):
         if els:
-            end_torque[li] = (Te[els[0]], Te[els[-1]])
+            end_torque[li] = (Te[:, els[0]], Te[:, els[-1]])
     discs = set()
     for li in rigid:
         discs.update((links[li].from_id, links[li].to_id))
     index = {d: i for i, d in enumerate(train.disc_ids)}
     J = effective_disc_inertia(train) + lm.disc_extra_inertia
-    load = np.zeros((len(train.discs), Theta.shape[1]))
+    load = np.zeros((len(train.discs), Theta.shape[0]))
     # node accelerations from the equation of motion (Newmark's a_n)
-    F = np.zeros((lm.n, Theta.shape[1]))
+    F = np.zeros((lm.n, Theta.shape[0]))
     np.add.at(F, lm.disc_node, disc_torque * lm.disc_scale[:, None])
     for dname in discs:
         d = index[dname]
         node = lm.disc_node[d]
-        acc = (F[node] - lm.C[node] @ V - lm.K[node] @ Theta) / lm.mass[node]
+        acc = (F[node] - lm.C[node] @ V.T - lm.K[node] @ Theta.T) / lm.mass[node]
         s = lm.disc_scale[d]
-        load[d] = J[d] * s * np.ravel(acc) + train.discs[d].damping * s * V[node] - disc_torque[d]
+        load[d] = J[d] * s * np.ravel(acc) + train.discs[d].damping * s * V[:, node] - disc_torque[d]
     peel_rigid_meshes(train, load, end_torque)
     for li in rigid:
         torque[li] = end_torque[li][0]
