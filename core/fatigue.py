@@ -118,6 +118,8 @@ def rainflow_cycles(series) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     if tp.size < 2:
         z = np.zeros(0)
         return z, z, z
+    if tp.size == 2:  # one half cycle (the package needs three points to see a reversal)
+        return np.array([abs(tp[1] - tp[0])]), np.array([0.5 * (tp[0] + tp[1])]), np.array([0.5])
     cyc = np.array([c[:3] for c in rainflow.extract_cycles(tp.tolist())], float).reshape(-1, 3)
     return cyc[:, 0], cyc[:, 1], cyc[:, 2]
 
