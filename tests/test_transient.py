@@ -406,3 +406,44 @@ def test_peak_against_the_permissible_torque_and_required_events():
     e = run_event(tr, tr.transients[0], peak_limits={"coupling": 1.0})
     assert e.link("coupling").passed is False and e.link("coupling").permissible_peak == 1.0
     assert e.link("shaft").passed is True  # 20 kN*m permissible
+
+
+def test_step_on_a_disc_held_by_a_spring_to_ground():
+    # A single disc on a grounded spring under a step T: the spring carries T (1 - cos w t),
+    # peak 2 T, w^2 = k / J (Thomson, step response of a single-degree system — from memory);
+    # started in equilibrium with the same torque it stays at T.
+    J, k, T = 0.5, 2e4, 30.0
+    doc = {"discs": [{"id": "d", "inertia": J}],
+           "links": [{"id": "s", "kind": "shaft", "from": "ground", "to": "d", "stiffness": k}],
+           "transients": [{"name": "step", "duration": 0.3, "torques": [{"at": "d", "table": [[0, T]]}]},
+                          {"name": "held", "duration": 0.1, "initial_state": "equilibrium",
+                           "torques": [{"at": "d", "table": [[0, T]]}]}]}
+    tr = build_train(doc)
+    res = run_transients(tr)
+    step, held = res.events
+    w = math.sqrt(k / J)
+    # ground at `from`: the link carries minus the disc's twist (from-end ahead positive)
+    assert -step.link_torque[0].min() == pytest.approx(2 * T, rel=1e-3)
+    ref = -T * (1 - np.cos(w * step.time))
+    # the trapezoidal rule's only error here is its period elongation (w h)^2 / 12, a phase
+    # lag of (w h)^2 / 12 * w t after time t
+    lag = (w * step.step) ** 2 / 12 * w * step.time[-1]
+    assert np.abs(step.link_torque[0] - ref).max() < 1.1 * T * lag
+    assert held.link_torque[0] == pytest.approx(np.full(held.time.size, -T), rel=1e-12)
+
+
+def test_the_issue_example_event_runs_on_the_sample():
+    # the form of issue 14: a load step with a 1 ms rise, held after its last row
+    from pathlib import Path
+    doc_path = Path(__file__).resolve().parent.parent / "sample_projects" / "sync_motor_compressor.json"
+    import json
+    doc = json.loads(doc_path.read_text())
+    doc["transients"] = [{"name": "Load step", "duration": "0.5 s", "initial_speed": "1500 rpm",
+                          "torques": [{"at": "impellers", "table": [["0 s", "0 N*m"], ["1 ms", "-2 kN*m"],
+                                                                     ["10 s", "-2 kN*m"]]}]}]
+    tr = build_train(doc)
+    e = run_transients(tr).events[0]
+    assert e.resolved_hz == pytest.approx(1250.0)  # 1.25 / 1 ms
+    assert e.applied_torque[-1][-1] == -2000.0
+    # the impellers' shaft carries the step: from-end (coupling side) ahead, torque positive
+    assert e.link("rotor_shaft").max_torque > 2000.0
