@@ -117,10 +117,17 @@ class LinkTransient:
     passed: bool | None  # None when nothing is checked
 
     def to_json(self) -> dict:
+        """The contract's keys ``peak_torque_nm``, ``peak_time_s``, ``damage`` (null: not
+        computed) and ``allowed_events`` (null: not computed, or unlimited when damage is 0),
+        and alongside them the signed extremes, the permissible peak, the peak stress, the
+        required events and the verdict (null: nothing checked)."""
         def fin(x):
             return None if x is None or not math.isfinite(x) else float(x)
         return {"peak_torque_nm": float(self.peak_torque), "peak_time_s": float(self.peak_time),
-                "damage": fin(self.damage), "allowed_events": fin(self.allowed_events)}
+                "damage": fin(self.damage), "allowed_events": fin(self.allowed_events),
+                "max_torque_nm": float(self.max_torque), "min_torque_nm": float(self.min_torque),
+                "permissible_peak_nm": fin(self.permissible_peak), "peak_stress_pa": fin(self.peak_stress),
+                "required_events": fin(self.required_events), "passed": self.passed}
 
 
 @dataclass(frozen=True)
@@ -147,7 +154,7 @@ class EventResult:
     step: float  # s
     resolved_hz: float  # f_res
     damping_frequency_hz: float | None
-    natural_frequencies_hz: np.ndarray  # elastic modes up to f_res
+    natural_frequencies_hz: np.ndarray  # elastic modes up to 1.25 x the highest excited frequency
     excitation_frequency_hz: np.ndarray | None  # (n_t,) 2 s f_line of a motor start
     crossings: tuple[ModeCrossing, ...]
     elements: int  # degrees of freedom integrated
@@ -444,8 +451,9 @@ def run_event(train: Train, event: TransientEvent, *, refine: int = 1,
               load_case_torque=None, progress=None, cancel=None) -> EventResult:
     """Integrate one event (see the module docstring).  ``refine`` divides the step
     (convergence checks); ``peak_limits`` overrides each link's permissible peak
-    torque (N*m; default its ``permissible_torque``); ``sn_curves`` overrides the
-    material's S-N curve per link id; ``load_case_torque(name, disc_id) ->
+    torque (N*m; default its ``permissible_torque``: the hook for a separate transient
+    limit); ``sn_curves`` adds to or overrides the project's S-N curves per link id
+    (else the material's library curve); ``load_case_torque(name, disc_id) ->
     (speeds rad/s, torques N*m)`` resolves a torque that names a load case;
     ``progress(fraction)``; ``cancel`` a callable or threading.Event."""
     t_start = _time.perf_counter()
@@ -727,6 +735,8 @@ def _event_result(train, event, lm: _Lumped, t, Theta, V, disc_torque, f_res, fd
         _rigid_mesh_torques(train, lm, Theta, V, disc_torque, Te, torque, rigid, notes)
     speed = (V[:, lm.disc_node] * lm.disc_scale[None, :]).T.copy()
     # peaks and fatigue
+    curves = dict(getattr(train, "sn_curves", ()) or ())
+    curves.update(sn_curves or {})
     out = []
     for li, l in enumerate(links):
         T = torque[li]
@@ -734,7 +744,7 @@ def _event_result(train, event, lm: _Lumped, t, Theta, V, disc_torque, f_res, fd
         limit = (peak_limits or {}).get(l.id, l.permissible_torque)
         S = stress[li]
         has_s = bool(np.all(np.isfinite(S)))
-        curve = (sn_curves or {}).get(l.id) or curve_for_material(l.material)
+        curve = curves.get(l.id) or curve_for_material(l.material)
         fat: FatigueResult | None = event_fatigue(S, curve) if has_s and curve is not None else None
         req = event.required_for(l.id)
         checks = []
@@ -838,7 +848,6 @@ def run_transients(train: Train, event_names=None, progress=None, cancel=None, *
                 raise ModelError(f"no transient event named {nm!r} (events: {', '.join(byname)})",
                                  "option", "event")
         events = [byname[nm] for nm in event_names]
-    sn = dict(getattr(train, "sn_curves", ()) or ())
     weights = np.array([e.duration for e in events], float)
     weights = weights / weights.sum()
     done = 0.0
@@ -847,7 +856,7 @@ def run_transients(train: Train, event_names=None, progress=None, cancel=None, *
         def sub(frac, done=done, w=w):
             if progress is not None:
                 progress(min(1.0, done + w * frac))
-        out.append(run_event(train, e, refine=refine, peak_limits=peak_limits, sn_curves=sn,
+        out.append(run_event(train, e, refine=refine, peak_limits=peak_limits,
                              load_case_torque=load_case_torque, progress=sub, cancel=cancel))
         done += w
     return TransientResults(tuple(out), _time.perf_counter() - t0)

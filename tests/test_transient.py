@@ -300,7 +300,9 @@ def test_json_shape_progress_and_cancel():
     ev = js["events"][0]
     assert ev["name"] == "Start-up" and ev["duration_s"] == 1.0
     assert set(ev["links"]) == {"shaft", "coupling"}
-    assert set(ev["links"]["shaft"]) == {"peak_torque_nm", "peak_time_s", "damage", "allowed_events"}
+    assert {"peak_torque_nm", "peak_time_s", "damage", "allowed_events"} <= set(ev["links"]["shaft"])
+    import json
+    json.dumps(js, allow_nan=False)  # strict JSON: no NaN or infinity
     flag = threading.Event()
     flag.set()
     with pytest.raises(TransientCancelled):
