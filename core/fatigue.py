@@ -106,8 +106,8 @@ def turning_points(series) -> np.ndarray:
     x = x[keep]
     if x.size < 3:
         return x
-    d = np.diff(x)
-    rev = np.flatnonzero(d[:-1] * d[1:] < 0) + 1
+    up = np.diff(x) > 0  # no zero steps after collapsing plateaus
+    rev = np.flatnonzero(up[:-1] != up[1:]) + 1  # signs, not products: no underflow
     return x[np.r_[0, rev, x.size - 1]]
 
 
