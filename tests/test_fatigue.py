@@ -28,12 +28,14 @@ def test_rainflow_counts_the_astm_e1049_example():
 
 
 @settings(max_examples=40, deadline=None)
-@given(st.lists(st.floats(-1e3, 1e3, allow_nan=False), min_size=3, max_size=60))
+@given(st.lists(st.integers(-1000, 1000).map(lambda i: i / 8), min_size=3, max_size=60))
 def test_turning_points_change_no_count(xs):
     # Counting works on reversals only (ASTM E1049 5.4.1): reducing the history to its
     # turning points first changes nothing, against the rainflow package's own reversals
     # (cycles of zero range, from a flat history, do no damage and are left out; at least three
-    # points: the package sees no reversal in two, where ASTM counts one half cycle, as we do).
+    # points: the package sees no reversal in two, where ASTM counts one half cycle, as we do;
+    # values on a 1/8 grid, since the package multiplies steps and misses reversals whose
+    # steps are so small that the product underflows).
     import rainflow
     full = sorted((round(c[0], 9), c[2]) for c in rainflow.extract_cycles(xs) if c[0] > 0)
     rng, _, cnt = rainflow_cycles(xs)
