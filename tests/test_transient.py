@@ -449,3 +449,49 @@ def test_the_issue_example_event_runs_on_the_sample():
     assert e.applied_torque[-1][-1] == -2000.0
     # the impellers' shaft carries the step: from-end (coupling side) ahead, torque positive
     assert e.link("rotor_shaft").max_torque > 2000.0
+
+
+def test_event_forms_parse_to_their_si_model(tmp_path):
+    (tmp_path / "t.csv").write_text("0 ms; 0\n")  # one column only: a bad file
+    (tmp_path / "u.csv").write_text("t,T\n0,0\n20,-1.5\n500,-1.5\n")
+    doc = {**BASE, "transients": [{"name": "forms", "duration": "0.5 s", "required_events": {"s": 100},
+                                   "torques": [
+        {"at": "a", "ramp": {"start": "100 ms", "rise": "20 ms", "from": "0 N*m", "to": "-2 kN*m"}},
+        {"at": "a", "ramp": {"start": "0.3 s", "to": "1 kN*m"}},
+        {"at": "b", "csv": "u.csv", "time_unit": "ms", "torque_unit": "kN*m"},
+        {"at": "b", "sinusoids": [{"amplitude": "1 kN*m", "frequency": "50 Hz", "decay": "none",
+                                   "phase_deg": 90, "start": "10 ms"}]},
+        {"at": "a", "short_circuit": {"phases": 2, "rated_torque": "10 kN*m", "power_factor": 0.8,
+                                      "subtransient_reactance": 0.2, "transient_reactance": 0.3,
+                                      "subtransient_time_constant": "30 ms",
+                                      "armature_time_constant": "0.1 s", "line_frequency": "60 Hz"}}]}]}
+    tr = build_train(doc, base_dir=tmp_path)
+    ev = tr.transients[0]
+    ramp, step, csv_t, sines, sc = ev.torques
+    assert ramp.table.times == pytest.approx((0.1, 0.12)) and ramp.table.torques == (0.0, -2000.0)
+    assert step.table.times == (0.3, 0.3) and step.table.torques == (0.0, 1000.0)  # a step
+    assert csv_t.table.times == pytest.approx((0.0, 0.02, 0.5)) and csv_t.table.torques == (0.0, -1500.0, -1500.0)
+    s = sines.sinusoids[0]
+    assert (s.amplitude, s.frequency, s.decay, s.phase_deg, s.start) == (1000.0, 50.0, None, 90.0, 0.01)
+    # base torque S_N / omega_s = T_N / cos phi; three terms: the d.c.-offset term and the a.c.
+    # term split into its transient and subtransient parts
+    A = 10000 / 0.8 / 0.2
+    assert [t.amplitude for t in sc.sinusoids] == pytest.approx([-A, 0.5 * A * 0.2 / 0.3, 0.5 * A * (1 - 0.2 / 0.3)])
+    assert [t.frequency for t in sc.sinusoids] == [60.0, 120.0, 120.0]
+    assert ev.required_for("s") == 100 and ev.required_events is None
+    # the ramp's torque over time: held before and after, linear between
+    tt = np.array([0.0, 0.11, 0.2])
+    assert _time_torque(ramp, tt) == pytest.approx([0.0, -1000.0, -2000.0])
+    with pytest.raises(ModelError) as exc:
+        build_train({**BASE, "transients": [{"name": "bad", "duration": 1, "torques": [
+            {"at": "a", "csv": "t.csv"}]}]}, base_dir=tmp_path)
+    assert exc.value.field == "csv" and "two columns" in exc.value.message
+
+
+def test_supply_voltage_factor_scales_the_motor_torque_with_its_square():
+    # air-gap torque of an induction (damper-winding) start is proportional to V^2
+    # (e.g. A. E. Fitzgerald, Electric Machinery, induction machine torque — from memory)
+    e1 = run_event(motor_train(duration=0.2, v=1.0), motor_train(duration=0.2).transients[0])
+    tr = motor_train(duration=0.2, v=0.8)
+    e2 = run_event(tr, tr.transients[0])
+    assert e2.applied_torque[0][0] == pytest.approx(0.64 * e1.applied_torque[0][0])
