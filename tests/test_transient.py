@@ -495,3 +495,23 @@ def test_supply_voltage_factor_scales_the_motor_torque_with_its_square():
     tr = motor_train(duration=0.2, v=0.8)
     e2 = run_event(tr, tr.transients[0])
     assert e2.applied_torque[0][0] == pytest.approx(0.64 * e1.applied_torque[0][0])
+
+
+def test_rigid_mesh_torque_follows_from_newtons_law_on_its_disc():
+    # Disc a drives disc b through a rigid mesh (ratio r), b drives c through a shaft. Referred
+    # to a's shaft: node 1 = J_a + J_b r^2, node 2 = J_c r^2, spring k r^2; under a step T the
+    # shaft on c's side carries (referred) 2 T J2/(J1+J2) at most (Thomson, step response of a
+    # two-mass system; Wilson, referred systems — from memory), i.e. that / r on its own shaft,
+    # and the mesh carries T - J_a a_1 on a's shaft (Newton's second law for disc a), with
+    # a_1 = (T - r T_shaft) / J1 the merged node's acceleration.
+    Ja, Jb, Jc, r, k, T = 1.2, 0.3, 2.0, 2.5, 3e5, 500.0
+    tr = build_train({
+        "discs": [{"id": "a", "inertia": Ja}, {"id": "b", "inertia": Jb}, {"id": "c", "inertia": Jc}],
+        "links": [{"id": "mesh", "kind": "gear_mesh", "from": "a", "to": "b", "speed_ratio": r},
+                  {"id": "shaft", "kind": "shaft", "from": "b", "to": "c", "stiffness": k}],
+        "transients": [{"name": "step", "duration": 0.2, "torques": [{"at": "a", "table": [[0, T]]}]}]})
+    e = run_event(tr, tr.transients[0])
+    J1, J2 = Ja + Jb * r * r, Jc * r * r
+    Ts = e.link_torque[1]
+    assert Ts.max() == pytest.approx(2 * T * J2 / (J1 + J2) / r, rel=1e-3)
+    assert e.link_torque[0] == pytest.approx(T - Ja * (T - r * Ts) / J1, rel=1e-9, abs=1e-9 * T)
