@@ -495,6 +495,11 @@ def run_event(train: Train, event: TransientEvent, *, refine: int = 1,
         omega_d, fd_hz = None, None
     lm = lumped_model(train, f_res, omega_d)
     n = lm.n
+    if fd_hz is not None and any(l.loss_factor > 0 for l in train.links):
+        notes.append(f"loss factors act as viscous damping matched at {fd_hz:.4g} Hz"
+                     f"{'' if event.damping_frequency is not None else ' (the lowest mode)'}: modes "
+                     "below it are damped less, modes above it more than the loss factor gives; "
+                     "set the event's damping_frequency near the mode that matters")
     # speed-dependent torques
     state_srcs = [(j, src, index[src.at]) for j, src in enumerate(event.torques) if src.depends_on_state]
     fns, freq_fn, slopes = [], None, []
