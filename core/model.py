@@ -143,6 +143,10 @@ class Train:
     operating: Operating | None = None
     speed_factor: dict = field(default_factory=dict, compare=False)
     load_cases: tuple = ()  # core.loads.LoadCase, in file order
+    # transient events (core.events.TransientEvent) and S-N curves given per link id
+    # ((link id, core.fatigue.SNCurve) pairs), both from the project file
+    transients: tuple = ()
+    sn_curves: tuple = ()
 
     def disc(self, disc_id: str) -> Disc:
         for d in self.discs:

@@ -123,7 +123,7 @@ def save_document(path: str | os.PathLike, doc: dict, backup: bool = True) -> No
 
 
 def load_train(path: str | os.PathLike) -> Train:
-    return build_train(load_document(path))
+    return build_train(load_document(path), base_dir=Path(path).parent)
 
 
 # ---------------------------------------------------------------- model level
@@ -393,8 +393,11 @@ def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
                      str(sp.get("name", "Operating range")))
 
 
-def build_train(doc: dict) -> Train:
-    """Validate a project document and return the SI model (raises ModelError)."""
+def build_train(doc: dict, base_dir: str | os.PathLike | None = None) -> Train:
+    """Validate a project document and return the SI model (raises ModelError).
+
+    ``base_dir``: the project file's folder, for files the project names by a
+    relative path (a transient torque's CSV table); the working folder when None."""
     if not isinstance(doc, dict):
         raise ProjectFileError("a project must be a JSON object", "file")
     raw_discs = doc.get("discs")
@@ -428,5 +431,15 @@ def build_train(doc: dict) -> Train:
                                  "of one excitation must be on the same shaft",
                                  f"excitation '{e.name}' cylinder {i + 1}", "at")
     title = doc.get("title")
-    train = Train(str(title) if title else "Untitled train", discs, links, operating, speed)
+    transients, sn_curves = _transients(doc, speed, links, base_dir)
+    train = Train(str(title) if title else "Untitled train", discs, links, operating, speed,
+                  transients=transients, sn_curves=sn_curves)
     return attach_ratings(doc, train)  # acceptance data and load cases (core.ratings)
+
+
+def _transients(doc: dict, disc_ids, links, base_dir):
+    """The ``"transients"`` events and ``"sn_curves"`` (see :mod:`core.events`)."""
+    from .events import parse_sn_curves, parse_transients
+    link_ids = {l.id for l in links}
+    return (parse_transients(doc, set(disc_ids), link_ids, base_dir),
+            parse_sn_curves(doc, link_ids))
