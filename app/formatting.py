@@ -65,3 +65,8 @@ def share(name: str, fraction: float, space: str = " ") -> str:
     """An element and its share of a mode's energy, e.g. 'coupling (79.3 %)';
     ``space`` lets the sheet keep the number and its % sign on one line."""
     return f"{name} ({percent(fraction)}{space}%)"
+
+
+def seconds(value_s: float | None) -> str:
+    """A duration or time in seconds, three significant digits."""
+    return _sig(value_s)

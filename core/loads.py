@@ -396,3 +396,21 @@ def describe(load_case: LoadCase) -> str:
     what = f"{lc.power / 1e3:.6g} kW" if lc.power is not None else f"{lc.torque:.6g} N*m"
     at = f" at {lc.speed * rpm:.6g} rpm" if lc.speed else ""
     return f"{lc.law.replace('_', ' ')}, {what}{at}"
+
+
+def load_torque_table(train: Train, name: str, disc_id: str, points: int = 256):
+    """A load case as the speed-dependent load torque a transient applies at ``disc_id``
+    (:mod:`core.transient`'s ``load_case_torque`` hook): (speeds of that disc's shaft in
+    rad/s, torque on that disc in N*m), negative as a load brakes.  The disc takes its
+    ``driven`` share of the load case's power (all of it when it is not listed and the
+    case names no driven disc).  Raises KeyError for an unknown load case."""
+    cases = {lc.name: lc for lc in train.load_cases}
+    lc = cases[name]
+    op = train.operating
+    shares = {s.at: s.share for s in lc.driven}
+    share = shares.get(disc_id, 0.0 if shares else 1.0)
+    r = train.relative_speed(disc_id, op.reference) if op is not None else 1.0
+    top = max(op.trip_speed or 0.0, op.speed_max, lc.speed or 0.0) if op is not None else (lc.speed or 1.0)
+    ref = np.linspace(0.0, 1.2 * top, points)
+    torque = -share * reference_torque(lc, ref, op) / r
+    return ref * r, torque

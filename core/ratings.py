@@ -264,3 +264,20 @@ def attach_ratings(doc: dict, train: Train) -> Train:
     out = replace(train, links=tuple(links)) if changed else train
     cases = parse_load_cases(doc.get("load_cases"), out)
     return replace(out, load_cases=cases) if cases else out
+
+
+def transient_peak_limits(train: Train) -> dict[str, float]:
+    """The permissible peak torque of each link during a transient event (N*m): a coupling's
+    maximum torque T_Kmax where given (the rating coupling data sheets state for start-ups
+    and short circuits, common practice, no source), else the link's transient permissible
+    torque; links with neither keep their permissible torque (core.transient's default)."""
+    out = {}
+    for link in train.links:
+        r = link.ratings
+        if r is None:
+            continue
+        if r.coupling is not None and r.coupling.maximum_torque is not None:
+            out[link.id] = r.coupling.maximum_torque
+        elif r.permissible_torque_transient is not None:
+            out[link.id] = r.permissible_torque_transient
+    return out

@@ -31,6 +31,8 @@ MIN_ELASTIC_MODES = 6
 #: the analyses a study can hold, in the order they are computed
 PARTS = ("screening", "response", "design", "acceptance", "damped", "transients")
 ALL_PARTS = frozenset(PARTS)
+#: what the desktop program recomputes after every edit (transients run on request)
+LIVE_PARTS = ALL_PARTS - {"transients"}
 
 
 @dataclass(frozen=True)
@@ -40,7 +42,8 @@ class StudyOptions:
     ``margin``: required separation as a fraction (overrides the project's).
     ``speeds``: reference-shaft speeds in rad/s for the forced response.
     ``parts``: which analyses to run besides the modes (all by default; the
-    command line's ``solve`` asks for fewer).
+    command line's ``solve`` asks for fewer).  ``events``: the transient events to
+    integrate (all by default).
     """
 
     max_frequency_hz: float | None = None
@@ -48,6 +51,7 @@ class StudyOptions:
     margin: float | None = None
     speeds: tuple[float, ...] | None = None
     parts: frozenset = ALL_PARTS
+    events: tuple[str, ...] | None = None  # transient events to run (None: every one)
 
     def __post_init__(self):
         if self.max_frequency_hz is not None and self.n_modes is not None:
@@ -278,5 +282,15 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
     if "acceptance" in parts and response is not None:
         from .acceptance import analyse_acceptance
         acceptance = _timed(timings, "acceptance", analyse_acceptance, train, response)
+    transients = None
+    if "transients" in parts and train.transients:
+        from .loads import load_torque_table
+        from .ratings import transient_peak_limits
+        from .transient import run_transients
+
+        def load_case_torque(name, disc_id):
+            return load_torque_table(train, name, disc_id)
+        transients = _timed(timings, "transients", run_transients, train, options.events,
+                            peak_limits=transient_peak_limits(train), load_case_torque=load_case_torque)
     return Study(train, options, modes, screening, response, response_error, screening_error,
-                 acceptance=acceptance, notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)
+                 acceptance=acceptance, transients=transients, notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)

@@ -1,5 +1,5 @@
 """The command-line commands, one module each (``solve``, ``check``, ``response``,
-``report``, ``screenshot``).  Each has ``add_parser(subparsers)`` and ``run(args) -> int``;
+``transient``, ``report``, ``screenshot``).  Each has ``add_parser(subparsers)`` and ``run(args) -> int``;
 :mod:`app.cli` only parses and dispatches.  Commands read the one :class:`core.study.Study`
 and format it; they never choose modes or solve anything themselves."""
 
@@ -8,6 +8,7 @@ COMMANDS = {
     "solve": "solve",
     "check": "check",
     "response": "response",
+    "transient": "transient",
     "report": "report",
     "screenshot": "screenshot",
 }

@@ -46,9 +46,9 @@ class Results:
 def compute(train) -> Results:
     """The study of ``train`` (:func:`core.study.run_study`): the same modes, screening and
     forced response as the command line and the sheet."""
-    from core.study import run_study
+    from core.study import LIVE_PARTS, StudyOptions, run_study
     t0 = time.perf_counter()
-    study = run_study(train)
+    study = run_study(train, StudyOptions(parts=LIVE_PARTS))
     note = ""
     if study.screening_error is not None:
         note = f"not screened: {study.screening_error}"
