@@ -66,9 +66,13 @@ class _Job(QtCore.QRunnable):
 
     def run(self):
         try:
-            self.signals.done.emit(self.generation, compute(self.train), "")
+            res, error = compute(self.train), ""
         except Exception as exc:
-            self.signals.done.emit(self.generation, None, f"{type(exc).__name__}: {exc}")
+            res, error = None, f"{type(exc).__name__}: {exc}"
+        try:
+            self.signals.done.emit(self.generation, res, error)
+        except RuntimeError:
+            pass  # the window went while this solve ran (quit): nobody waits for the result
 
 
 class ResultsRunner(QtCore.QObject):
@@ -104,6 +108,13 @@ class ResultsRunner(QtCore.QObject):
             self._start()
         else:
             self._timer.start()
+
+    def stop(self) -> None:
+        """No more results (the window is closing): a pending request is dropped and a solve
+        still running is ignored when it ends."""
+        self._timer.stop()
+        self._pending = None
+        self._generation += 1
 
     def compute_now(self, train) -> Results:
         """Synchronous solve (screenshots, tests): emits resultsReady too."""

@@ -178,6 +178,11 @@ def verdict_style(passed: bool | None) -> str:
     return f"color: {fg}; background: {bg}; padding: 3px 8px; border-radius: 3px; font-weight: bold;"
 
 
+#: a verdict that belongs to an older model (the model on screen has an error): greyed
+STALE_STYLE = (f"color: {INK_MUTED}; background: {PANEL}; padding: 3px 8px; border-radius: 3px; "
+               f"border: 1px dashed {INK_MUTED}; font-style: italic;")
+
+
 def application_palette() -> QtGui.QPalette:
     """Light palette for the whole application (so a dark desktop theme does not
     turn the tables black while the plots stay white)."""
