@@ -640,7 +640,7 @@ class PropertyForm(QtWidgets.QScrollArea):
         for c, (h, key) in enumerate((("Length", "length"), ("Outer Ø", "outer_diameter"),
                                       ("Bore Ø", "inner_diameter"))):
             lab = QtWidgets.QLabel(h)
-            lab.setToolTip(TIPS[key])
+            lab.setToolTip(tip(key, u.LENGTH, self.system))
             lab.setStyleSheet(f"color: {theme.INK_MUTED};")
             grid.addWidget(lab, 0, c)
         segs = obj.get("segments") or []
@@ -768,6 +768,7 @@ def _delete_layout(layout):
 # ----------------------------------------------------------------- operating data
 OPERATING_LEFT = [
     Spec("title", "Title", TEXT, "title"),
+    Spec("description", "Description", TEXT, "description"),
     Spec("reference", "Reference disc", CHOICE, "reference", choices=lambda doc: disc_choices(doc)),
     Spec("margin_percent", "Required margin, %", NUMBER, "margin_percent", placeholder="10"),
 ]

@@ -274,7 +274,14 @@ class MainWindow(QtWidgets.QMainWindow):
         self.act_undo.setShortcut(QtGui.QKeySequence(K.Undo))
         self.act_undo.setIcon(self.style().standardIcon(S.SP_ArrowBack))
         self.act_redo = undo.createRedoAction(self, "&Redo")
-        self.act_redo.setShortcuts([QtGui.QKeySequence(K.Redo), QtGui.QKeySequence("Ctrl+Y")])
+        # every platform binding of Redo plus both common ones (QKeySequence(K.Redo) alone is
+        # only the first binding: Ctrl+Y here, so Ctrl+Shift+Z did nothing)
+        redo_keys = []
+        for k in QtGui.QKeySequence.keyBindings(K.Redo) + [QtGui.QKeySequence("Ctrl+Shift+Z"),
+                                                            QtGui.QKeySequence("Ctrl+Y")]:
+            if k not in redo_keys:
+                redo_keys.append(k)
+        self.act_redo.setShortcuts(redo_keys)
         self.act_redo.setIcon(self.style().standardIcon(S.SP_ArrowForward))
         self.act_ins_shaft = self._act("Insert disc + &shaft", lambda: self.insert("shaft"), "Ins",
                                        "Insert a disc joined by a shaft after the selection")
@@ -455,9 +462,10 @@ class MainWindow(QtWidgets.QMainWindow):
         kind = self.selection[0] if self.selection else None
         self.disc_table.select_id(self.selection[1] if kind == "disc" else None)
         self.link_table.select_id(self.selection[1] if kind == "link" else None)
-        if kind == "disc" and self.tabs.currentWidget() is self.link_table:
+        # a selected disc or link brings its table and the property form (from any tab)
+        if kind == "disc" and self.tabs.currentWidget() is not self.disc_table:
             self.tabs.setCurrentWidget(self.disc_table)
-        elif kind == "link" and self.tabs.currentWidget() is self.disc_table:
+        elif kind == "link" and self.tabs.currentWidget() is not self.link_table:
             self.tabs.setCurrentWidget(self.link_table)
         self.property_form.show_element(self.project.doc, self.selection, self.project, self.system)
 
