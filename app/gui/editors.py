@@ -125,9 +125,9 @@ def tip(key: str, kind=None, system: str = "SI") -> str:
 @lru_cache(maxsize=256)
 def example_text(kind: u.Kind, system: str) -> str:
     """The kind's example value written in the unit system on screen (placeholders)."""
+    from .quantities import _in_unit
     try:
-        value = u.parse(kind.example, kind)
-        return u.format_quantity(value, kind, u.display_unit(kind, system), digits=3)
+        return _in_unit(u.parse(kind.example, kind), kind, u.display_unit(kind, system), 3)
     except Exception:
         return kind.example
 
@@ -222,7 +222,7 @@ class Field(QtWidgets.QLineEdit):
         unit = u.display_unit(self.kind, self.system)
         placeholder = f"e.g. {example_text(self.kind, self.system)}"
         room = self.width() - 12
-        if self.unit_placeholder or (self.isVisible() and self.fontMetrics().horizontalAdvance(placeholder) > room):
+        if self.unit_placeholder or self.fontMetrics().horizontalAdvance(placeholder) > room:
             placeholder = unit
         if self.placeholderText() != placeholder:
             self.setPlaceholderText(placeholder)

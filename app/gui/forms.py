@@ -246,7 +246,7 @@ class DiscTable(DocTable):
     list_key = "discs"
     columns = [("Id", "id", TEXT, "id"), ("Name", "name", TEXT, "name"),
                ("Inertia", "inertia", u.INERTIA, "inertia"),
-               ("Damping to ground", "damping", u.DAMPING, "disc.damping")]
+               ("Damping", "damping", u.DAMPING, "disc.damping")]
 
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -256,9 +256,9 @@ class DiscTable(DocTable):
         h.setStretchLastSection(False)
         h.setMinimumSectionSize(60)
         h.setDefaultAlignment(QtCore.Qt.AlignLeft | QtCore.Qt.AlignVCenter)  # a cut header keeps its start
-        self.setColumnWidth(0, 88)
-        self.setColumnWidth(2, 118)
-        self.setColumnWidth(3, 100)
+        self.setColumnWidth(0, 80)
+        self.setColumnWidth(2, 108)
+        self.setColumnWidth(3, 96)
         h.setSectionResizeMode(1, QtWidgets.QHeaderView.Stretch)
 
 
@@ -338,7 +338,7 @@ LINK_END_SPECS = [
     Spec("to", "To (output)", CHOICE, "to", choices=lambda doc: disc_choices(doc, [(GROUND, GROUND)])),
 ]
 GEAR_SPECS = [
-    Spec("speed_ratio", "Speed ratio (output / input)", NUMBER, "speed_ratio", optional=False),
+    Spec("speed_ratio", "Speed ratio\n(output / input)", NUMBER, "speed_ratio", optional=False),
     Spec("stiffness", "Mesh stiffness", u.STIFFNESS, "stiffness", placeholder="rigid"),
 ]
 LINK_DAMPING_SPECS = [Spec("damping", "Viscous damping", u.DAMPING, "link.damping")]
@@ -346,7 +346,7 @@ LINK_LIMIT_SPECS = [
     Spec("permissible_torque", "Permissible torque", u.TORQUE, "permissible_torque"),
     Spec("permissible_stress", "Permissible stress", u.STRESS, "permissible_stress",
          applies=_shaft_or_given("permissible_stress")),
-    Spec("stress_concentration", "Stress concentration factor", NUMBER, "stress_concentration",
+    Spec("stress_concentration", "Stress concen-\ntration factor", NUMBER, "stress_concentration",
          applies=_shaft_or_given("stress_concentration"), placeholder="1"),
 ]
 #: how each material-damping key is offered (edits.DAMPING_KEYS)

@@ -219,9 +219,9 @@ class MainWindow(QtWidgets.QMainWindow):
         self.main_split.setChildrenCollapsible(False)
         self.left_split, self.forms_split = left, forms
         # starting proportions (the splitters keep them as the window is resized)
-        self.main_split.setSizes([720, 880])
+        self.main_split.setSizes([760, 840])
         left.setSizes([380, 520])
-        forms.setSizes([360, 360])  # the property form holds most of the editing
+        forms.setSizes([400, 320])
 
         central = QtWidgets.QWidget()
         v = QtWidgets.QVBoxLayout(central)
@@ -518,6 +518,7 @@ class MainWindow(QtWidgets.QMainWindow):
     def _show_error(self, error):
         if error is None:
             self.error_banner.hide()
+            self._canvas_margin(0)
             self._show_stale()
             return
         keep = "the results of the last valid model" if self.project.train is not None else "no results yet"
@@ -540,6 +541,14 @@ class MainWindow(QtWidgets.QMainWindow):
         y = box.height() - banner.height() - self.mode_note.height() - 8
         banner.move(8, max(0, y))
         banner.raise_()
+        # the schematic draws above the banner (its own viewport shrinks, nothing else moves)
+        self._canvas_margin(banner.height() + 8)
+
+    def _canvas_margin(self, bottom: int) -> None:
+        if self.canvas.viewportMargins().bottom() != bottom:
+            self.canvas.setViewportMargins(0, 0, 0, bottom)
+            if not self.canvas._user_zoomed:
+                self.canvas.fit()
 
     def eventFilter(self, obj, event):
         if obj is getattr(self, "_canvas_box", None) and event.type() == QtCore.QEvent.Resize \
