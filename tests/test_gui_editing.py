@@ -413,6 +413,32 @@ def test_while_the_model_has_errors_the_verdict_is_greyed_and_the_sheet_refused(
     assert window.status_verdict.text() == "PASS" and calls[-1] is None and window.act_sheet.isEnabled()
 
 
+def test_a_solve_that_gives_non_numbers_greys_the_last_verdict(qtbot, window, monkeypatch):
+    """Seen: a speed ratio of 1e308 gave 'nan Hz' and a green PASS.  Whatever core lets
+    through, a study with a non-finite frequency is no result: the last valid one stays,
+    greyed, and the sheet is refused."""
+    import dataclasses
+    import types
+
+    import numpy as np
+
+    import core.study
+    open_sample(qtbot, window, PUMP)
+    calls = []
+    monkeypatch.setattr(window.results_panel, "set_stale", lambda message: calls.append(message), raising=False)
+    real = core.study.run_study
+    monkeypatch.setattr(core.study, "run_study", lambda train, *a: dataclasses.replace(
+        real(train, *a), modes=types.SimpleNamespace(frequency_hz=np.array([0.0, np.nan]))))
+    window.project.set_value(("discs", 0, "inertia"), "15 kg*m^2")
+    qtbot.waitUntil(lambda: "last valid model" in window.status_verdict.text(), timeout=15000)
+    assert window.status_verdict.styleSheet() == mw.theme.STALE_STYLE
+    assert calls[-1] and "cannot be solved" in calls[-1] and not window.act_sheet.isEnabled()
+    monkeypatch.setattr(core.study, "run_study", real)
+    window.project.undo_stack.undo()
+    wait_results(qtbot, window)
+    assert window.status_verdict.text() == "PASS" and calls[-1] is None
+
+
 # ----------------------------------------------------------------- issue 10 item 3: saving never destroys
 def test_saving_a_model_with_errors_asks_first_and_keeps_numbered_backups(qtbot, window, tmp_path, monkeypatch):
     open_sample(qtbot, window, PUMP)

@@ -46,9 +46,16 @@ class Results:
 def compute(train) -> Results:
     """The study of ``train`` (:func:`core.study.run_study`): the same modes, screening and
     forced response as the command line and the sheet."""
+    import numpy as np
+
+    from core.errors import ModelError
     from core.study import run_study
     t0 = time.perf_counter()
     study = run_study(train)
+    if not np.all(np.isfinite(study.modes.frequency_hz)):
+        # never a verdict from a non-number: the views keep the last valid results, marked
+        raise ModelError("the solve gave natural frequencies that are not finite numbers; check the "
+                         "inertias, stiffnesses and speed ratios for extreme values", "train")
     note = ""
     if study.response_error is not None:
         note = f"forced response not computed: {study.response_error}"

@@ -124,6 +124,7 @@ class MainWindow(QtWidgets.QMainWindow):
         self.selection = None
         self.results = None  # last compute.Results shown
         self._closing = False
+        self._solve_error = None  # why the last solve of a model that built failed
         self._stale_forms: set = set()
         self._forced_forms: set = set()
         self.last_delete_changes: list[str] = []
@@ -557,19 +558,26 @@ class MainWindow(QtWidgets.QMainWindow):
         return super().eventFilter(obj, event)
 
     def stale_message(self) -> str | None:
-        """While the model has an error: what the results on screen are (None: they are current)."""
-        if self.project.error is None or self.results is None:
+        """While the model has an error, or its solve failed: what the results on screen are
+        (None: they are of the model on screen)."""
+        if self.results is None:
             return None
-        return ("Showing the last valid model — the model now has an error "
-                f"({self.project.error.element or 'model'}): fix it or undo to update the results.")
+        if self.project.error is not None:
+            return ("Showing the last valid model — the model now has an error "
+                    f"({self.project.error.element or 'model'}): fix it or undo to update the results.")
+        if self._solve_error:
+            return (f"Showing the last valid model — the model now cannot be solved ({self._solve_error}): "
+                    "fix it or undo to update the results.")
+        return None
 
     def _show_stale(self) -> None:
         """Grey the verdict and tell the result views while the results are of an older model."""
         message = self.stale_message()
         if hasattr(self.results_panel, "set_stale"):
             self.results_panel.set_stale(message)
-        self.act_sheet.setEnabled(self.project.error is None)
-        self.act_sheet.setToolTip("Write the PDF review sheet of this project" if self.project.error is None
+        ok = self.project.error is None and not self._solve_error
+        self.act_sheet.setEnabled(ok)
+        self.act_sheet.setToolTip("Write the PDF review sheet of this project" if ok
                                   else "Not while the model has an error: fix it or undo first")
         if message is not None:
             base = self._verdict_text()
@@ -607,6 +615,7 @@ class MainWindow(QtWidgets.QMainWindow):
         if self._closing:
             return
         self.results = res
+        self._solve_error = None
         panel = self.results_panel
         if hasattr(panel, "set_study") and getattr(res, "study", None) is not None:
             panel.set_study(res.study, res.solve_time_s)
@@ -631,7 +640,14 @@ class MainWindow(QtWidgets.QMainWindow):
             label.setStyleSheet(style)
 
     def _solve_failed(self, text):
+        """The model built but its solve failed: the results on screen are of an older model
+        (or there are none); say so as for a model error."""
+        self._solve_error = text
         self.statusBar().showMessage(f"Solve failed: {text}", 10000)
+        if self.results is None and hasattr(self.results_panel, "clear_results"):
+            self.results_panel.clear_results(f"The model cannot be solved: {text}")
+            self._set_status(self.status_verdict, "no valid model", theme.verdict_style(None))
+        self._show_stale()
 
     def _current_mode_index(self) -> int:
         f = getattr(self.results_panel, "current_mode_index", None)
@@ -686,6 +702,7 @@ class MainWindow(QtWidgets.QMainWindow):
         excitation and damping choices, the results' speed cursor) starts afresh."""
         self.selection = None
         self.results = None
+        self._solve_error = None
         self.last_delete_changes = []
         self.canvas._signature = None
         self.canvas._user_zoomed = False
@@ -911,6 +928,9 @@ class MainWindow(QtWidgets.QMainWindow):
         if self.project.error is not None:
             self._message("Model has an error", f"Fix the model first: {self.project.error}")
             return
+        if self._solve_error:
+            self._message("Model cannot be solved", f"Fix the model first: {self._solve_error}")
+            return
         if self.project.path is None or self.project.dirty:
             answer = QtWidgets.QMessageBox.question(
                 self, "Save first", "The review sheet names the project file and its contents; save the "
@@ -1123,6 +1143,9 @@ def install_error_reporting(window_ref) -> None:
             pass
 
     sys.excepthook = report
+    import warnings
+    warnings.showwarning = lambda message, category, filename, lineno, file=None, line=None: log_line(
+        f"warning: {category.__name__}: {message} at {Path(filename).name}:{lineno}")
     threading.excepthook = lambda args: report(args.exc_type, args.exc_value, args.exc_traceback)
     sys.unraisablehook = lambda u: report(type(u.exc_value) if u.exc_value is not None else None,
                                           u.exc_value if u.exc_value is not None else u.err_msg,
