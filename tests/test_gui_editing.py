@@ -17,7 +17,7 @@ import pytest
 
 os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
-from PySide6 import QtCore, QtGui, QtWidgets  # noqa: E402
+from PySide6 import QtCore, QtWidgets  # noqa: E402
 
 from app.gui import edits  # noqa: E402
 from app.gui import main_window as mw  # noqa: E402
@@ -497,6 +497,15 @@ def test_undo_brings_the_operating_and_excitation_forms_along(qtbot, window):
     window.act_undo.trigger()
     assert widget_at(window, ("excitations", 0, "name")).text() == "Motor once and twice per rev"
     assert window.excitations_form.list.item(0).text() == "Motor once and twice per rev"
+
+
+def test_text_typed_in_a_field_is_kept_when_its_tab_is_closed(qtbot, window):
+    open_sample(qtbot, window, PUMP)
+    show_excitation(window, 0)
+    type_into(qtbot, widget_at(window, ("excitations", 0, "name")), "Motor orders", enter=False)
+    window.tabs.setCurrentWidget(window.disc_table)
+    QtWidgets.QApplication.processEvents()
+    assert window.project.doc["excitations"][0]["name"] == "Motor orders"
 
 
 def test_deleting_a_disc_deals_with_everything_that_names_it_in_one_undoable_step(qtbot, window):

@@ -270,11 +270,16 @@ class Field(QtWidgets.QLineEdit):
             self.problem_label.setVisible(bool(problem))
 
     def _finish(self):
-        if self.text() == self._shown or not self.isVisible():
+        # also when the field is being hidden (its tab closed with text typed): the text is
+        # the user's edit; the main window ignores edits once it is closing
+        if self.text() == self._shown:
             return
         self._shown = self.text()
         self.setModified(False)
-        self.committed.emit(self.path, stored_value(self.text(), self.kind, self.system))
+        try:
+            self.committed.emit(self.path, stored_value(self.text(), self.kind, self.system))
+        except RuntimeError:  # the form is being taken down (quit): nobody to take the edit
+            pass
 
     def commit_pending(self) -> None:
         """Commit typed text now (before a save, a close or an undo from a menu)."""

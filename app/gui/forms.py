@@ -18,7 +18,7 @@ from __future__ import annotations
 import copy
 import math
 
-from PySide6 import QtCore, QtGui, QtWidgets
+from PySide6 import QtCore, QtWidgets
 
 from core import units as u
 from core.materials import LIBRARY
@@ -26,9 +26,9 @@ from core.model import GROUND, LINK_KINDS, MASS_MODELS
 
 from . import edits, theme
 from .canvas import link_stiffness_si
-from .editors import (CHOICE, ERROR_STYLE, NUMBER, TEXT, TIPS, ChoiceField, Field, RowsEditor,  # noqa: F401
-                      Spec, add_spec_rows, disc_choices, disc_label, labelled, show_spec_value,
-                      stored_value, text_problem, tip)
+from .editors import (CHOICE, NUMBER, TEXT, TIPS, Field, Spec, add_spec_rows, disc_choices, labelled,
+                      show_spec_value, stored_value, tip)
+from .editors import ERROR_STYLE, text_problem  # noqa: F401 (re-exported: forms used to define them)
 from .quantities import _read, display_text, read_si  # noqa: F401 (re-exported)
 
 
@@ -109,8 +109,12 @@ class DocTable(QtWidgets.QTableWidget):
             item = self.horizontalHeaderItem(c)
             item.setToolTip(tip(col[3], col[2], self.system))
 
+    def prepare(self, doc: dict) -> None:
+        """Once per refresh, before the rows (e.g. the disc names the link rows show)."""
+
     def refresh(self, doc: dict, project, system: str) -> None:
         self.system = system
+        self.prepare(doc)
         self._updating = True
         rows = [x for x in doc.get(self.list_key, []) if isinstance(x, dict)]
         self.setRowCount(len(rows))
@@ -282,13 +286,20 @@ class LinkTable(DocTable):
         for c, w in enumerate((100, 110, 80, 100, 100, 120, 80)):
             self.setColumnWidth(c, w)
 
+    def prepare(self, doc):
+        self._names = {d.get("id"): str(d.get("name") or d.get("id"))
+                       for d in doc.get("discs", []) or [] if isinstance(d, dict)}
+
+    def _label(self, disc_id):
+        return self._names.get(disc_id, "" if disc_id is None else str(disc_id))
+
     def display(self, doc, key, stored, kind, system) -> str:
         if key in ("from", "to") and stored != GROUND:
-            return disc_label(doc, stored)
+            return self._label(stored)
         return super().display(doc, key, stored, kind, system)
 
     def row_extra(self, doc, obj):
-        return (disc_label(doc, obj.get("from")), disc_label(doc, obj.get("to")))
+        return (self._label(obj.get("from")), self._label(obj.get("to")))
 
     def cell_value(self, obj, key):
         kind = obj.get("kind")

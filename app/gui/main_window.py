@@ -1211,7 +1211,7 @@ def run_gui(path_or_none=None) -> int:
     win.show()
     hook = os.environ.get(TEST_HOOK_ENV)
     if hook:
-        QtCore.QTimer.singleShot(0, lambda: _run_test_hook(win, hook))
+        QtCore.QTimer.singleShot(0, lambda w=win: _run_test_hook(w, hook))
     else:
         QtCore.QTimer.singleShot(0, win.offer_recovery)
     code = app.exec()
@@ -1221,7 +1221,6 @@ def run_gui(path_or_none=None) -> int:
     win.runner.stop()
     win.runner.wait(3000)
     win.hide()
-    del win
     return code
 
 
