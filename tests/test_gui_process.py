@@ -30,7 +30,7 @@ def env_for(tmp_path: Path, **extra) -> dict:
                 "XDG_DATA_HOME": str(tmp_path / "data"), "XDG_CONFIG_HOME": str(tmp_path / "config"),
                 "XDG_RUNTIME_DIR": str(tmp_path / "run"), "PYTHONPATH": str(ROOT)})
     (tmp_path / "run").mkdir(exist_ok=True, mode=0o700)
-    env.pop(mw.TEST_HOOK_ENV, None)
+    env.pop("TWISTWISE_TEST_HOOK", None)
     env.update(extra)
     return env
 
@@ -50,7 +50,7 @@ def test_no_traceback_reaches_stderr_an_internal_error_nor_quitting_with_text_ty
         import sys
         from PySide6 import QtCore, QtWidgets, QtTest
         from app.gui import main_window as mw
-        from app.gui.editors import Field
+        from app.gui.forms import Field  # (the name the old code had too)
         QtWidgets.QMessageBox.exec = lambda self: QtWidgets.QMessageBox.Discard  # 'discard changes'
         show = mw.MainWindow.show
         def patched(self):
