@@ -9,6 +9,8 @@ from __future__ import annotations
 import json
 import math
 import os
+import shutil
+import stat
 import tempfile
 from pathlib import Path
 
@@ -99,27 +101,89 @@ def dump_document(doc: dict) -> str:
     return json.dumps(doc, indent=2, ensure_ascii=False) + "\n"
 
 
+#: numbered backups kept beside a saved file: NAME.json.bak1 (the version just replaced) ... bak3
+BACKUPS = 3
+
+
+def backup_paths(path: str | os.PathLike) -> list[Path]:
+    """``NAME.json.bak1`` (newest) ... ``NAME.json.bak3`` (oldest) beside ``path``."""
+    path = Path(path)
+    return [path.with_name(f"{path.name}.bak{i}") for i in range(1, BACKUPS + 1)]
+
+
+def _new_file_mode() -> int:
+    """The mode an ordinary new file gets: 0666 less the process umask."""
+    mask = os.umask(0o022)  # os.umask only reads by setting; put the old value straight back
+    os.umask(mask)
+    return 0o666 & ~mask
+
+
 def save_document(path: str | os.PathLike, doc: dict, backup: bool = True) -> None:
-    """Write atomically (temporary file, then replace); keep the previous file as ``.bak``."""
+    """Write ``doc`` to ``path`` atomically and keep the versions it replaces.
+
+    * atomic: the text goes to a temporary file in the same folder, is flushed to
+      disk, then renamed over ``path`` (a reader sees the old file or the new one,
+      never a part);
+    * backups (``backup=True``): the file being replaced becomes ``NAME.json.bak1``,
+      the former ``bak1`` becomes ``bak2`` and ``bak2`` becomes ``bak3``; the former
+      ``bak3`` is dropped.  ``path`` itself exists at every moment (``bak1`` is a
+      copy of it).  A ``NAME.json.bak`` left by earlier versions is not touched;
+    * permissions: a replaced file's permission bits carry over to the new one; a
+      new file gets the ordinary default (0666 less the umask), not the 0600 of a
+      temporary file.
+    """
     path = Path(path)
     text = dump_document(doc)
-    fd, tmp = tempfile.mkstemp(prefix=path.name + ".", suffix=".tmp", dir=path.parent or ".")
+    folder = path.parent if str(path.parent) else Path(".")
+    try:
+        mode = stat.S_IMODE(os.stat(path).st_mode)
+        existed = True
+    except FileNotFoundError:
+        mode, existed = _new_file_mode(), False
+    fd, tmp = tempfile.mkstemp(prefix=path.name + ".", suffix=".tmp", dir=folder)
     try:
         with os.fdopen(fd, "w", encoding="utf-8") as fh:
             fh.write(text)
             fh.flush()
             os.fsync(fh.fileno())
-        if backup and path.exists():
-            bak = path.with_name(path.name + ".bak")
-            try:
-                os.replace(path, bak)
-            except OSError:
-                pass
+        os.chmod(tmp, mode)
+        if backup and existed:
+            _rotate_backups(path)
         os.replace(tmp, path)
     except BaseException:
         if os.path.exists(tmp):
             os.unlink(tmp)
         raise
+    _sync_folder(folder)
+
+
+def _rotate_backups(path: Path) -> None:
+    """bak2 -> bak3, bak1 -> bak2, the current file -> bak1 (the current file stays in place)."""
+    baks = backup_paths(path)
+    for older, newer in zip(reversed(baks), reversed(baks[:-1])):
+        if newer.exists():
+            os.replace(newer, older)
+    # a copy, not a second name: a program that rewrites NAME.json in place must not
+    # change the backup too
+    part = baks[0].with_name(baks[0].name + ".tmp")
+    shutil.copy2(path, part)
+    os.replace(part, baks[0])
+
+
+def _sync_folder(folder: Path) -> None:
+    """Flush the folder entry (the rename) to disk where the system allows it."""
+    if not hasattr(os, "O_DIRECTORY"):
+        return
+    try:
+        fd = os.open(folder, os.O_RDONLY | os.O_DIRECTORY)
+    except OSError:
+        return
+    try:
+        os.fsync(fd)
+    except OSError:
+        pass
+    finally:
+        os.close(fd)
 
 
 def load_train(path: str | os.PathLike) -> Train:

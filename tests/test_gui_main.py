@@ -207,7 +207,7 @@ def test_hidden_forms_tab_shows_the_current_document_when_opened(qtbot, window):
     window.set_selection(("link", "soft_coupling"))  # opens the Links tab
     assert window.tabs.currentWidget() is window.link_table
     assert window.link_table.item(index, 0).text() == "soft_coupling"
-    assert "41" in window.link_table.item(index, 4).text()
+    assert "41" in window.link_table.item(index, 5).text()  # Id, Name, Kind, From, To, Stiffness
     assert window.link_table.selectionModel().selectedRows()[0].row() == index
 
 
@@ -259,13 +259,18 @@ def test_operating_data_editor(qtbot, window):
     wait_results(qtbot, window)
     assert window.results.screening.margin == pytest.approx(0.15)
     n = len(window.project.doc["excitations"])
-    [b for b in form.findChildren(QtWidgets.QPushButton) if b.text() == "Add excitation"][0].click()
+    window.tabs.setCurrentWidget(window.excitations_form)
+    window.excitations_form.add_button.click()
     assert len(window.project.doc["excitations"]) == n + 1
-    form.table.item(n, 2).setText("3, 6")
-    assert window.project.doc["excitations"][n]["orders"] == [3, 6]
+    assert window.excitations_form.current == n
+    type_into(qtbot, field_at(window, ("excitations", n, "orders", 0, "order")), "3")
+    window.excitations_form.orders.add_button.click()
+    assert window.project.doc["excitations"][n]["orders"] == [3, 4]
+    window.tabs.setCurrentWidget(form)
     type_into(qtbot, field_at(window, ("operating_speed", "max")), "1400 rpm")  # below min 1485 rpm
     assert window.project.error is not None and window.project.error.element == "operating data"
-    assert form.problem.isVisible()
+    f = field_at(window, ("operating_speed", "min"))
+    assert f.styleSheet() == ERROR_STYLE and f.problem_label.isVisible()
 
 
 # ----------------------------------------------------------------- item 6: undo, files
@@ -298,7 +303,7 @@ def test_save_reopen_compare(qtbot, window, tmp_path):
     assert not window.isWindowModified() and target.name in window.windowTitle()
     window.project.set_value(("title",), "Second save")
     assert window.save()
-    assert (tmp_path / "pump.json.bak").exists()  # previous version kept
+    assert (tmp_path / "pump.json.bak1").exists()  # previous version kept
     saved = json.loads(target.read_text(encoding="utf-8"))
     assert saved == window.project.doc
     assert str(target.resolve()) in window.recent_files()

@@ -42,16 +42,54 @@ def test_units_are_kept_as_typed(tmp_path):
     assert train.links[0].stiffness == pytest.approx(5e5 * 4.4482216152605 * 0.0254, rel=1e-12)  # lbf*in (NIST)
 
 
-def test_second_save_keeps_a_backup_and_writes_atomically(tmp_path):
+def test_saves_keep_three_numbered_backups_and_write_atomically(tmp_path):
+    """NAME.json.bak1 is the version just replaced, bak3 the oldest kept (issue 10, item 3)."""
     p = tmp_path / "p.json"
     doc = json.loads(SAMPLES[0].read_text())
-    save_document(p, doc)
-    first = p.read_text()
-    doc["title"] = "changed"
-    save_document(p, doc)
-    assert (tmp_path / "p.json.bak").read_text() == first
-    assert load_document(p)["title"] == "changed"
-    assert sorted(x.name for x in tmp_path.iterdir()) == ["p.json", "p.json.bak"]  # no temp file left
+    versions = []
+    for i in range(5):
+        doc["title"] = f"version {i}"
+        save_document(p, doc)
+        versions.append(p.read_text())
+    assert load_document(p)["title"] == "version 4"
+    for n, back in ((1, 3), (2, 2), (3, 1)):
+        assert (tmp_path / f"p.json.bak{n}").read_text() == versions[back]
+    # no temporary file left, no fourth backup
+    assert sorted(x.name for x in tmp_path.iterdir()) == ["p.json", "p.json.bak1", "p.json.bak2", "p.json.bak3"]
+
+
+def test_an_old_single_backup_is_left_alone(tmp_path):
+    p = tmp_path / "p.json"
+    (tmp_path / "p.json.bak").write_text("kept by an earlier version")
+    save_document(p, {"title": "a"})
+    save_document(p, {"title": "b"})
+    assert (tmp_path / "p.json.bak").read_text() == "kept by an earlier version"
+
+
+@pytest.mark.skipif(not hasattr(__import__("os"), "getuid"), reason="POSIX permission bits")
+def test_a_saved_file_keeps_the_permissions_of_the_file_it_replaces(tmp_path):
+    import os
+    import stat
+    p = tmp_path / "shared.json"
+    save_document(p, {"title": "a"})
+    os.chmod(p, 0o664)
+    save_document(p, {"title": "b"})
+    assert stat.S_IMODE(os.stat(p).st_mode) == 0o664  # was 0600 whatever the file had
+    os.chmod(p, 0o640)
+    save_document(p, {"title": "c"})
+    assert stat.S_IMODE(os.stat(p).st_mode) == 0o640
+
+
+@pytest.mark.skipif(not hasattr(__import__("os"), "getuid"), reason="POSIX permission bits")
+def test_a_new_file_gets_the_ordinary_default_mode(tmp_path):
+    import os
+    import stat
+    old = os.umask(0o027)
+    try:
+        save_document(tmp_path / "new.json", {"title": "a"})
+    finally:
+        os.umask(old)
+    assert stat.S_IMODE(os.stat(tmp_path / "new.json").st_mode) == 0o640  # 0666 less the umask
 
 
 def test_dump_is_readable_utf8():

@@ -131,6 +131,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         self._width_items: dict = {}  # link key -> [(item, pen role, colour)] drawn with the stiffness weight
         self.context_actions: list = []
         self._press_pos = None
+        self._names: dict = {}  # disc id -> name shown
 
     # ---------------------------------------------------------------- drawing
     def set_document(self, doc: dict, system: str = "SI", error_elements=()) -> None:
@@ -153,12 +154,14 @@ class TrainCanvas(QtWidgets.QGraphicsView):
                 pos[d["id"]] = (placement.column[d["id"]] * COL_W, placement.row[d["id"]] * ROW_H)
         ground_side = {lid: side for lid, _d, side in placement.grounds}
         bad = set(error_elements)
+        self._names = {d["id"]: str(d.get("name") or d["id"]) for d in discs}
 
         wanted = {}  # key -> (signature, draw function)
         for l in links:
             key = ("link", l.get("id"))
             sig = ((repr(l), pos.get(l.get("from")), pos.get(l.get("to")),
-                    ground_side.get(l.get("id")), f"link '{l.get('id')}'" in bad, system), widths.get(l.get("id")))
+                    ground_side.get(l.get("id")), f"link '{l.get('id')}'" in bad, system,
+                    self._names.get(l.get("from")), self._names.get(l.get("to"))), widths.get(l.get("id")))
             wanted.setdefault(key, []).append((sig, l))
         for d in discs:
             if d["id"] not in pos:
@@ -323,9 +326,12 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         item.setBrush(brush)
         name = str(d.get("name") or d["id"])
         value = short_quantity(d.get("inertia"), u.INERTIA, self.system)
-        item.setToolTip(f"<b>{name}</b> (disc '{d['id']}')<br>inertia {d.get('inertia')!s}"
-                        + (f" = {value}" if value != str(d.get('inertia')) else "")
-                        + "<br>Click to select; right-click to insert or delete.")
+        tip = f"<b>{name}</b> (disc '{d['id']}')<br>inertia {value}"
+        if value != str(d.get("inertia")):
+            tip += f" (stored as {d.get('inertia')!s})"
+        if d.get("damping") is not None:
+            tip += f"<br>damping to ground {short_quantity(d.get('damping'), u.DAMPING, self.system)}"
+        item.setToolTip(tip + "<br>Click to select; right-click to insert or delete.")
         self._items[key] = item
         self._element_items.setdefault(key, []).append(item)
         self._disc_brush[key] = brush
@@ -370,26 +376,37 @@ class TrainCanvas(QtWidgets.QGraphicsView):
                 xm = pa.x() + DISC_W / 2 + 14
                 path = [start, QtCore.QPointF(xm, pa.y()), QtCore.QPointF(xm, pb.y()), end]
             self._link_body(group, kind, l, path, width, color)
-        tip = self._link_tooltip(l)
+        tip = self._link_tooltip(l, self._names)
         for child in group.childItems():
             child.setData(0, key)
             child.setToolTip(tip)
         group.setToolTip(tip)
         self._items[key] = group
 
-    def _link_tooltip(self, l: dict) -> str:
+    def _link_tooltip(self, l: dict, names: dict) -> str:
+        """Names over ids (a link's name, else its id; the end discs' names), values in the
+        unit system on screen with the stored text beside them."""
         kind = l.get("kind")
-        rows = [f"<b>{l.get('id')}</b>: {str(kind).replace('_', ' ')} from '{l.get('from')}' to '{l.get('to')}'"]
+        lid = l.get("id")
+        title = f"<b>{l.get('name')}</b> (link '{lid}')" if l.get("name") else f"<b>{lid}</b>"
+        ends = [GROUND if e == GROUND else names.get(e, e) for e in (l.get("from"), l.get("to"))]
+        rows = [f"{title}: {str(kind).replace('_', ' ')} from {ends[0]} (input) to {ends[1]} (output)"]
+
+        def quantity(label, value):
+            shown = short_quantity(value, u.STIFFNESS, self.system)
+            rows.append(f"{label} {shown}" + (f" (stored as {value})" if shown != str(value) else ""))
+
         if kind == "gear_mesh":
-            rows.append(f"speed ratio (to / from) {l.get('speed_ratio')}")
+            rows.append(f"speed ratio (output / input) = speed of '{ends[1]}' / speed of '{ends[0]}' "
+                        f"= {l.get('speed_ratio')}")
             if l.get("stiffness") is not None:
-                rows.append(f"mesh stiffness {l.get('stiffness')}")
+                quantity("mesh stiffness", l.get("stiffness"))
             else:
                 rows.append("rigid mesh")
         else:
             k = link_stiffness_si(l)
             if l.get("stiffness") is not None:
-                rows.append(f"stiffness {l.get('stiffness')}")
+                quantity("stiffness", l.get("stiffness"))
             elif k is not None:
                 rows.append(f"stiffness from geometry {short_quantity(k, u.STIFFNESS, self.system)}")
             if l.get("mass") in ("lumped", "distributed"):

@@ -49,6 +49,13 @@ def compute(train) -> Results:
     from core.study import LIVE_PARTS, StudyOptions, run_study
     t0 = time.perf_counter()
     study = run_study(train, StudyOptions(parts=LIVE_PARTS))
+    import numpy as np
+    if not np.all(np.isfinite(study.modes.frequency_hz)):
+        # the study refuses these itself; this guard keeps a verdict from a non-number off the
+        # screen whatever reaches it (the views keep the last valid results, marked)
+        from core.errors import ModelError
+        raise ModelError("the solve gave natural frequencies that are not finite numbers; check the "
+                         "inertias, stiffnesses and speed ratios for extreme values", "train")
     note = ""
     if study.screening_error is not None:
         note = f"not screened: {study.screening_error}"
@@ -68,9 +75,13 @@ class _Job(QtCore.QRunnable):
 
     def run(self):
         try:
-            self.signals.done.emit(self.generation, compute(self.train), "")
+            res, error = compute(self.train), ""
         except Exception as exc:
-            self.signals.done.emit(self.generation, None, f"{type(exc).__name__}: {exc}")
+            res, error = None, f"{type(exc).__name__}: {exc}"
+        try:
+            self.signals.done.emit(self.generation, res, error)
+        except RuntimeError:
+            pass  # the window went while this solve ran (quit): nobody waits for the result
 
 
 class ResultsRunner(QtCore.QObject):
@@ -106,6 +117,13 @@ class ResultsRunner(QtCore.QObject):
             self._start()
         else:
             self._timer.start()
+
+    def stop(self) -> None:
+        """No more results (the window is closing): a pending request is dropped and a solve
+        still running is ignored when it ends."""
+        self._timer.stop()
+        self._pending = None
+        self._generation += 1
 
     def compute_now(self, train) -> Results:
         """Synchronous solve (screenshots, tests): emits resultsReady too."""

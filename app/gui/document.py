@@ -54,14 +54,16 @@ class SetValue(QtGui.QUndoCommand):
         old = get_path(project.doc, self.path)
         self.old = _MISSING if old is None else copy.deepcopy(old)
         self.new = _MISSING if value is None else copy.deepcopy(value)
+        self._done = False  # the first redo is the edit itself; later ones come from the history
 
     def redo(self):
         _set_path(self.project.doc, self.path, _copy(self.new))
-        self.project._changed()
+        self.project._changed(from_history=self._done)
+        self._done = True
 
     def undo(self):
         _set_path(self.project.doc, self.path, _copy(self.old))
-        self.project._changed()
+        self.project._changed(from_history=True)
 
 
 def _copy(value):
@@ -78,14 +80,16 @@ class ReplaceDocument(QtGui.QUndoCommand):
         self.project = project
         self.before = copy.deepcopy(project.doc)
         self.after = copy.deepcopy(new_doc)
+        self._done = False
 
     def redo(self):
         self.project.doc = copy.deepcopy(self.after)
-        self.project._changed()
+        self.project._changed(from_history=self._done)
+        self._done = True
 
     def undo(self):
         self.project.doc = copy.deepcopy(self.before)
-        self.project._changed()
+        self.project._changed(from_history=True)
 
 
 class Project(QtCore.QObject):
@@ -95,6 +99,8 @@ class Project(QtCore.QObject):
     ``trainChanged(train)`` when a new valid train was built;
     ``errorChanged(error_or_None)`` when the model's problem appears, changes
     or goes away; ``fileChanged`` when the path or clean state changes.
+    ``from_history`` is True while views refresh after an undo, a redo or a new
+    document (the document then replaces any text still being typed in a field).
     """
 
     documentChanged = QtCore.Signal()
@@ -108,8 +114,14 @@ class Project(QtCore.QObject):
         self.path: Path | None = None
         self.train = None
         self.error: ModelError | None = None
+        self.from_history = False
         self.undo_stack = QtGui.QUndoStack(self)
-        self.undo_stack.cleanChanged.connect(lambda _clean: self.fileChanged.emit())
+        self.undo_stack.cleanChanged.connect(self._clean_changed)
+
+    def _clean_changed(self, _clean) -> None:
+        # a bound method, not a lambda: Qt drops the connection with the object (a lambda
+        # outlived the project at quit and raised "Signal source has been deleted")
+        self.fileChanged.emit()
 
     # ------------------------------------------------------------ state
     @property
@@ -135,7 +147,7 @@ class Project(QtCore.QObject):
         self.doc = copy.deepcopy(doc)
         self.path = Path(path) if path else None
         self.train = None
-        self._changed()
+        self._changed(from_history=True)
         self.undo_stack.setClean()
         self.fileChanged.emit()
 
@@ -145,7 +157,8 @@ class Project(QtCore.QObject):
         self.set_document(load_document(path), path)
 
     def save(self, path=None) -> Path:
-        """Atomic save with a ``.bak`` of the previous file (core.project.save_document)."""
+        """Atomic save; the file replaced is kept as ``NAME.json.bak1`` (older ones as bak2,
+        bak3: core.project.save_document)."""
         target = Path(path) if path else self.path
         if target is None:
             raise ValueError("no file name")
@@ -166,10 +179,14 @@ class Project(QtCore.QObject):
             return
         self.undo_stack.push(ReplaceDocument(self, new_doc, text))
 
-    def _changed(self) -> None:
+    def _changed(self, from_history: bool = False) -> None:
         # rebuild first, so views refreshing on documentChanged see the current error
         self.rebuild()
-        self.documentChanged.emit()
+        self.from_history = from_history
+        try:
+            self.documentChanged.emit()
+        finally:
+            self.from_history = False
 
     def rebuild(self) -> None:
         try:

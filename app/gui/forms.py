@@ -18,184 +18,53 @@ from __future__ import annotations
 import copy
 import math
 
-from PySide6 import QtCore, QtGui, QtWidgets
+from PySide6 import QtCore, QtWidgets
 
 from core import units as u
 from core.materials import LIBRARY
 from core.model import GROUND, LINK_KINDS, MASS_MODELS
 
-from . import theme
+from . import edits, theme
 from .canvas import link_stiffness_si
+from .editors import (CHOICE, NUMBER, TEXT, TIPS, Field, Spec, add_spec_rows, disc_choices, labelled,
+                      show_spec_value, stored_value, tip)
+from .editors import ERROR_STYLE, text_problem  # noqa: F401 (re-exported: forms used to define them)
 from .quantities import _read, display_text, read_si  # noqa: F401 (re-exported)
 
-NUMBER = "number"
-TEXT = "text"
-
-# Meaning and units of every field (tooltips).
-TIPS = {
-    "id": "Identifier used by links and excitations. Renaming a disc updates every reference to it.",
-    "name": "Descriptive name shown on the schematic and in the results.",
-    "inertia": "Polar mass moment of inertia about the shaft axis (kg*m^2, lb*ft^2, lb*in^2 ...).",
-    "disc.damping": "Absolute viscous damping of the disc to ground (N*m*s/rad, lbf*in*s/rad); optional.",
-    "kind": "shaft: elastic shaft; coupling: flexible coupling; gear_mesh: gear pair with a speed ratio.",
-    "from": "Disc at the driving end of the link ('ground' for a rigid support).",
-    "to": "Disc at the driven end of the link ('ground' for a rigid support).",
-    "stiffness": "Torsional stiffness (N*m/rad, kN*m/rad, MN*m/rad, lbf*in/rad ...). "
-                 "For a gear mesh: optional mesh stiffness; empty means a rigid mesh.",
-    "speed_ratio": "Gear mesh speed ratio: speed of the 'to' disc / speed of the 'from' disc (plain number).",
-    "mass": "Shaft's own inertia: none (massless spring), lumped (half to each end disc) or "
-            "distributed (exact wave solution). Needs the geometry.",
-    "link.damping": "Relative viscous damping across the link (N*m*s/rad); optional, used by the forced response.",
-    "relative_damping": "Relative damping psi of a coupling (plain number, psi = 2 pi x loss factor); optional.",
-    "permissible_torque": "Permissible vibratory torque amplitude of the link (N*m, kN*m, lbf*ft); optional.",
-    "permissible_stress": "Permissible vibratory shear stress amplitude (MPa, ksi); optional.",
-    "stress_concentration": "Stress concentration factor applied to the nominal shear stress (>= 1).",
-    "length": "Length of this uniform piece of shaft (mm, m, in).",
-    "outer_diameter": "Outer diameter of this piece (mm, in).",
-    "inner_diameter": "Bore diameter; 0 or empty for a solid shaft (mm, in).",
-    "material": "Shaft material from the library, or 'custom' to give shear modulus and density.",
-    "shear_modulus": "Shear modulus G of the custom material (GPa, ksi, psi).",
-    "density": "Density of the custom material (kg/m^3, lb/in^3).",
-    "title": "Project title, shown in the window title and on the review sheet.",
-    "description": "One or two lines describing the train.",
-    "reference": "Disc whose shaft speed is the x axis of the interference diagram; excitation "
-                 "orders of other shafts are converted through the gear ratios.",
-    "speed.min": "Lowest continuous operating speed of the reference shaft (rpm, rad/s, Hz).",
-    "speed.max": "Highest continuous operating speed of the reference shaft (rpm, rad/s, Hz).",
-    "speed.trip": "Trip (overspeed) speed of the reference shaft; optional, drawn but not screened.",
-    "speed.name": "Name of the operating range (e.g. 'Inverter speed range').",
-    "margin_percent": "Required separation margin between natural and excitation frequencies, % "
-                      "(0 to 50; 10 % is common).",
-    "exc.name": "Name of the excitation source.",
-    "exc.at": "Disc where the excitation acts; its shaft speed sets the order frequencies. "
-              "'(fixed frequency)' for a source that does not follow the speed.",
-    "exc.orders": "Orders per revolution of the source shaft, separated by commas (e.g. 1, 2, 17).",
-    "exc.frequency": "Fixed excitation frequency (Hz, cpm) for a source that does not follow the speed.",
-}
-
-
-def tip(key: str, kind=None, system: str = "SI") -> str:
-    text = TIPS.get(key, "")
-    if isinstance(kind, u.Kind):
-        text += f" Shown in {u.display_unit(kind, system)}; a bare number is read in that unit."
-    return text
-
-
-# ----------------------------------------------------------------- value helpers
-def stored_value(text: str, kind, system: str):
-    """What goes into the document for text the user typed (None: remove the key)."""
-    text = text.strip()
-    if not text:
-        return None
-    if isinstance(kind, u.Kind):
-        try:
-            float(text)
-        except ValueError:
-            return text
-        return f"{text} {u.display_unit(kind, system)}"
-    if kind == NUMBER:
-        try:
-            x = float(text)
-        except ValueError:
-            return text
-        return int(x) if x.is_integer() and abs(x) < 1e15 else x
-    return text
-
-
-def text_problem(text: str, kind) -> str | None:
-    """Problem with text typed into a field (None when it reads)."""
-    text = text.strip()
-    if not text:
-        return None
-    if isinstance(kind, u.Kind):
-        try:
-            float(text)
-            return None
-        except ValueError:
-            return _read(text, kind)[1]
-    if kind == NUMBER:
-        try:
-            u.parse_number(text)
-        except Exception as exc:
-            return getattr(exc, "message", str(exc))
-    return None
-
-
-ERROR_STYLE = f"border: 2px solid {theme.FAIL}; background: {theme.FAIL_FILL};"
-
-
-# ----------------------------------------------------------------- one field
-class Field(QtWidgets.QLineEdit):
-    """A line edit bound to a document path; marks problems while typing."""
-
-    committed = QtCore.Signal(tuple, object)  # path, stored value (None removes)
-
-    def __init__(self, path: tuple, kind, tip_key: str, system: str, optional: bool = True,
-                 parent=None):
-        super().__init__(parent)
-        self.path, self.kind, self.tip_key, self.optional = tuple(path), kind, tip_key, optional
-        self.system = system
-        self._shown = ""
-        self._model_problem = None
-        self.setToolTip(tip(tip_key, kind, system))
-        if isinstance(kind, u.Kind):
-            self.setPlaceholderText(f"e.g. {kind.example}")
-        self.textEdited.connect(self._check)
-        self.editingFinished.connect(self._finish)
-        self.problem_label = QtWidgets.QLabel()
-        self.problem_label.setWordWrap(True)
-        self.problem_label.setStyleSheet(f"color: {theme.FAIL};")
-        self.problem_label.hide()
-
-    def show_value(self, stored, system: str, model_problem: str | None = None) -> None:
-        self.system = system
-        self.setToolTip(tip(self.tip_key, self.kind, system) +
-                        (f"\nStored as: {stored}" if stored is not None else ""))
-        if not self.hasFocus() or not self.isModified():
-            self._shown = display_text(stored, self.kind, system)
-            self.setText(self._shown)
-            self.setCursorPosition(0)  # show the start of a long value
-            self.setModified(False)
-        self._model_problem = model_problem
-        self._check()
-
-    def _check(self, *_):
-        problem = text_problem(self.text(), self.kind)
-        if problem is None and not self.text().strip() and not self.optional:
-            problem = "a value is required"
-        if problem is None and self.text() == self._shown:
-            problem = self._model_problem
-        self.setStyleSheet(ERROR_STYLE if problem else "")
-        self.problem_label.setText(problem or "")
-        self.problem_label.setVisible(bool(problem))
-
-    def _finish(self):
-        if self.text() == self._shown:
-            return
-        self._shown = self.text()
-        self.setModified(False)
-        self.committed.emit(self.path, stored_value(self.text(), self.kind, self.system))
 
 
 # ----------------------------------------------------------------- tables
 class _ChoiceDelegate(QtWidgets.QStyledItemDelegate):
-    """A combo box editor for columns with a fixed list of choices."""
+    """A combo box editor for columns with a fixed list of choices: ``choices()`` gives
+    plain strings or (stored value, label) pairs (names shown, ids stored)."""
 
     def __init__(self, choices, parent=None):
         super().__init__(parent)
-        self.choices = choices  # callable -> list[str]
+        self.choices = choices  # callable -> list[str | (value, label)]
+
+    def _pairs(self):
+        return [c if isinstance(c, tuple) else (c, c) for c in self.choices()]
 
     def createEditor(self, parent, option, index):
         box = QtWidgets.QComboBox(parent)
-        box.addItems(self.choices())
+        for value, label in self._pairs():
+            box.addItem(label, value)
         return box
 
     def setEditorData(self, editor, index):
-        i = editor.findText(index.data())
+        stored = index.data(STORED_ROLE)
+        i = editor.findData(stored) if stored is not None else -1
+        if i < 0:
+            i = editor.findText(index.data())
         editor.setCurrentIndex(max(i, 0))
 
     def setModelData(self, editor, model, index):
+        model.setData(index, editor.currentData(), CHOSEN_ROLE)
         model.setData(index, editor.currentText())
+
+
+STORED_ROLE = QtCore.Qt.UserRole + 1  # the stored value behind a cell that shows a name
+CHOSEN_ROLE = QtCore.Qt.UserRole + 2  # the value picked in a dropdown, read once by _item_changed
 
 
 class DocTable(QtWidgets.QTableWidget):
@@ -240,8 +109,12 @@ class DocTable(QtWidgets.QTableWidget):
             item = self.horizontalHeaderItem(c)
             item.setToolTip(tip(col[3], col[2], self.system))
 
+    def prepare(self, doc: dict) -> None:
+        """Once per refresh, before the rows (e.g. the disc names the link rows show)."""
+
     def refresh(self, doc: dict, project, system: str) -> None:
         self.system = system
+        self.prepare(doc)
         self._updating = True
         rows = [x for x in doc.get(self.list_key, []) if isinstance(x, dict)]
         self.setRowCount(len(rows))
@@ -258,7 +131,7 @@ class DocTable(QtWidgets.QTableWidget):
             # a row whose content, place and error are as last drawn is left alone
             # (one edit changes one row; a 200-disc train stays quick to redraw)
             row_key = (repr(obj), index, system, error_text if project.error is not None
-                       and project.error.element == element else None)
+                       and project.error.element == element else None, self.row_extra(doc, obj))
             if r < len(self._row_keys) and self._row_keys[r] == row_key and (r, 0) in self._meta_keep:
                 for c in range(len(self.columns)):
                     self._meta[(r, c)] = self._meta_keep[(r, c)]
@@ -269,12 +142,14 @@ class DocTable(QtWidgets.QTableWidget):
                 self._row_keys.append(row_key)
             for c, (header, key, kind, tip_key) in enumerate(self.columns):
                 stored, editable, note = self.cell_value(obj, key)
-                shown = display_text(stored, kind, system) if note is None else note
+                shown = self.display(doc, key, stored, kind, system) if note is None else note
                 item = self.item(r, c)
                 if item is None:
                     item = QtWidgets.QTableWidgetItem()
                     self.setItem(r, c, item)
                 item.setText(shown)
+                item.setData(STORED_ROLE, stored if shown != display_text(stored, kind, system) else None)
+                item.setData(CHOSEN_ROLE, None)
                 flags = QtCore.Qt.ItemIsSelectable | QtCore.Qt.ItemIsEnabled
                 if editable:
                     flags |= QtCore.Qt.ItemIsEditable
@@ -287,7 +162,7 @@ class DocTable(QtWidgets.QTableWidget):
                     and project.error.element == element and not self._has_column(project.error.field)
                     else None)
                 t = tip(tip_key, kind, system)
-                if stored is not None and isinstance(kind, u.Kind):
+                if stored is not None and (isinstance(kind, u.Kind) or str(stored) != shown):
                     t += f"\nStored as: {stored}"
                 elif shown and kind is TEXT:
                     t = f"{shown}\n\n{t}"  # the full text of a cell too narrow for it
@@ -314,6 +189,15 @@ class DocTable(QtWidgets.QTableWidget):
         """(stored value, editable, note text replacing the value or None)."""
         return obj.get(key), True, None
 
+    def display(self, doc, key, stored, kind, system) -> str:
+        """The text a cell shows for a stored value (names over ids where a column holds ids)."""
+        return display_text(stored, kind, system)
+
+    def row_extra(self, doc, obj):
+        """What a row's drawing depends on besides its own object (e.g. the names of the discs
+        it names)."""
+        return None
+
     def _item_changed(self, item):
         if self._updating:
             return
@@ -322,7 +206,16 @@ class DocTable(QtWidgets.QTableWidget):
             return
         path, kind, shown, ident = meta
         text = item.text()
+        chosen = item.data(CHOSEN_ROLE)
         if text == shown:
+            return
+        if chosen is not None:  # picked in a dropdown that shows names: store the id
+            self._updating = True
+            item.setData(CHOSEN_ROLE, None)
+            self._updating = False
+            if item.row() < len(self._row_keys):
+                self._row_keys[item.row()] = None
+            self.editRequested.emit(path, chosen, f"Edit {self.element_kind} '{ident}' {path[-1]}")
             return
         if item.row() < len(self._row_keys):
             self._row_keys[item.row()] = None  # redraw this row whatever the edit leads to
@@ -357,7 +250,7 @@ class DiscTable(DocTable):
     list_key = "discs"
     columns = [("Id", "id", TEXT, "id"), ("Name", "name", TEXT, "name"),
                ("Inertia", "inertia", u.INERTIA, "inertia"),
-               ("Damping to ground", "damping", u.DAMPING, "disc.damping")]
+               ("Damping", "damping", u.DAMPING, "disc.damping")]
 
     def __init__(self, parent=None):
         super().__init__(parent)
@@ -367,31 +260,46 @@ class DiscTable(DocTable):
         h.setStretchLastSection(False)
         h.setMinimumSectionSize(60)
         h.setDefaultAlignment(QtCore.Qt.AlignLeft | QtCore.Qt.AlignVCenter)  # a cut header keeps its start
-        self.setColumnWidth(0, 88)
-        self.setColumnWidth(2, 118)
-        self.setColumnWidth(3, 100)
+        self.setColumnWidth(0, 80)
+        self.setColumnWidth(2, 108)
+        self.setColumnWidth(3, 96)
         h.setSectionResizeMode(1, QtWidgets.QHeaderView.Stretch)
 
 
 class LinkTable(DocTable):
     element_kind = "link"
     list_key = "links"
-    columns = [("Id", "id", TEXT, "id"), ("Kind", "kind", TEXT, "kind"),
+    columns = [("Id", "id", TEXT, "id"), ("Name", "name", TEXT, "link.name"), ("Kind", "kind", TEXT, "kind"),
                ("From", "from", TEXT, "from"), ("To", "to", TEXT, "to"),
                ("Stiffness", "stiffness", u.STIFFNESS, "stiffness"),
-               ("Speed ratio", "speed_ratio", NUMBER, "speed_ratio"),
+               ("Speed ratio (out / in)", "speed_ratio", NUMBER, "speed_ratio"),
                ("Shaft inertia", "mass", TEXT, "mass")]
 
     def __init__(self, parent=None):
         super().__init__(parent)
-        self.disc_choices = lambda: []
-        self.setItemDelegateForColumn(1, _ChoiceDelegate(lambda: list(LINK_KINDS), self))
-        ends = _ChoiceDelegate(lambda: self.disc_choices() + [GROUND], self)
-        self.setItemDelegateForColumn(2, ends)
+        self.disc_choices = lambda: []  # [(id, name)] from the main window
+        self.setItemDelegateForColumn(2, _ChoiceDelegate(lambda: list(LINK_KINDS), self))
+        ends = _ChoiceDelegate(lambda: list(self.disc_choices()) + [(GROUND, GROUND)], self)
         self.setItemDelegateForColumn(3, ends)
-        self.setItemDelegateForColumn(6, _ChoiceDelegate(lambda: list(MASS_MODELS), self))
-        for c, w in enumerate((110, 80, 95, 95, 130, 80)):
+        self.setItemDelegateForColumn(4, ends)
+        self.setItemDelegateForColumn(7, _ChoiceDelegate(lambda: list(MASS_MODELS), self))
+        for c, w in enumerate((100, 110, 80, 100, 100, 120, 80)):
             self.setColumnWidth(c, w)
+
+    def prepare(self, doc):
+        self._names = {d.get("id"): str(d.get("name") or d.get("id"))
+                       for d in doc.get("discs", []) or [] if isinstance(d, dict)}
+
+    def _label(self, disc_id):
+        return self._names.get(disc_id, "" if disc_id is None else str(disc_id))
+
+    def display(self, doc, key, stored, kind, system) -> str:
+        if key in ("from", "to") and stored != GROUND:
+            return self._label(stored)
+        return super().display(doc, key, stored, kind, system)
+
+    def row_extra(self, doc, obj):
+        return (self._label(obj.get("from")), self._label(obj.get("to")))
 
     def cell_value(self, obj, key):
         kind = obj.get("kind")
@@ -420,8 +328,62 @@ class LinkTable(DocTable):
 
 
 # ----------------------------------------------------------------- property form
+def _shaft_or_given(key):
+    """Stress keys apply to shafts (they need the geometry); on another link they show only
+    when the file gives them, so that they can still be read and cleared."""
+    return lambda obj: obj.get("kind") == "shaft" or obj.get(key) is not None
+
+
+DISC_SPECS = [
+    Spec("id", "Id", TEXT, "id", optional=False),
+    Spec("name", "Name", TEXT, "name"),
+    Spec("inertia", "Inertia", u.INERTIA, "inertia", optional=False),
+    Spec("damping", "Damping to ground", u.DAMPING, "disc.damping"),
+]
+LINK_HEAD_SPECS = [
+    Spec("id", "Id", TEXT, "id", optional=False),
+    Spec("name", "Name", TEXT, "link.name"),
+]
+LINK_END_SPECS = [
+    Spec("from", "From (input)", CHOICE, "from", choices=lambda doc: disc_choices(doc, [(GROUND, GROUND)])),
+    Spec("to", "To (output)", CHOICE, "to", choices=lambda doc: disc_choices(doc, [(GROUND, GROUND)])),
+]
+GEAR_SPECS = [
+    Spec("speed_ratio", "Speed ratio\n(output / input)", NUMBER, "speed_ratio", optional=False),
+    Spec("stiffness", "Mesh stiffness", u.STIFFNESS, "stiffness", placeholder="rigid"),
+]
+LINK_DAMPING_SPECS = [Spec("damping", "Viscous damping", u.DAMPING, "link.damping")]
+LINK_LIMIT_SPECS = [
+    Spec("permissible_torque", "Permissible torque", u.TORQUE, "permissible_torque"),
+    Spec("permissible_stress", "Permissible stress", u.STRESS, "permissible_stress",
+         applies=_shaft_or_given("permissible_stress")),
+    Spec("stress_concentration", "Stress concen-\ntration factor", NUMBER, "stress_concentration",
+         applies=_shaft_or_given("stress_concentration"), placeholder="1"),
+]
+#: how each material-damping key is offered (edits.DAMPING_KEYS)
+DAMPING_CHOICES = [(None, "none"), ("loss_factor", "loss factor η"),
+                   ("relative_damping", "ψ (relative)"), ("dynamic_magnifier", "magnifier M")]
+
+
+def damping_equivalents(key, stored) -> str:
+    """'η = 0.127 · ψ = 0.8 · M = 7.85' for a stored damping value ('' when it does not read)."""
+    if key is None or stored is None:
+        return ""
+    try:
+        eta = edits.loss_factor_of(key, float(u.parse_number(stored)))
+    except Exception:
+        return ""
+    if eta is None or not math.isfinite(eta) or eta < 0:
+        return ""
+    psi = edits.from_loss_factor("relative_damping", eta)
+    m = edits.from_loss_factor("dynamic_magnifier", eta)
+    return (f"η = {eta:.3g} · ψ = {psi:.3g} · M = " + (f"{m:.3g}" if m is not None else "∞ (no damping)"))
+
+
 class PropertyForm(QtWidgets.QScrollArea):
-    """The selected disc or link with every field, the shaft's segments and material."""
+    """The selected disc or link with every key of the file: built from Specs
+    (:mod:`app.gui.editors`), the shaft's segments and material, the link's
+    material damping given one way (η, ψ or M) with the others shown, and its limits."""
 
     editRequested = QtCore.Signal(tuple, object, str)
     replaceRequested = QtCore.Signal(dict, str)
@@ -434,9 +396,13 @@ class PropertyForm(QtWidgets.QScrollArea):
         self.setMinimumWidth(260)
         self._signature = None
         self._fields: list[Field] = []
+        self._specs: list = []  # (spec, widget, path of the element)
         self._doc = {}
         self.selection = None
         self.system = "SI"
+        self._damping_choice: dict = {}  # link id -> damping key chosen while no value is given
+        self._project = _NoProject
+        self.damping_box = self.damping_note = None
         self._body = QtWidgets.QWidget()
         self.setWidget(self._body)
         QtWidgets.QVBoxLayout(self._body)
@@ -453,6 +419,8 @@ class PropertyForm(QtWidgets.QScrollArea):
             elif item.layout() is not None:
                 _delete_layout(item.layout())
         self._fields = []
+        self._specs = []
+        self.damping_box = self.damping_note = None
 
     def _placeholder(self):
         self._clear()
@@ -463,23 +431,38 @@ class PropertyForm(QtWidgets.QScrollArea):
         self._body.layout().addWidget(lab)
         self._body.layout().addStretch(1)
 
-    def show_element(self, doc: dict, selection, project, system: str) -> None:
-        self._doc, self.selection, self.system = doc, selection, system
+    def reset(self) -> None:
+        """Another project: forget per-project choices."""
+        self._damping_choice.clear()
+        self._signature = None
+
+    def show_element(self, doc: dict, selection, project, system: str, force: bool = False) -> None:
+        """Show the selected element of ``doc``; ``force``: an undo or redo (the document
+        replaces text being typed)."""
+        self._doc, self.selection, self.system, self._project = doc, selection, system, project
         obj, index = self._find(doc, selection)
         if obj is None:
-            self._signature = None
-            self._placeholder()
+            if self._signature is not None or force:
+                self._signature = None
+                self._placeholder()
             return
-        sig = self._structure(obj, selection, index, system)
+        sig = self._structure(doc, obj, selection, index, system)
         if sig != self._signature:
             self._signature = sig
             self._build(obj, index, selection, project)
+        for spec, w, _base in self._specs:
+            show_spec_value(w, spec, doc, obj, _get(doc, w.path), system,
+                            self._model_problem(project, w.path), force)
         for f in self._fields:
-            f.show_value(_get(doc, f.path), system, self._model_problem(project, f.path))
+            f.show_value(_get(doc, f.path), system, self._model_problem(project, f.path), force)
+        if self.damping_note is not None:
+            key = self._damping_key(obj)
+            text = damping_equivalents(key, obj.get(key) if key else None)
+            self.damping_note.setText(text or "equivalents: —")
 
     @staticmethod
     def _find(doc, selection):
-        if not selection:
+        if not selection or selection[0] not in ("disc", "link"):
             return None, None
         key = "discs" if selection[0] == "disc" else "links"
         for i, x in enumerate(doc.get(key, [])):
@@ -487,12 +470,17 @@ class PropertyForm(QtWidgets.QScrollArea):
                 return x, i
         return None, None
 
-    def _structure(self, obj, selection, index, system):
+    def _damping_key(self, obj):
+        return edits.damping_key(obj) or self._damping_choice.get(obj.get("id"))
+
+    def _structure(self, doc, obj, selection, index, system):
         segs = obj.get("segments")
         mat = obj.get("material")
+        shown = tuple(spec.key for spec in LINK_LIMIT_SPECS if spec.shown_for(obj))
         return (selection, index, system, obj.get("kind"), obj.get("stiffness") is None,
                 len(segs) if isinstance(segs, list) else None, isinstance(mat, dict),
-                mat if isinstance(mat, str) else None, obj.get("mass"))
+                mat if isinstance(mat, str) else None, obj.get("mass"), shown,
+                self._damping_key(obj) if selection[0] == "link" else None)
 
     def _model_problem(self, project, path):
         obj, _ = self._find(self._doc, self.selection)
@@ -505,15 +493,14 @@ class PropertyForm(QtWidgets.QScrollArea):
             return project.error_at(element, f"material.{path[-1]}")
         return project.error_at(element, path[-1])
 
+    def _add_specs(self, form, specs, base, obj):
+        for spec, w in add_spec_rows(form, specs, base, obj, self.system, self._commit):
+            self._specs.append((spec, w, base))
+
     def _add_field(self, form, label, path, kind, tip_key, optional=True):
         f = Field(path, kind, tip_key, self.system, optional)
         f.committed.connect(self._commit)
-        lab = QtWidgets.QLabel(label)
-        lab.setToolTip(f.toolTip())
-        box = QtWidgets.QVBoxLayout()
-        box.setSpacing(1)
-        box.addWidget(f)
-        box.addWidget(f.problem_label)
+        lab, box = labelled(f, label)
         form.addRow(lab, box)
         self._fields.append(f)
         return f
@@ -535,37 +522,43 @@ class PropertyForm(QtWidgets.QScrollArea):
 
     def _commit(self, path, value):
         obj, _ = self._find(self._doc, self.selection)
+        if obj is None:
+            return
         if path[-1] == "id" and self.selection[0] == "disc":
             if value:
                 self.renameRequested.emit(self.selection[1], str(value))
             return
         self.editRequested.emit(path, value, f"Edit {self.selection[0]} '{obj.get('id')}' {path[-1]}")
 
+    @staticmethod
+    def _section(lay, text):
+        lab = QtWidgets.QLabel(text)
+        lab.setFont(theme.font(theme.BASE_POINT_SIZE, bold=True))
+        lay.addWidget(lab)
+        form = _narrow_form()
+        lay.addLayout(form)
+        return form
+
     def _build(self, obj, index, selection, project):
         self._clear()
         lay = self._body.layout()
         kind = selection[0]
-        heading = QtWidgets.QLabel(f"{'Disc' if kind == 'disc' else str(obj.get('kind', 'link')).replace('_', ' ').capitalize()}"
-                                   f" '{obj.get('id')}'")
+        what = "Disc" if kind == "disc" else str(obj.get("kind", "link")).replace("_", " ").capitalize()
+        name = obj.get("name")
+        heading = QtWidgets.QLabel(f"{what} '{name}'" if name else f"{what} '{obj.get('id')}'")
         heading.setFont(theme.font(theme.TITLE_POINT_SIZE, bold=True))
         heading.setWordWrap(True)
         lay.addWidget(heading)
         form = _narrow_form()
         lay.addLayout(form)
         base = ("discs" if kind == "disc" else "links", index)
-        self._add_field(form, "Id", base + ("id",), TEXT, "id", optional=False)
         if kind == "disc":
-            self._add_field(form, "Name", base + ("name",), TEXT, "name")
-            self._add_field(form, "Inertia", base + ("inertia",), u.INERTIA, "inertia", optional=False)
-            self._add_field(form, "Damping to ground", base + ("damping",), u.DAMPING, "disc.damping")
+            self._add_specs(form, DISC_SPECS, base, obj)
             lay.addStretch(1)
             return
-        ends = [d.get("id") for d in self._doc.get("discs", []) if isinstance(d, dict)] + [GROUND]
+        self._add_specs(form, LINK_HEAD_SPECS, base, obj)
         self._combo(form, "Kind", list(LINK_KINDS), obj.get("kind"), "kind", self._change_kind)
-        self._combo(form, "From", ends, obj.get("from"), "from",
-                    lambda t: self.editRequested.emit(base + ("from",), t, f"Edit link '{obj.get('id')}' from"))
-        self._combo(form, "To", ends, obj.get("to"), "to",
-                    lambda t: self.editRequested.emit(base + ("to",), t, f"Edit link '{obj.get('id')}' to"))
+        self._add_specs(form, LINK_END_SPECS, base, obj)
         lk = obj.get("kind")
         if lk == "shaft":
             geometry = obj.get("stiffness") is None and obj.get("segments") is not None
@@ -595,23 +588,59 @@ class PropertyForm(QtWidgets.QScrollArea):
                 self._combo(form2, "Shaft inertia", list(MASS_MODELS), obj.get("mass") or "none", "mass",
                             lambda t: self.editRequested.emit(base + ("mass",), None if t == "none" else t,
                                                               f"Edit link '{obj.get('id')}' mass"))
-                form = form2
             else:
                 self._add_field(form, "Stiffness", base + ("stiffness",), u.STIFFNESS, "stiffness", optional=False)
         elif lk == "coupling":
             self._add_field(form, "Stiffness", base + ("stiffness",), u.STIFFNESS, "stiffness", optional=False)
-            self._add_field(form, "Relative damping ψ", base + ("relative_damping",), NUMBER, "relative_damping")
         else:
-            self._add_field(form, "Speed ratio", base + ("speed_ratio",), NUMBER, "speed_ratio", optional=False)
-            self._add_field(form, "Mesh stiffness", base + ("stiffness",), u.STIFFNESS, "stiffness")
-        self._add_field(form, "Damping", base + ("damping",), u.DAMPING, "link.damping")
-        self._add_field(form, "Permissible torque", base + ("permissible_torque",), u.TORQUE, "permissible_torque")
-        if lk == "shaft":
-            self._add_field(form, "Permissible stress", base + ("permissible_stress",), u.STRESS,
-                            "permissible_stress")
-            self._add_field(form, "Stress concentration", base + ("stress_concentration",), NUMBER,
-                            "stress_concentration")
+            self._add_specs(form, GEAR_SPECS, base, obj)
+        damping = self._section(lay, "Damping")
+        self._add_specs(damping, LINK_DAMPING_SPECS, base, obj)
+        self._material_damping(damping, obj, base)
+        limits = self._section(lay, "Limits")
+        self._add_specs(limits, LINK_LIMIT_SPECS, base, obj)
         lay.addStretch(1)
+
+    def _material_damping(self, form, obj, base):
+        """One of loss factor, relative damping or dynamic magnifier; the equivalents shown."""
+        key = self._damping_key(obj)
+        box = QtWidgets.QComboBox()
+        box.setSizeAdjustPolicy(QtWidgets.QComboBox.AdjustToMinimumContentsLengthWithIcon)
+        box.setMinimumContentsLength(6)
+        for k, label in DAMPING_CHOICES:
+            box.addItem(label, k)
+        box.setCurrentIndex(max(0, box.findData(key)) if key is not None else 0)
+        box.setToolTip(TIPS["material_damping"])
+        box.currentIndexChanged.connect(lambda _i, box=box: self._change_damping_key(box.currentData()))
+        lab = QtWidgets.QLabel("Material damping")
+        lab.setToolTip(box.toolTip())
+        form.addRow(lab, box)
+        self.damping_box = box
+        if key is not None:
+            symbol = {"loss_factor": "Loss factor η", "relative_damping": "Relative damping ψ",
+                      "dynamic_magnifier": "Dynamic magnifier M"}[key]
+            self._add_field(form, symbol, base + (key,), NUMBER, key)
+        note = QtWidgets.QLabel()
+        note.setWordWrap(True)
+        note.setStyleSheet(f"color: {theme.INK_MUTED};")
+        note.setToolTip("The same damping written the three ways catalogues give it (read-only): "
+                        "η = ψ / 2π = 1 / M.")
+        form.addRow(note)  # the whole width: three values on one line
+        self.damping_note = note
+
+    def _change_damping_key(self, key):
+        obj, index = self._find(self._doc, self.selection)
+        if obj is None:
+            return
+        self._damping_choice[obj.get("id")] = key
+        if edits.damping_key(obj) is None:  # nothing given yet: the field for it shows
+            self._signature = None
+            self.show_element(self._doc, self.selection, self._project, self.system)
+            return
+        new = edits.set_damping_key(self._doc, index, key)
+        label = {"loss_factor": "loss factor", "relative_damping": "relative damping",
+                 "dynamic_magnifier": "dynamic magnifier"}.get(key, "no material damping")
+        self.replaceRequested.emit(new, f"Damping of '{obj.get('id')}' as {label}")
 
     def _segments(self, lay, obj, base):
         head = QtWidgets.QLabel("Segments, in series from the 'from' end")
@@ -622,7 +651,7 @@ class PropertyForm(QtWidgets.QScrollArea):
         for c, (h, key) in enumerate((("Length", "length"), ("Outer Ø", "outer_diameter"),
                                       ("Bore Ø", "inner_diameter"))):
             lab = QtWidgets.QLabel(h)
-            lab.setToolTip(TIPS[key])
+            lab.setToolTip(tip(key, u.LENGTH, self.system))
             lab.setStyleSheet(f"color: {theme.INK_MUTED};")
             grid.addWidget(lab, 0, c)
         segs = obj.get("segments") or []
@@ -716,6 +745,14 @@ class PropertyForm(QtWidgets.QScrollArea):
         self.replaceRequested.emit(new, f"Material of '{obj.get('id')}'")
 
 
+class _NoProject:
+    """Stands in for the project where a form is redrawn without a model error to show."""
+
+    @staticmethod
+    def error_at(*_args):
+        return None
+
+
 def _narrow_form() -> QtWidgets.QFormLayout:
     """A form that puts labels above their fields when the pane is narrow."""
     form = QtWidgets.QFormLayout()
@@ -740,40 +777,23 @@ def _delete_layout(layout):
 
 
 # ----------------------------------------------------------------- operating data
-FIXED = "(fixed frequency)"
-
-
-def orders_text(orders) -> str:
-    out = []
-    for o in orders or []:
-        v = o.get("order") if isinstance(o, dict) else o
-        out.append(f"{v:g}" if isinstance(v, (int, float)) else str(v))
-    return ", ".join(out)
-
-
-def parse_orders(text: str, old) -> list:
-    """Comma-separated orders; a dict order (with an amplitude) keeps its other keys."""
-    out = []
-    old = list(old or [])
-    for i, part in enumerate(p.strip() for p in text.replace(";", ",").split(",")):
-        if not part:
-            continue
-        try:
-            x = float(part)
-            v = int(x) if x.is_integer() else x
-        except ValueError:
-            v = part
-        if i < len(old) and isinstance(old[i], dict):
-            d = dict(old[i])
-            d["order"] = v
-            out.append(d)
-        else:
-            out.append(v)
-    return out
+OPERATING_LEFT = [
+    Spec("title", "Title", TEXT, "title"),
+    Spec("description", "Description", TEXT, "description"),
+    Spec("reference", "Reference disc", CHOICE, "reference", choices=lambda doc: disc_choices(doc)),
+    Spec("margin_percent", "Required margin, %", NUMBER, "margin_percent", placeholder="10"),
+]
+SPEED_SPECS = [
+    Spec("name", "Range name", TEXT, "speed.name"),
+    Spec("min", "Minimum speed", u.SPEED, "speed.min", optional=False),
+    Spec("max", "Maximum speed", u.SPEED, "speed.max"),
+    Spec("trip", "Trip speed", u.SPEED, "speed.trip"),
+]
 
 
 class OperatingForm(QtWidgets.QWidget):
-    """Project title, reference disc, speeds, margin and the excitations list."""
+    """Project title, reference disc, margin and the operating speed range (the
+    excitations have a tab of their own, :class:`app.gui.excitations_form.ExcitationsForm`)."""
 
     editRequested = QtCore.Signal(tuple, object, str)
     replaceRequested = QtCore.Signal(dict, str)
@@ -782,180 +802,45 @@ class OperatingForm(QtWidgets.QWidget):
         super().__init__(parent)
         self.system = "SI"
         self._doc = {}
-        self._updating = False
         outer = QtWidgets.QVBoxLayout(self)
         outer.setContentsMargins(6, 6, 6, 6)
         top = QtWidgets.QHBoxLayout()
         outer.addLayout(top)
-        left, right = QtWidgets.QFormLayout(), QtWidgets.QFormLayout()
+        left, right = _narrow_form(), _narrow_form()
         top.addLayout(left, 1)
         top.addSpacing(12)
         top.addLayout(right, 1)
-        self.fields: list[Field] = []
-
-        def add(form, label, path, kind, key, optional=True):
-            f = Field(path, kind, key, self.system, optional)
-            f.committed.connect(lambda p, v, lab=label: self.editRequested.emit(p, v, f"Edit {lab.lower()}"))
-            box = QtWidgets.QVBoxLayout()
-            box.setSpacing(1)
-            box.addWidget(f)
-            box.addWidget(f.problem_label)
-            lab = QtWidgets.QLabel(label)
-            lab.setToolTip(f.toolTip())
-            form.addRow(lab, box)
-            self.fields.append(f)
-            return f
-
-        add(left, "Title", ("title",), TEXT, "title")
-        self.reference = QtWidgets.QComboBox()
-        self.reference.setToolTip(TIPS["reference"])
-        self.reference.currentTextChanged.connect(self._reference_changed)
-        left.addRow(_tip_label("Reference disc", TIPS["reference"]), self.reference)
-        add(left, "Required margin, %", ("margin_percent",), NUMBER, "margin_percent")
-        add(left, "Range name", ("operating_speed", "name"), TEXT, "speed.name")
-        add(right, "Minimum speed", ("operating_speed", "min"), u.SPEED, "speed.min", optional=False)
-        add(right, "Maximum speed", ("operating_speed", "max"), u.SPEED, "speed.max")
-        add(right, "Trip speed", ("operating_speed", "trip"), u.SPEED, "speed.trip")
+        self._specs = []
+        for spec, w in add_spec_rows(left, OPERATING_LEFT, (), {}, self.system, self._commit):
+            self._specs.append((spec, w))
+        for spec, w in add_spec_rows(right, SPEED_SPECS, ("operating_speed",), {}, self.system, self._commit):
+            self._specs.append((spec, w))
+        self.fields = [w for _s, w in self._specs if isinstance(w, Field)]
+        self.reference = next(w for s, w in self._specs if s.key == "reference")
         self.problem = QtWidgets.QLabel()
         self.problem.setWordWrap(True)
         self.problem.setStyleSheet(f"color: {theme.FAIL};")
         self.problem.hide()
         outer.addWidget(self.problem)
-        row = QtWidgets.QHBoxLayout()
-        row.addWidget(QtWidgets.QLabel("Excitations"))
-        row.addStretch(1)
-        add_btn = QtWidgets.QPushButton("Add excitation")
-        add_btn.setToolTip("Append an excitation source acting at the reference disc")
-        add_btn.clicked.connect(self._add_excitation)
-        self.remove_btn = QtWidgets.QPushButton("Remove")
-        self.remove_btn.setToolTip("Remove the selected excitation")
-        self.remove_btn.clicked.connect(self._remove_excitation)
-        row.addWidget(add_btn)
-        row.addWidget(self.remove_btn)
-        outer.addLayout(row)
-        self.table = QtWidgets.QTableWidget(0, 4)
-        self.table.setHorizontalHeaderLabels(["Name", "Acts at disc", "Orders", "Fixed frequency"])
-        for c, key in enumerate(("exc.name", "exc.at", "exc.orders", "exc.frequency")):
-            self.table.horizontalHeaderItem(c).setToolTip(TIPS[key])
-        self.table.verticalHeader().setVisible(False)
-        self.table.verticalHeader().setDefaultSectionSize(24)
-        self.table.setAlternatingRowColors(True)
-        self.table.horizontalHeader().setStretchLastSection(True)
-        self.table.setColumnWidth(0, 240)
-        self.table.setColumnWidth(1, 120)
-        self.table.setColumnWidth(2, 110)
-        self.table.setItemDelegateForColumn(1, _ChoiceDelegate(
-            lambda: [d.get("id") for d in self._doc.get("discs", []) if isinstance(d, dict)] + [FIXED], self))
-        self.table.itemChanged.connect(self._exc_changed)
-        self.table.setMinimumHeight(100)
-        outer.addWidget(self.table, 1)
+        outer.addStretch(1)
 
-    def refresh(self, doc, project, system):
+    def _commit(self, path, value):
+        label = next((s.label for s, w in self._specs if w.path == tuple(path)), path[-1])
+        self.editRequested.emit(path, value, f"Edit {label.lower()}")
+
+    def refresh(self, doc, project, system, force: bool = False):
         self._doc, self.system = doc, system
-        self._updating = True
-        ids = [d.get("id") for d in doc.get("discs", []) if isinstance(d, dict)]
-        self.reference.blockSignals(True)
-        self.reference.clear()
-        self.reference.addItems([str(i) for i in ids])
-        ref = doc.get("reference")
-        if ref is not None and ref not in ids:
-            self.reference.addItem(str(ref))
-        self.reference.setCurrentText(str(ref) if ref is not None else "")
-        self.reference.blockSignals(False)
-        for f in self.fields:
-            key = ".".join(str(p) for p in f.path)
-            f.show_value(_get(doc, f.path), system, project.error_at("operating data", key)
-                         if f.path[0] != "title" else None)
+        for spec, w in self._specs:
+            key = ".".join(str(p) for p in w.path)
+            problem = project.error_at("operating data", key) if w.path[0] != "title" else None
+            show_spec_value(w, spec, doc, doc, _get(doc, w.path), system, problem, force)
         err = project.error
         msg = None
-        if err is not None and (err.element == "operating data" or (err.element or "").startswith("excitation")):
+        if err is not None and err.element == "operating data" and not any(
+                err.field == ".".join(str(p) for p in w.path) for _s, w in self._specs):
             msg = str(err)
         self.problem.setText(msg or "")
         self.problem.setVisible(bool(msg))
-        exc = [e for e in doc.get("excitations", []) or [] if isinstance(e, dict)]
-        self.table.setRowCount(len(exc))
-        for r, e in enumerate(exc):
-            fixed = e.get("frequency") is not None
-            values = [str(e.get("name", "")), FIXED if fixed else str(e.get("at", "")),
-                      "" if fixed else orders_text(e.get("orders")),
-                      display_text(e.get("frequency"), u.FREQUENCY, system) if fixed else ""]
-            name = str(e.get("name") or f"Excitation {r + 1}")
-            problem = None
-            if err is not None and (err.element or "").startswith(f"excitation '{name}'"):
-                problem = err.message
-            for c, v in enumerate(values):
-                item = self.table.item(r, c) or QtWidgets.QTableWidgetItem()
-                if self.table.item(r, c) is None:
-                    self.table.setItem(r, c, item)
-                item.setText(v)
-                item.setToolTip(TIPS[("exc.name", "exc.at", "exc.orders", "exc.frequency")[c]])
-                flags = QtCore.Qt.ItemIsSelectable | QtCore.Qt.ItemIsEnabled | QtCore.Qt.ItemIsEditable
-                if (c == 2 and fixed):
-                    flags &= ~QtCore.Qt.ItemIsEditable
-                item.setFlags(flags)
-                if problem:
-                    item.setBackground(theme.qcolor(theme.FAIL_FILL))
-                    item.setToolTip(f"Problem: {problem}\n\n" + item.toolTip())
-                else:
-                    item.setData(QtCore.Qt.BackgroundRole, None)
-        self._updating = False
-
-    def _reference_changed(self, text):
-        if text:
-            self.editRequested.emit(("reference",), text, "Change reference disc")
-
-    def _exc_changed(self, item):
-        if self._updating:
-            return
-        r, c = item.row(), item.column()
-        new = copy.deepcopy(self._doc)
-        excs = [e for e in new.get("excitations", []) if isinstance(e, dict)]
-        if r >= len(excs):
-            return
-        e = excs[r]
-        text = item.text().strip()
-        if c == 0:
-            e["name"] = text
-        elif c == 1:
-            if text == FIXED:
-                if e.get("frequency") is None:
-                    e.pop("at", None)
-                    e.pop("orders", None)
-                    e["frequency"] = "100 Hz"
-            else:
-                e["at"] = text
-                if e.get("frequency") is not None:
-                    e.pop("frequency", None)
-                    e["orders"] = [1]
-        elif c == 2:
-            e["orders"] = parse_orders(text, e.get("orders"))
-        elif c == 3:
-            if text:
-                e.pop("at", None)
-                e.pop("orders", None)
-                e["frequency"] = stored_value(text, u.FREQUENCY, self.system)
-            elif e.get("frequency") is not None:
-                e.pop("frequency", None)
-                e["at"] = new.get("reference")
-                e["orders"] = [1]
-        if new != self._doc:
-            self.replaceRequested.emit(new, f"Edit excitation '{e.get('name', r + 1)}'")
-
-    def _add_excitation(self):
-        new = copy.deepcopy(self._doc)
-        excs = new.setdefault("excitations", [])
-        at = new.get("reference") or (new.get("discs") or [{}])[0].get("id")
-        excs.append({"name": f"Excitation {len(excs) + 1}", "at": at, "orders": [1]})
-        self.replaceRequested.emit(new, "Add excitation")
-
-    def _remove_excitation(self):
-        r = self.table.currentRow()
-        excs = self._doc.get("excitations") or []
-        if not 0 <= r < len(excs):
-            return
-        new = copy.deepcopy(self._doc)
-        del new["excitations"][r]
-        self.replaceRequested.emit(new, "Remove excitation")
 
 
 def _tip_label(text, tooltip):

@@ -18,13 +18,15 @@ from PySide6 import QtCore, QtGui, QtWidgets
 
 from core.about import CAUTION
 from core.errors import ModelError
-from core.project import ProjectFileError, load_document
+from core.project import ProjectFileError, backup_paths, load_document
 
 from .. import formatting as fmt
 from . import edits, theme
 from .canvas import TrainCanvas
 from .compute import ResultsRunner
 from .document import Project
+from .editors import Field, disc_choices
+from .excitations_form import ExcitationsForm
 from .forms import DiscTable, LinkTable, OperatingForm, PropertyForm
 
 SAMPLES_DIR = Path(__file__).resolve().parent.parent.parent / "sample_projects"
@@ -32,6 +34,20 @@ DEFAULT_SAMPLE = SAMPLES_DIR / "compressor_train.json"
 APP_NAME = "Twistwise"
 MAX_RECENT = 8
 AUTOSAVE_MS = 20_000
+
+
+def modes_status(res) -> str:
+    """'N elastic modes (M above the screening limit)' for the status bar."""
+    modes = res.modes
+    n_el = int(modes.elastic.sum())
+    text = f"{n_el} elastic mode{'s' if n_el != 1 else ''}"
+    study = getattr(res, "study", None)
+    above = getattr(study, "above_screening_limit", None) if study is not None else None
+    if above is not None and len(above) == len(modes.frequency_hz):
+        m = int(above.sum())
+        if m:
+            text += f" ({m} above the screening limit)"
+    return text
 
 
 def samples() -> list[Path]:
@@ -107,6 +123,11 @@ class MainWindow(QtWidgets.QMainWindow):
             self.system = "SI"
         self.selection = None
         self.results = None  # last compute.Results shown
+        self._closing = False
+        self._solve_error = None  # why the last solve of a model that built failed
+        self._stale_forms: set = set()
+        self._forced_forms: set = set()
+        self.last_delete_changes: list[str] = []
         self.project = Project(self)
         self.runner = ResultsRunner(self)
         self._recovery_path = recovery_dir() / f"unsaved-{uuid.uuid4().hex[:12]}.json"
@@ -141,27 +162,34 @@ class MainWindow(QtWidgets.QMainWindow):
         cl.addWidget(self.canvas, 1)
         cl.addWidget(self.mode_note)
 
-        self.error_banner = QtWidgets.QLabel()
+        # the model's error floats over the foot of the schematic: it never changes the
+        # height of anything, so the form being edited below does not move when it comes or goes
+        self.error_banner = QtWidgets.QLabel(canvas_box)
         self.error_banner.setWordWrap(True)
         self.error_banner.setStyleSheet(f"color: {theme.FAIL}; background: {theme.FAIL_FILL}; "
                                         f"border: 1px solid {theme.FAIL}; padding: 4px 8px;")
         self.error_banner.hide()
+        self._canvas_box = canvas_box
+        canvas_box.installEventFilter(self)
 
         self.disc_table = DiscTable()
         self.link_table = LinkTable()
-        self.link_table.disc_choices = lambda: edits.disc_ids(self.project.doc)
+        self.link_table.disc_choices = lambda: disc_choices(self.project.doc)
         self.operating_form = OperatingForm()
+        self.excitations_form = ExcitationsForm()
         self.tabs = QtWidgets.QTabWidget()
         self.tabs.setDocumentMode(True)
         self.tabs.addTab(self.disc_table, "Discs")
         self.tabs.addTab(self.link_table, "Links")
-        self.tabs.addTab(self.operating_form, "Operating data")
+        self.tabs.addTab(self.operating_form, "Operation")
+        self.tabs.addTab(self.excitations_form, "Excitations")
         self.tabs.setTabToolTip(0, "Inertia discs: double-click a cell to edit")
         self.tabs.setTabToolTip(1, "Shafts, couplings and gear meshes: double-click a cell to edit")
-        self.tabs.setTabToolTip(2, "Title, reference disc, speed range, margin and excitations")
+        self.tabs.setTabToolTip(2, "Title, reference disc, speed range and margin")
+        self.tabs.setTabToolTip(3, "Excitation sources: orders, amplitudes, phases, engine cylinders, "
+                                   "fixed frequencies")
         self.property_form = PropertyForm()
         # the operating data have no selected element: give that tab the full width
-        self._stale_forms = set()
         self.tabs.currentChanged.connect(self._forms_tab_changed)
 
         forms = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
@@ -174,7 +202,6 @@ class MainWindow(QtWidgets.QMainWindow):
         ll = QtWidgets.QVBoxLayout(lower)
         ll.setContentsMargins(0, 0, 0, 0)
         ll.setSpacing(3)
-        ll.addWidget(self.error_banner)
         ll.addWidget(forms, 1)
 
         left = QtWidgets.QSplitter(QtCore.Qt.Vertical)
@@ -193,7 +220,7 @@ class MainWindow(QtWidgets.QMainWindow):
         self.main_split.setChildrenCollapsible(False)
         self.left_split, self.forms_split = left, forms
         # starting proportions (the splitters keep them as the window is resized)
-        self.main_split.setSizes([720, 880])
+        self.main_split.setSizes([760, 840])
         left.setSizes([380, 520])
         forms.setSizes([400, 320])
 
@@ -213,7 +240,8 @@ class MainWindow(QtWidgets.QMainWindow):
         for w in (self.status_verdict, self.status_modes, self.status_time, self.status_units):
             sb.addPermanentWidget(w)
         self.status_verdict.setToolTip("Screening verdict of the model now showing")
-        self.status_modes.setToolTip("Number of natural modes computed")
+        self.status_modes.setToolTip("Elastic modes shown; those above the screening limit are shown "
+                                     "and marked but not screened")
         self.status_time.setToolTip("Time of the last solve (modes, screening and forced response)")
 
     # ------------------------------------------------------------ actions
@@ -236,8 +264,8 @@ class MainWindow(QtWidgets.QMainWindow):
         K = QtGui.QKeySequence.StandardKey
         self.act_new = self._act("&New blank train", self.new_blank, K.New, "Start a new train", S.SP_FileIcon)
         self.act_open = self._act("&Open…", self.open_dialog, K.Open, "Open a project file", S.SP_DialogOpenButton)
-        self.act_save = self._act("&Save", self.save, K.Save, "Save the project (keeps a .bak of the previous file)",
-                                  S.SP_DialogSaveButton)
+        self.act_save = self._act("&Save", self.save, K.Save, "Save the project (the file it replaces is "
+                                  "kept as NAME.json.bak1, older ones as bak2 and bak3)", S.SP_DialogSaveButton)
         self.act_save_as = self._act("Save &as…", self.save_as, K.SaveAs, "Save under a new name")
         self.act_sheet = self._act("Export review sheet (PDF)…", self.export_review_sheet, "Ctrl+P",
                                    "Write the PDF review sheet of this project")
@@ -247,7 +275,14 @@ class MainWindow(QtWidgets.QMainWindow):
         self.act_undo.setShortcut(QtGui.QKeySequence(K.Undo))
         self.act_undo.setIcon(self.style().standardIcon(S.SP_ArrowBack))
         self.act_redo = undo.createRedoAction(self, "&Redo")
-        self.act_redo.setShortcuts([QtGui.QKeySequence(K.Redo), QtGui.QKeySequence("Ctrl+Y")])
+        # every platform binding of Redo plus both common ones (QKeySequence(K.Redo) alone is
+        # only the first binding: Ctrl+Y here, so Ctrl+Shift+Z did nothing)
+        redo_keys = []
+        for k in QtGui.QKeySequence.keyBindings(K.Redo) + [QtGui.QKeySequence("Ctrl+Shift+Z"),
+                                                            QtGui.QKeySequence("Ctrl+Y")]:
+            if k not in redo_keys:
+                redo_keys.append(k)
+        self.act_redo.setShortcuts(redo_keys)
         self.act_redo.setIcon(self.style().standardIcon(S.SP_ArrowForward))
         self.act_ins_shaft = self._act("Insert disc + &shaft", lambda: self.insert("shaft"), "Ins",
                                        "Insert a disc joined by a shaft after the selection")
@@ -368,14 +403,20 @@ class MainWindow(QtWidgets.QMainWindow):
             t.rowSelected.connect(self.set_selection)
             t.editRequested.connect(self._edit)
             t.renameRequested.connect(self._rename)
-        for f in (self.property_form, self.operating_form):
+        for f in (self.property_form, self.operating_form, self.excitations_form):
             f.editRequested.connect(self._edit)
-            f.replaceRequested.connect(self.project.replace)
+            f.replaceRequested.connect(self._replace)
         self.property_form.renameRequested.connect(self._rename)
         self.results_panel.modeSelected.connect(lambda _i: self._show_mode_colour())
 
     # ------------------------------------------------------------ edits
+    def _replace(self, new_doc, label):
+        if not self._closing:
+            self.project.replace(new_doc, label)
+
     def _edit(self, path, value, label):
+        if self._closing:  # a field losing focus as the window goes: not an edit
+            return
         path = tuple(path)
         old, selected = self.project.get(path), self.selection
         self.project.set_value(path, value, label)
@@ -383,6 +424,8 @@ class MainWindow(QtWidgets.QMainWindow):
             self.set_selection(("link", value))  # a renamed link stays selected
 
     def _rename(self, old, new):
+        if self._closing:
+            return
         new = new.strip()
         if not new or new == old:
             self.refresh_views()
@@ -404,9 +447,15 @@ class MainWindow(QtWidgets.QMainWindow):
         if not self.selection:
             self.statusBar().showMessage("Select a disc or link to delete", 4000)
             return
-        new = edits.delete(self.project.doc, self.selection)
-        self.project.replace(new, f"Delete {self.selection[0]} '{self.selection[1]}'")
+        new, changes = edits.delete_report(self.project.doc, self.selection)
+        what = f"Delete {self.selection[0]} '{self.selection[1]}'"
+        self.project.replace(new, what)
         self.set_selection(None)
+        self.last_delete_changes = changes
+        if changes:
+            text = f"{what}: " + "; ".join(changes) + " (Ctrl+Z undoes all of it)"
+            self.statusBar().showMessage(text, 15000)
+            self.statusBar().setToolTip(text)
 
     def set_selection(self, selection):
         self.selection = tuple(selection) if selection else None
@@ -414,23 +463,31 @@ class MainWindow(QtWidgets.QMainWindow):
         kind = self.selection[0] if self.selection else None
         self.disc_table.select_id(self.selection[1] if kind == "disc" else None)
         self.link_table.select_id(self.selection[1] if kind == "link" else None)
-        if kind == "disc" and self.tabs.currentWidget() is self.link_table:
+        # a selected disc or link brings its table and the property form (from any tab)
+        if kind == "disc" and self.tabs.currentWidget() is not self.disc_table:
             self.tabs.setCurrentWidget(self.disc_table)
-        elif kind == "link" and self.tabs.currentWidget() is self.disc_table:
+        elif kind == "link" and self.tabs.currentWidget() is not self.link_table:
             self.tabs.setCurrentWidget(self.link_table)
         self.property_form.show_element(self.project.doc, self.selection, self.project, self.system)
 
     def _forms_tab_changed(self, _index):
         shown = self.tabs.currentWidget()
-        self.property_form.setVisible(shown is not self.operating_form)
+        # the operating data and the excitations have no selected disc or link: full width
+        self.property_form.setVisible(shown not in (self.operating_form, self.excitations_form))
         if shown in self._stale_forms:
             self._refresh_form(shown)
 
-    def _refresh_form(self, form) -> None:
-        """Bring one forms tab (disc table, link table, operating data) up to the document."""
+    def _refresh_form(self, form, force: bool = False) -> None:
+        """Bring one forms tab (disc table, link table, operating data, excitations) up to the
+        document; ``force``: after an undo or redo (the document replaces text being typed)."""
+        force = force or form in self._forced_forms
         self._stale_forms.discard(form)
+        self._forced_forms.discard(form)
         doc, p = self.project.doc, self.project
-        form.refresh(doc, p, self.system)
+        if form in (self.operating_form, self.excitations_form):
+            form.refresh(doc, p, self.system, force)
+        else:
+            form.refresh(doc, p, self.system)
         kind = self.selection[0] if self.selection else None
         if form is self.disc_table:
             form.select_id(self.selection[1] if kind == "disc" else None)
@@ -439,7 +496,10 @@ class MainWindow(QtWidgets.QMainWindow):
 
     # ------------------------------------------------------------ refresh
     def refresh_views(self):
+        if self._closing:
+            return
         doc, p = self.project.doc, self.project
+        force = p.from_history
         if self.selection and self.selection[1] not in (
                 edits.disc_ids(doc) if self.selection[0] == "disc" else edits.link_ids(doc)):
             self.selection = None
@@ -448,38 +508,125 @@ class MainWindow(QtWidgets.QMainWindow):
         self.canvas.select(self.selection)
         # the forms tab showing is refreshed now, the two hidden ones when they show
         # (a 200-link table or the excitations editor costs 1-3 ms a live edit)
-        self._stale_forms = {self.disc_table, self.link_table, self.operating_form}
-        self._refresh_form(self.tabs.currentWidget())
-        self.property_form.show_element(doc, self.selection, p, self.system)
+        self._stale_forms = {self.disc_table, self.link_table, self.operating_form, self.excitations_form}
+        if force:
+            self._forced_forms = set(self._stale_forms)
+        self._refresh_form(self.tabs.currentWidget(), force)
+        self.property_form.show_element(doc, self.selection, p, self.system, force)
         self._show_mode_colour()
         self._update_title()
 
     def _show_error(self, error):
         if error is None:
             self.error_banner.hide()
+            self._canvas_margin(0)
+            self._show_stale()
             return
         keep = "the results of the last valid model" if self.project.train is not None else "no results yet"
         self.error_banner.setText(f"Model error — {error}.  Showing {keep}; fix the value or undo (Ctrl+Z).")
         self.error_banner.show()
+        self._place_banner()
         if self.project.train is None and hasattr(self.results_panel, "clear_results"):
             self.results_panel.clear_results(f"The model cannot be solved: {error}")
             self._set_status(self.status_verdict, "no valid model", theme.verdict_style(None))
+        self._show_stale()
+
+    def _place_banner(self) -> None:
+        """The banner over the foot of the schematic, as wide as it, at most half its height."""
+        box, banner = self._canvas_box, self.error_banner
+        width = max(100, box.width() - 16)
+        banner.setFixedWidth(width)
+        h = min(banner.heightForWidth(width) if banner.hasHeightForWidth() else banner.sizeHint().height(),
+                max(40, box.height() // 2))
+        banner.setFixedHeight(max(h, 24))
+        y = box.height() - banner.height() - self.mode_note.height() - 8
+        banner.move(8, max(0, y))
+        banner.raise_()
+        # the schematic draws above the banner (its own viewport shrinks, nothing else moves)
+        self._canvas_margin(banner.height() + 8)
+
+    def _canvas_margin(self, bottom: int) -> None:
+        if self.canvas.viewportMargins().bottom() != bottom:
+            self.canvas.setViewportMargins(0, 0, 0, bottom)
+            if not self.canvas._user_zoomed:
+                self.canvas.fit()
+
+    def eventFilter(self, obj, event):
+        if obj is getattr(self, "_canvas_box", None) and event.type() == QtCore.QEvent.Resize \
+                and self.error_banner.isVisible():
+            self._place_banner()
+        return super().eventFilter(obj, event)
+
+    def stale_message(self) -> str | None:
+        """While the model has an error, or its solve failed: what the results on screen are
+        (None: they are of the model on screen)."""
+        if self.results is None:
+            return None
+        if self.project.error is not None:
+            return ("Showing the last valid model — the model now has an error "
+                    f"({self.project.error.element or 'model'}): fix it or undo to update the results.")
+        if self._solve_error:
+            return (f"Showing the last valid model — the model now cannot be solved ({self._solve_error}): "
+                    "fix it or undo to update the results.")
+        return None
+
+    def _show_stale(self) -> None:
+        """Grey the verdict and tell the result views while the results are of an older model."""
+        message = self.stale_message()
+        if hasattr(self.results_panel, "set_stale"):
+            self.results_panel.set_stale(message)
+        ok = self.project.error is None and not self._solve_error
+        self.act_sheet.setEnabled(ok)
+        self.act_sheet.setToolTip("Write the PDF review sheet of this project" if ok
+                                  else "Not while the model has an error: fix it or undo first")
+        if message is not None:
+            base = self._verdict_text()
+            self._set_status(self.status_verdict, f"{base} — last valid model", theme.STALE_STYLE)
+            self.status_verdict.setToolTip(message)
+        elif self.results is not None:
+            self._set_status(self.status_verdict, self._verdict_text(), self._verdict_style())
+            self.status_verdict.setToolTip("Screening verdict of the model now showing")
+
+    def _verdict_text(self) -> str:
+        res = self.results
+        if res is None:
+            return "—"
+        s = res.screening
+        study = getattr(res, "study", None)
+        exceeded = len(study.exceedances) if study is not None and study.response_failed else 0
+        reasons = []
+        if s is not None and not s.passed:
+            reasons.append(f"{len(s.failures)} inside the margin")
+        if exceeded:
+            reasons.append(f"{exceeded} permissible value{'s' if exceeded != 1 else ''} exceeded")
+        if reasons:
+            return f"FAIL ({'; '.join(reasons)})"
+        return "no screening (no operating data)" if s is None else "PASS"
+
+    def _verdict_style(self) -> str:
+        res = self.results
+        if res is None or res.screening is None:
+            return theme.verdict_style(None)
+        study = getattr(res, "study", None)
+        passed = study.passed if study is not None else res.screening.passed
+        return theme.verdict_style(passed)
 
     def _show_results(self, res):
+        if self._closing:
+            return
         self.results = res
-        self.results_panel.set_results(res.train, res.modes, res.screening, res.response, res.solve_time_s)
-        s = res.screening
-        if s is None:
-            self._set_status(self.status_verdict, "no screening (no operating data)", theme.verdict_style(None))
+        self._solve_error = None
+        panel = self.results_panel
+        if hasattr(panel, "set_study") and getattr(res, "study", None) is not None:
+            panel.set_study(res.study, res.solve_time_s)
         else:
-            n_fail = len(s.failures)
-            self._set_status(self.status_verdict, "PASS" if s.passed else f"FAIL ({n_fail} inside the margin)",
-                             theme.verdict_style(s.passed))
-        n_el = int(res.modes.elastic.sum())
-        self.status_modes.setText(f"{n_el} elastic mode{'s' if n_el != 1 else ''}")
+            panel.set_results(res.train, res.modes, res.screening, res.response, res.solve_time_s)
+        self._set_status(self.status_verdict, self._verdict_text(), self._verdict_style())
+        self.status_modes.setText(modes_status(res))
         self.status_time.setText(f"solved in {res.solve_time_s * 1e3:.1f} ms")
         if res.note:
             self.statusBar().showMessage(res.note, 8000)
+        self._show_stale()  # results that arrive while the model has an error are of an older model
         self._show_mode_colour()
 
     @staticmethod
@@ -493,7 +640,14 @@ class MainWindow(QtWidgets.QMainWindow):
             label.setStyleSheet(style)
 
     def _solve_failed(self, text):
+        """The model built but its solve failed: the results on screen are of an older model
+        (or there are none); say so as for a model error."""
+        self._solve_error = text
         self.statusBar().showMessage(f"Solve failed: {text}", 10000)
+        if self.results is None and hasattr(self.results_panel, "clear_results"):
+            self.results_panel.clear_results(f"The model cannot be solved: {text}")
+            self._set_status(self.status_verdict, "no valid model", theme.verdict_style(None))
+        self._show_stale()
 
     def _current_mode_index(self) -> int:
         f = getattr(self.results_panel, "current_mode_index", None)
@@ -544,10 +698,18 @@ class MainWindow(QtWidgets.QMainWindow):
 
     # ------------------------------------------------------------ files
     def load_document(self, doc, path=None, dirty=False):
+        """Start on another document: per-project view state (selection, zoom, the selected
+        excitation and damping choices, the results' speed cursor) starts afresh."""
         self.selection = None
         self.results = None
+        self._solve_error = None
+        self.last_delete_changes = []
         self.canvas._signature = None
         self.canvas._user_zoomed = False
+        self.property_form.reset()
+        self.excitations_form.reset()
+        if hasattr(self.results_panel, "reset_view_state"):
+            self.results_panel.reset_view_state()
         self.project.set_document(doc, path)
         if dirty:
             self.project.undo_stack.resetClean()
@@ -600,7 +762,23 @@ class MainWindow(QtWidgets.QMainWindow):
             path += ".json"
         return self._save_to(Path(path))
 
+    def commit_pending_edit(self) -> None:
+        """Text typed into a field but not yet committed (no Enter, focus still there)
+        becomes an edit now: before a save, a close or a new document."""
+        w = QtWidgets.QApplication.focusWidget()
+        if isinstance(w, Field) and self.isAncestorOf(w):
+            w.commit_pending()
+
     def _save_to(self, path) -> bool:
+        self.commit_pending_edit()
+        error = self.project.error
+        if error is not None and not self.ask(
+                "Save a model with an error?",
+                f"The model has an error: {error}.\n\nThe file will hold the model as it is now, "
+                "error included (it opens again with the error shown). The file it replaces is kept "
+                f"as {Path(path).name}.bak1.", "Save anyway"):
+            self.statusBar().showMessage("Not saved: the model has an error", 6000)
+            return False
         try:
             self.project.save(path)
         except OSError as exc:
@@ -609,11 +787,27 @@ class MainWindow(QtWidgets.QMainWindow):
             return False
         self._add_recent(path)
         self.remove_recovery()
-        self.statusBar().showMessage(f"Saved {path} (previous version kept as {Path(path).name}.bak)", 6000)
+        bak = backup_paths(path)[0]
+        kept = f" (previous version kept as {bak.name})" if bak.exists() else ""
+        self.statusBar().showMessage(f"Saved {path}{kept}", 6000)
         return True
+
+    def ask(self, title: str, text: str, yes: str) -> bool:
+        """A yes/no question with ``yes`` as the affirmative button (Cancel is the default)."""
+        box = QtWidgets.QMessageBox(self)
+        box.setIcon(QtWidgets.QMessageBox.Warning)
+        box.setWindowTitle(title)
+        box.setText(title)
+        box.setInformativeText(text)
+        ok = box.addButton(yes, QtWidgets.QMessageBox.AcceptRole)
+        cancel = box.addButton(QtWidgets.QMessageBox.Cancel)
+        box.setDefaultButton(cancel)
+        box.exec()
+        return box.clickedButton() is ok
 
     def confirm_discard(self) -> bool:
         """True when it is fine to replace the open document (saved, or the user says so)."""
+        self.commit_pending_edit()
         if not self.project.dirty:
             return True
         box = QtWidgets.QMessageBox(self)
@@ -631,6 +825,11 @@ class MainWindow(QtWidgets.QMainWindow):
 
     def closeEvent(self, event):
         if self.confirm_discard():
+            # from here on a field losing focus or a late result is not an edit: the
+            # widgets are going (an edit pushed while they went raised at quit)
+            self._closing = True
+            self._autosave.stop()
+            self.runner.stop()
             self.remove_recovery()
             self.runner.wait(3000)
             event.accept()
@@ -729,6 +928,9 @@ class MainWindow(QtWidgets.QMainWindow):
         if self.project.error is not None:
             self._message("Model has an error", f"Fix the model first: {self.project.error}")
             return
+        if self._solve_error:
+            self._message("Model cannot be solved", f"Fix the model first: {self._solve_error}")
+            return
         if self.project.path is None or self.project.dirty:
             answer = QtWidgets.QMessageBox.question(
                 self, "Save first", "The review sheet names the project file and its contents; save the "
@@ -812,7 +1014,6 @@ def _process_alive(pid) -> bool:
     return True
 
 
-# ----------------------------------------------------------------- entry points
 def application(argv=None) -> QtWidgets.QApplication:
     app = QtWidgets.QApplication.instance()
     if app is None:
@@ -828,6 +1029,161 @@ def application(argv=None) -> QtWidgets.QApplication:
     return app
 
 
+# ----------------------------------------------------------------- a bare Linux
+#: the shared libraries the Qt X11 (xcb) platform plugin of the PySide6 wheel loads, each with
+#: the Debian/Ubuntu package that brings it (from ldd of libqxcb.so and libQt6XcbQpa.so.6)
+XCB_LIBRARIES = (
+    ("libxcb.so.1", "libxcb1"), ("libX11-xcb.so.1", "libx11-xcb1"), ("libX11.so.6", "libx11-6"),
+    ("libxcb-cursor.so.0", "libxcb-cursor0"), ("libxcb-icccm.so.4", "libxcb-icccm4"),
+    ("libxcb-image.so.0", "libxcb-image0"), ("libxcb-keysyms.so.1", "libxcb-keysyms1"),
+    ("libxcb-randr.so.0", "libxcb-randr0"), ("libxcb-render.so.0", "libxcb-render0"),
+    ("libxcb-render-util.so.0", "libxcb-render-util0"), ("libxcb-shape.so.0", "libxcb-shape0"),
+    ("libxcb-shm.so.0", "libxcb-shm0"), ("libxcb-sync.so.1", "libxcb-sync1"),
+    ("libxcb-util.so.1", "libxcb-util1"), ("libxcb-xfixes.so.0", "libxcb-xfixes0"),
+    ("libxcb-xkb.so.1", "libxcb-xkb1"), ("libxkbcommon.so.0", "libxkbcommon0"),
+    ("libxkbcommon-x11.so.0", "libxkbcommon-x11-0"), ("libEGL.so.1", "libegl1"), ("libGL.so.1", "libgl1"),
+    ("libfontconfig.so.1", "libfontconfig1"), ("libfreetype.so.6", "libfreetype6"),
+    ("libglib-2.0.so.0", "libglib2.0-0"), ("libdbus-1.so.3", "libdbus-1-3"),
+)
+
+
+def _load_library(name: str) -> str | None:
+    """None when the shared library loads, else the name of the library that is missing."""
+    import ctypes
+    try:
+        ctypes.CDLL(name)
+    except OSError as exc:
+        missing = str(exc).split(":", 1)[0].strip()  # "libX.so.1: cannot open shared object file"
+        return missing if missing.startswith("lib") else name
+    return None
+
+
+def platform_problem(environ=None, load=_load_library) -> str | None:
+    """One line saying why Qt's window system plugin cannot start here, or None.
+
+    Checked before the QApplication exists, because Qt aborts the process when
+    its platform plugin does not load and names only one missing library.  Only
+    Linux with the X11 (xcb) plugin is checked: loading two dozen shared
+    libraries the window loads anyway takes a few milliseconds."""
+    environ = os.environ if environ is None else environ
+    if not sys.platform.startswith("linux"):
+        return None
+    platform = environ.get("QT_QPA_PLATFORM", "").split(";")[0].split(":")[0].strip()
+    if platform not in ("", "xcb"):
+        return None  # offscreen, wayland, vnc ... chosen on purpose
+    if platform == "" and environ.get("WAYLAND_DISPLAY"):
+        return None  # Qt tries Wayland first
+    if not environ.get("DISPLAY"):
+        return ("twistwise: no display to open the window on (DISPLAY is not set); the command line works "
+                "without one (twistwise --help), and QT_QPA_PLATFORM=offscreen renders without a screen")
+    by_soname = dict(XCB_LIBRARIES)
+    missing = []
+    for soname, package in XCB_LIBRARIES:
+        lost = load(soname)
+        if lost is not None:
+            pkg = by_soname.get(lost, package)
+            if pkg not in missing:
+                missing.append(pkg)
+    if not missing:
+        return None
+    return ("twistwise: the window cannot open: Qt's X11 platform plugin needs system packages that are "
+            f"missing; install them with: sudo apt-get install {' '.join(missing)} (other distributions: "
+            "the packages holding " + ", ".join(s for s, p in XCB_LIBRARIES if p in missing)
+            + "); the command line works without them (twistwise --help)")
+
+
+# ----------------------------------------------------------------- no traceback on stderr
+def log_path() -> Path:
+    return recovery_dir().parent / "twistwise.log"
+
+
+def log_line(text: str) -> None:
+    """Append one line to the program's log (kept under about 1 MB)."""
+    path = log_path()
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        if path.exists() and path.stat().st_size > 1_000_000:
+            os.replace(path, path.with_suffix(".log.old"))
+        stamp = datetime.datetime.now().isoformat(timespec="seconds")
+        with open(path, "a", encoding="utf-8") as fh:
+            fh.write(f"{stamp} {' '.join(str(text).split())}\n")
+    except OSError:
+        pass
+
+
+def _where(tb) -> str:
+    """file:line of the innermost frame of a traceback."""
+    while tb is not None and tb.tb_next is not None:
+        tb = tb.tb_next
+    if tb is None:
+        return ""
+    return f" at {Path(tb.tb_frame.f_code.co_filename).name}:{tb.tb_lineno}"
+
+
+def install_error_reporting(window_ref) -> None:
+    """From here on an exception nobody caught, in any thread or destructor, and Qt's own
+    warnings go to the log as one line each; the window says so in its status bar and
+    writes its autosave.  Nothing reaches stderr.  ``window_ref()`` gives the window or None."""
+    import threading
+
+    def report(exc_type, exc, tb):
+        if exc_type is not None and issubclass(exc_type, KeyboardInterrupt):
+            QtCore.QCoreApplication.quit()
+            return
+        name = getattr(exc_type, "__name__", "error")
+        log_line(f"internal error: {name}: {exc}{_where(tb)}")
+        win = window_ref()
+        if win is None or getattr(win, "_closing", True):
+            return
+        try:
+            win.write_recovery()
+            win.statusBar().showMessage(f"Internal error ({name}: {exc}); logged to {log_path()}. Your work "
+                                        "is kept in the autosave; please report it.", 20000)
+        except Exception:  # a report must never raise in its turn
+            pass
+
+    sys.excepthook = report
+    import warnings
+    warnings.showwarning = lambda message, category, filename, lineno, file=None, line=None: log_line(
+        f"warning: {category.__name__}: {message} at {Path(filename).name}:{lineno}")
+    threading.excepthook = lambda args: report(args.exc_type, args.exc_value, args.exc_traceback)
+    sys.unraisablehook = lambda u: report(type(u.exc_value) if u.exc_value is not None else None,
+                                          u.exc_value if u.exc_value is not None else u.err_msg,
+                                          u.exc_traceback)
+
+    def qt_message(mode, _context, message):
+        if mode in (QtCore.QtMsgType.QtWarningMsg, QtCore.QtMsgType.QtCriticalMsg,
+                    QtCore.QtMsgType.QtFatalMsg):
+            log_line(f"Qt: {message}")
+
+    QtCore.qInstallMessageHandler(qt_message)
+
+
+# ----------------------------------------------------------------- entry points
+TEST_HOOK_ENV = "TWISTWISE_TEST_HOOK"
+
+
+def _run_test_hook(win, path: str) -> None:
+    """For the crash-recovery test only (``TWISTWISE_TEST_HOOK`` names a JSON file):
+    ``{"answer_recovery": bool, "edits": [[path, value], ...], "autosave": bool,
+    "dump": file, "ready": file, "quit": bool}``, done in that order after start."""
+    spec = json.loads(Path(path).read_text(encoding="utf-8"))
+    if "answer_recovery" in spec:
+        win.offer_recovery(ask=lambda _text: bool(spec["answer_recovery"]))
+    for edit_path, value in spec.get("edits", []):
+        win._edit(tuple(edit_path), value, "test edit")
+    if spec.get("autosave"):
+        win.write_recovery()
+    if spec.get("dump"):
+        Path(spec["dump"]).write_text(json.dumps({"document": win.project.doc, "dirty": win.project.dirty}),
+                                      encoding="utf-8")
+    if spec.get("ready"):
+        Path(spec["ready"]).write_text("ready", encoding="utf-8")
+    if spec.get("quit"):
+        win.project.undo_stack.setClean()
+        win.close()
+
+
 def run_gui(path_or_none=None) -> int:
     """Open the main window on ``path_or_none`` (or the bundled compressor-train sample)."""
     if path_or_none is not None:
@@ -836,8 +1192,15 @@ def run_gui(path_or_none=None) -> int:
         except ModelError as exc:
             print(f"twistwise: {path_or_none}: {exc}", file=sys.stderr)
             return 2
+    problem = platform_problem()
+    if problem is not None:
+        print(problem, file=sys.stderr)
+        return 1
     app = application()
     win = MainWindow()
+    import weakref
+    ref = weakref.ref(win)
+    install_error_reporting(ref)
     if path_or_none is None:
         win.load_document(load_document(DEFAULT_SAMPLE))
         win.statusBar().showMessage(f"Sample project {DEFAULT_SAMPLE.name}: Save asks for a file name "
@@ -846,8 +1209,19 @@ def run_gui(path_or_none=None) -> int:
         win.load_document(doc, path_or_none)
         win._add_recent(path_or_none)
     win.show()
-    QtCore.QTimer.singleShot(0, win.offer_recovery)
-    return app.exec()
+    hook = os.environ.get(TEST_HOOK_ENV)
+    if hook:
+        QtCore.QTimer.singleShot(0, lambda w=win: _run_test_hook(w, hook))
+    else:
+        QtCore.QTimer.singleShot(0, win.offer_recovery)
+    code = app.exec()
+    # the event loop is over (the window closed, or the application was told to quit):
+    # nothing the widgets do while they are taken down is an edit any more
+    win._closing = True
+    win.runner.stop()
+    win.runner.wait(3000)
+    win.hide()
+    return code
 
 
 def render_window(doc, path, size, system: str = "SI", mode_number: int | None = 1,

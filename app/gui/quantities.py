@@ -10,6 +10,17 @@ from functools import lru_cache
 
 from core import units as u
 
+from .. import formatting as fmt
+
+
+def _in_unit(value_si: float, kind, unit: str, digits: int) -> str:
+    """'7360 lb*ft^2', not '7.36e+03 lb*ft^2': significant digits without an exponent
+    below a million (app.formatting, the digits every view prints)."""
+    v = u.convert(value_si, kind, unit)
+    if abs(v) >= 1e6:
+        return f"{v:.{digits}g} {unit}"
+    return f"{fmt._sig(v, digits)} {unit}"
+
 
 @lru_cache(maxsize=50_000)
 def _read(value, kind):
@@ -32,7 +43,7 @@ def _display(value, kind, system: str) -> str:
     v, _problem = _read(value, kind)
     if v is None:
         return str(value)
-    return u.format_quantity(v, kind, u.display_unit(kind, system), digits=5)
+    return _in_unit(v, kind, u.display_unit(kind, system), 5)
 
 
 def display_text(value, kind, system: str) -> str:
@@ -59,7 +70,7 @@ def _short(value, kind, system: str) -> str:
     v, _problem = _read(value, kind)
     if v is None:
         return str(value)
-    return pretty_unit(u.format_quantity(v, kind, u.display_unit(kind, system), digits=3))
+    return pretty_unit(_in_unit(v, kind, u.display_unit(kind, system), 3))
 
 
 def short_quantity(value, kind, system: str) -> str:

@@ -175,7 +175,14 @@ def verdict_style(passed: bool | None) -> str:
         fg, bg = PASS, PASS_FILL
     else:
         fg, bg = FAIL, FAIL_FILL
-    return f"color: {fg}; background: {bg}; padding: 3px 8px; border-radius: 3px; font-weight: bold;"
+    # the border keeps the same box as STALE_STYLE's, so a verdict going stale moves nothing
+    return (f"color: {fg}; background: {bg}; padding: 3px 8px; border-radius: 3px; font-weight: bold; "
+            f"border: 1px solid {bg};")
+
+
+#: a verdict that belongs to an older model (the model on screen has an error): greyed
+STALE_STYLE = (f"color: {INK_MUTED}; background: {PANEL}; padding: 3px 8px; border-radius: 3px; "
+               f"font-weight: bold; border: 1px dashed {INK_MUTED}; font-style: italic;")
 
 
 def application_palette() -> QtGui.QPalette:
