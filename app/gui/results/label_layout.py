@@ -62,3 +62,31 @@ def place_labels(labels, width: float, height: float, pad: float = 1.5, blocked=
             break
         chosen.append(pick)
     return chosen
+
+
+def place_labels_staged(labels, width: float, height: float, pad: float = 1.5, blocked=(), soft=(),
+                        cell: float = 48.0):
+    """Like :func:`place_labels`, but each label gives its spots in stages
+    (a list of spot lists): every label tries its first-stage spots before any
+    label falls back to a later stage.  So a line's label at the line's end is
+    not pushed out by another label that could have gone elsewhere.
+
+    ``soft``: boxes to keep clear where possible (e.g. markers drawn above the
+    labels anyway); a label that finds no spot in any stage tries them all
+    again ignoring these.  Returns, per label, the chosen Spot or None."""
+    chosen = [None] * len(labels)
+    placed = []
+    n_stages = max((len(stages) for _w, _h, stages in labels), default=0)
+    for keep_soft in ((True, False) if soft else (True,)):
+        for k in range(n_stages):
+            todo = [i for i, (_w, _h, stages) in enumerate(labels) if chosen[i] is None and k < len(stages)]
+            if not todo:
+                continue
+            boxes = list(blocked) + (list(soft) if keep_soft else []) + placed
+            picks = place_labels([(labels[i][0], labels[i][1], labels[i][2][k]) for i in todo],
+                                 width, height, pad, boxes, cell)
+            for i, spot in zip(todo, picks):
+                if spot is not None:
+                    chosen[i] = spot
+                    placed.append(_box(spot, labels[i][0], labels[i][1], pad))
+    return chosen
