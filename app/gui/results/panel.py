@@ -317,7 +317,7 @@ class ResultsPanel(QtWidgets.QWidget):
         judged = "; ".join(filter(None, [f"{n} permissible value(s) exceeded" if n else "",
                                          f"units {self.unit_system}"]))
         title = f"Forced response peaks: {self.train.title}; {judged}"
-        write_csv(path, title, rv.peak_model.headers, rv.peak_model.rows)
+        write_csv(path, title, R.response_headers(self.unit_system, one_line=True), rv.peak_model.rows)
 
     def export_plot(self, which: str, path: str) -> None:
         """``which``: 'modes', 'campbell' or 'response'; format from the extension (.png / .svg)."""

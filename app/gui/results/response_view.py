@@ -19,13 +19,13 @@ from core import units
 from . import rows as R
 from .legend import FlowLegend
 from .plotting import PlotCanvas, new_plot, plot_over_table
-from .table import RowsModel, fit_columns, make_table_view
+from .table import RowsModel, make_table_view
 
 RPM = 2.0 * math.pi / 60.0
 TORQUE, STRESS, SHARE = "Vibratory torque", "Vibratory shear stress", "Share of permissible"
 SUM, PHASED = "Sum of order amplitudes (conservative)", "Phase-aware synthesis"
 #: curves closer than this share of the plot's height are drawn as lying on each other
-OVERLAP = 0.006
+OVERLAP = 0.01
 MAX_DEFAULT_LINKS = 4
 
 
@@ -39,20 +39,37 @@ def default_links(resp, summary) -> list[str]:
     return chosen or list(resp.link_ids[:MAX_DEFAULT_LINKS])
 
 
-def overlapping(curves, tolerance: float):
+def overlapping(curves, tolerance: float, share: float = 0.5):
     """For each curve (y arrays over the same speeds), the index of an earlier
-    curve it lies on (every finite point within ``tolerance``), else None."""
+    curve it lies on (within ``tolerance`` at ``share`` or more of the finite
+    points: it would be hidden there), else None."""
     out = []
     for k, y in enumerate(curves):
         hit = None
         for j in range(k):
             d = np.abs(np.asarray(y, float) - np.asarray(curves[j], float))
             d = d[np.isfinite(d)]
-            if d.size and float(d.max()) <= tolerance:
+            if d.size and float(np.mean(d <= tolerance)) >= share:
                 hit = j
                 break
         out.append(hit)
     return out
+
+
+def fit_peak_columns(view: QtWidgets.QTableView) -> None:
+    """Columns as narrow as their contents (a few pixels of air), the link's name
+    taking what is left and elided (its tooltip carries it whole): the nine
+    columns fit a 1366-pixel screen.  Done once, as fit_columns does."""
+    if view.property("columns_fitted") or not view.model().rowCount():
+        return
+    view.setProperty("columns_fitted", True)
+    view.resizeColumnsToContents()
+    h = view.horizontalHeader()
+    for c in range(1, h.count()):
+        h.resizeSection(c, min(h.sectionSize(c) + 4, 140))
+    h.setStretchLastSection(False)
+    h.setMinimumSectionSize(36)
+    h.setSectionResizeMode(0, QtWidgets.QHeaderView.Stretch)
 
 
 class ResponseView(QtWidgets.QWidget):
@@ -106,6 +123,8 @@ class ResponseView(QtWidgets.QWidget):
                                     status_column=8, check_column=0)
         self.peak_table = make_table_view(self.peak_model, self)
         self.peak_table.horizontalHeader().setDefaultAlignment(QtCore.Qt.AlignLeft | QtCore.Qt.AlignBottom)
+        # compact rows: a ten-link train's table and the plot share a 1366 x 768 screen
+        self.peak_table.verticalHeader().setDefaultSectionSize(self.peak_table.fontMetrics().height() + 3)
         self.peak_table.setToolTip("Peak vibratory torque and stress per link over the computed speeds "
                                    "(sum of order amplitudes) against the permissible values given. "
                                    "Tick a link to plot it.")
@@ -156,7 +175,7 @@ class ResponseView(QtWidgets.QWidget):
             want += t.horizontalScrollBar().height()
         lower = want + self.verdict.sizeHint().height() + self.quantity.sizeHint().height() + 16
         total = sum(self.splitter.sizes())
-        lower = min(lower, total // 2)
+        lower = min(lower, int(0.56 * total))
         if abs(self.splitter.sizes()[1] - lower) > 2:
             self.splitter.setSizes([total - lower, lower])
 
@@ -227,7 +246,7 @@ class ResponseView(QtWidgets.QWidget):
         self.peak_model.set_rows(R.response_rows(self.summary, self.unit_system, train))
         self.peak_model.headerDataChanged.emit(QtCore.Qt.Horizontal, 0, len(self.peak_model.headers) - 1)
         self.peak_model.set_checked(wanted)
-        fit_columns(self.peak_table, max_width=170, elastic=0)
+        fit_peak_columns(self.peak_table)
         self._set_verdict()
         self._fit_table_height()
         self._quantity_changed()
@@ -404,7 +423,7 @@ class ResponseView(QtWidgets.QWidget):
             text = name
             if under is not None:
                 pen = theme.pen(theme.series_color(n), theme.BOLD_WIDTH, QtCore.Qt.DashLine)
-                text = f"{name} (lies on {self._name(curves[under][1])})"
+                text = f"{name} (dashed where it lies on {self._name(curves[under][1])})"
             item = p.plot(rpm, y, pen=pen)
             item.opts["name"] = name
             self.legend.addItem(item, text)

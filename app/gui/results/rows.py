@@ -183,12 +183,16 @@ def response_rows(summary, unit_system: str = "SI", train=None) -> list[Row]:
     return rows
 
 
-def response_headers(unit_system: str = "SI") -> tuple:
-    """Column headers of the peak table; two lines each so that nine columns fit a
-    1366-pixel screen (a CSV writes them on one line)."""
+def response_headers(unit_system: str = "SI", one_line: bool = False) -> tuple:
+    """Column headers of the peak table.  On screen on up to three short lines,
+    so that the nine columns fit a 1366-pixel screen with room for the links'
+    names; ``one_line`` for a CSV file ('Peak torque, kN·m')."""
     _t, _s, tu, su = torque_stress_formats(unit_system)
-    return ("Link", "Kind", f"Peak torque\n{tu}", "at rpm", f"Permissible\n{tu}",
-            f"Peak stress\n{su}", "at rpm", f"Permissible\n{su}", "Status")
+    if one_line:
+        return ("Link", "Kind", f"Peak torque, {tu}", "at rpm", f"Permissible torque, {tu}",
+                f"Peak stress, {su}", "at rpm", f"Permissible stress, {su}", "Status")
+    return ("Link", "Kind", f"Peak\ntorque\n{tu}", "at\nrpm", f"Permissible\ntorque\n{tu}",
+            f"Peak\nstress\n{su}", "at\nrpm", f"Permissible\nstress\n{su}", "Status")
 
 
 def _converted(value, kind, unit: str) -> str:

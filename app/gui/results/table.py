@@ -181,12 +181,11 @@ def fit_columns(view: QtWidgets.QTableView, max_width: int = 360, elastic: int |
 
 
 def write_csv(path: str, title: str, headers, rows: list[Row]) -> None:
-    """CSV of the table as shown, preceded by two '#' comment lines: what it is and the caution.
-    A header shown on two lines on screen ('Peak torque\\nkN·m') is one cell 'Peak torque, kN·m'."""
+    """CSV of the table as shown, preceded by two '#' comment lines: what it is and the caution."""
     with open(path, "w", newline="", encoding="utf-8") as fh:
         w = csv.writer(fh)
         w.writerow([f"# {title}"])
         w.writerow([f"# {CAUTION}"])
-        w.writerow([h.replace("\n", ", ") for h in headers])
+        w.writerow([h.replace("\n", " ") for h in headers])
         for r in rows:
             w.writerow(list(r.cells))
