@@ -63,9 +63,10 @@ class ModesView(QtWidgets.QWidget):
         self._pool = {}  # (plot, name) -> plot item kept from one redraw to the next
         self._used = set()
 
-        self.table_model = RowsModel(R.FREQUENCY_HEADERS, self, numeric_columns=(0, 1, 2))
+        self.table_model = RowsModel(R.FREQUENCY_HEADERS_SHOWN, self, numeric_columns=(0, 1, 2))
         self.table = make_table_view(self.table_model, self)
         self.table.setToolTip("Natural frequencies, lowest first. Select a row to draw its mode shape.")
+        self.table.setTextElideMode(QtCore.Qt.ElideMiddle)  # 'Pump imp…r (73.7 %)': the share stays in view
         self.table.selectionModel().currentRowChanged.connect(self._row_changed)
 
         self.show_box = QtWidgets.QComboBox(self)
@@ -167,7 +168,12 @@ class ModesView(QtWidgets.QWidget):
         if key != self._line_key:  # a value edit keeps the positions along the train
             self._line_key, self._line = key, train_line(train)
         self.table_model.set_rows(R.frequency_rows(modes, above_limit, screened))
-        fit_columns(self.table, max_width=220, elastic=4)
+        fit_columns(self.table, max_width=220, elastic=(4, 5))
+        # the screening column as wide as its longest word, whichever rows were measured
+        h = self.table.horizontalHeader()
+        need = self.table.fontMetrics().horizontalAdvance(R.ABOVE_LIMIT) + 16
+        if h.count() > 6 and h.sectionSize(6) < need:
+            h.resizeSection(6, need)
         n = len(modes)
         if select is None or not 0 <= select < n:
             elastic = np.flatnonzero(modes.elastic)

@@ -244,9 +244,9 @@ def column_ticks(train, line: TrainLine, width_px: float, font) -> list:
     per_column = max(width_px, 50.0) / max(line.n_columns, 1)
     longest = max((fm.horizontalAdvance(t) for t in main.values()), default=20)
     # as wide as a column allows, but never narrower than about ten characters
-    room = max(per_column - 12, fm.horizontalAdvance("Crank thro…"))
+    room = max(per_column - 24, fm.horizontalAdvance("Crank thro…"))
     room = min(room, longest)
     main = {c: elide(t, fm, room) for c, t in main.items()}
-    widest = max((fm.horizontalAdvance(t) for t in main.values()), default=20) + 12
+    widest = max((fm.horizontalAdvance(t) for t in main.values()), default=20) + 24
     step = max(1, int(np.ceil(widest / per_column)))
     return [[(c, main.get(c, "")) for c in range(0, line.n_columns, step)]]

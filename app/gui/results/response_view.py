@@ -362,15 +362,18 @@ class ResponseView(QtWidgets.QWidget):
         share = quantity == SHARE
         if share:
             scale = 1.0
+            self._unit_text = "%"
             p.setLabel("left", f"{quantity}, %", siPrefixEnableRanges=())
         else:
             kind = units.STRESS if stress else units.TORQUE
             unit = units.display_unit(kind, self.unit_system)
             if self.unit_system == "SI":  # N*m or Pa with an automatic k / M prefix
                 scale = 1.0
+                self._unit_text = None  # the axis's own prefixed unit
                 p.setLabel("left", quantity, units="Pa" if stress else "N·m")
             else:
                 scale = units.convert(1.0, kind, unit)
+                self._unit_text = R.pretty(unit)
                 p.setLabel("left", f"{quantity}, {R.pretty(unit)}", siPrefixEnableRanges=())
         rpm = np.asarray(r.speed, float) / RPM
         self._rpm = rpm
@@ -447,6 +450,8 @@ class ResponseView(QtWidgets.QWidget):
         if rpm is None or not len(rpm):
             return
         k = int(np.clip(np.searchsorted(rpm, pt.x()), 0, len(rpm) - 1))
-        unit = self.plot.getAxis("left").labelUnits
+        unit = getattr(self, "_unit_text", None)
+        if unit is None:  # SI: the values are plotted in N*m or Pa
+            unit = self.plot.getAxis("left").labelUnits
         values = ", ".join(f"{self._name(lid)} {y[k]:.4g}" for lid, y in getattr(self, "_plotted", []))
         self.hover.setText(f"At {rpm[k]:.0f} rpm: {values}" + (f" ({unit})" if unit else ""))

@@ -158,12 +158,12 @@ def make_table_view(model: RowsModel, parent=None) -> QtWidgets.QTableView:
     return v
 
 
-def fit_columns(view: QtWidgets.QTableView, max_width: int = 360, elastic: int | None = None) -> None:
+def fit_columns(view: QtWidgets.QTableView, max_width: int = 360, elastic=None) -> None:
     """Size columns to their contents once (the first time the table has rows),
     then leave them: live re-solves must not undo widths the user dragged.
 
-    ``elastic``: the column of long descriptive text (e.g. the excitation's name)
-    that takes the width left over by the others, so that on a small screen
+    ``elastic``: the column (or columns, sharing it) of long descriptive text
+    (e.g. the excitation's name) that takes the width left over by the others, so that on a small screen
     (1366 x 768) every number column stays in view and that text is elided
     (its row's tooltip carries it in full) instead of pushing columns off the edge.
     """
@@ -177,7 +177,8 @@ def fit_columns(view: QtWidgets.QTableView, max_width: int = 360, elastic: int |
     if elastic is not None:
         h.setStretchLastSection(False)
         h.setMinimumSectionSize(max(h.minimumSectionSize(), 40))
-        h.setSectionResizeMode(elastic, QtWidgets.QHeaderView.Stretch)
+        for c in ((elastic,) if isinstance(elastic, int) else elastic):
+            h.setSectionResizeMode(c, QtWidgets.QHeaderView.Stretch)
 
 
 def write_csv(path: str, title: str, headers, rows: list[Row]) -> None:
