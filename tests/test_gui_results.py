@@ -22,7 +22,7 @@ from core.about import CAUTION  # noqa: E402
 from app.gui.results import ResultsPanel  # noqa: E402
 from app.gui.results import rows as R  # noqa: E402
 from app.gui.results.campbell_view import RPM, margin_band_hz  # noqa: E402
-from app.gui.results.label_layout import Spot, place_labels  # noqa: E402
+from app.gui.results.label_layout import Spot, place_labels, place_labels_staged  # noqa: E402
 from core.project import build_train, load_document  # noqa: E402
 from core.screening import nearest_at_speed, screen  # noqa: E402
 from core.solver import natural_modes  # noqa: E402
@@ -412,6 +412,20 @@ def test_labels_do_not_overlap_and_fall_back_or_hide():
     chosen = place_labels([(50, 12, spots), (50, 12, spots), (50, 12, spots)], 200, 100)
     assert chosen[0] == spots[0] and chosen[1] == spots[1] and chosen[2] is None
     assert place_labels([(50, 12, [Spot(190, 10, 0, 0)])], 200, 100) == [None]  # would leave the plot
+
+
+def test_staged_labels_keep_first_choices_and_soft_boxes_give_way():
+    end = Spot(100, 10, 0, 0)
+    elsewhere = Spot(100, 50, 0, 0)
+    # the second label's only first-stage spot is where the first label would go first:
+    # staged, the first label falls back and the second keeps its line end
+    labels = [(40, 12, [[], [end, elsewhere]]), (40, 12, [[end]])]
+    assert place_labels_staged(labels, 200, 100) == [elsewhere, end]
+    # a soft box (a marker) is avoided while there is room, given way to when there is none
+    ring = (95, 5, 145, 25)
+    assert place_labels_staged([(40, 12, [[end, elsewhere]])], 200, 100, soft=[ring]) == [elsewhere]
+    assert place_labels_staged([(40, 12, [[end]])], 200, 100, soft=[ring]) == [end]
+    assert place_labels_staged([(40, 12, [[end]])], 200, 100, blocked=[ring]) == [None]
 
 
 # ------------------------------------------------------------ look (rendered offscreen)

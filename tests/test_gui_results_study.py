@@ -328,6 +328,7 @@ def test_stale_greys_every_view_and_shows_no_verdict(panel, tmp_path):
     after = _saturated(panel.tabs.grab().toImage())
     assert after < 0.3 * before
     assert "last valid model" in panel.details.text()
+    assert panel.verdict_summary() == ("no verdict (the model has an error)", None)
     with pytest.raises(ValueError):
         panel.export_frequency_csv(str(tmp_path / "f.csv"))
     # a new solve of the last valid model does not un-grey: only set_stale(None) does
@@ -335,6 +336,7 @@ def test_stale_greys_every_view_and_shows_no_verdict(panel, tmp_path):
     assert panel.verdict.text().startswith("No verdict")
     panel.set_stale(None)
     assert panel.verdict.text().startswith("PASS")
+    assert panel.verdict_summary() == ("PASS", True)
     assert panel.tabs.graphicsEffect() is None
 
 

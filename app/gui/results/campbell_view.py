@@ -18,7 +18,7 @@ from app.gui import theme
 from core.screening import ExcitationLine, highest_excitation_hz, nearest_at_speed, pair_separation
 
 from . import rows as R
-from .label_layout import Spot, place_labels_staged
+from .label_layout import SOFT_PASS_LIMIT, Spot, place_labels_staged
 from .legend import FlowLegend
 from .plotting import PlotCanvas, new_plot, plot_over_table
 from .table import RowsModel, fit_columns, make_table_view
@@ -27,6 +27,8 @@ RPM = 2.0 * math.pi / 60.0  # rad/s per rpm
 #: the frequency axis turns logarithmic when the lowest mode in the window would sit in
 #: the bottom tenth of a linear axis (a few pixels above the speed axis on a small screen)
 LOG_BELOW = 0.1
+#: where a mode's label may sit along its line (fractions of the plot's width), left first
+MODE_LABEL_X = (0.01, 0.07, 0.13, 0.19, 0.25, 0.31, 0.37, 0.43, 0.49, 0.55, 0.61, 0.67, 0.73, 0.79)
 
 
 def margin_band_text(margin: float) -> str:
@@ -125,6 +127,7 @@ class CampbellView(QtWidgets.QWidget):
         for item in (self._band_item, self._mode_item, self.selected_line):
             item.setVisible(False)
             self.plot.addItem(item, ignoreBounds=True)
+        self._ring_xy = None  # (x, y, size) of the rings drawn, for the label placement
         self._ring_pens = {True: theme.pen(theme.COINCIDENCE_FAIL, theme.BOLD_WIDTH),
                            False: theme.pen(theme.COINCIDENCE_PASS, theme.LINE_WIDTH)}
         self.rings = pg.ScatterPlotItem(symbol="o", brush=theme.brush((0, 0, 0, 0)), hoverable=True,
@@ -404,6 +407,8 @@ class CampbellView(QtWidgets.QWidget):
         """Frequency (Hz) to the plot's y coordinate (log10 on a logarithmic axis)."""
         if not self._log:
             return f
+        if isinstance(f, float):  # the label placement asks one value at a time
+            return math.log10(max(f, 1e-12))
         return np.log10(np.maximum(f, 1e-12))
 
     def _y_inv(self, y: float) -> float:
@@ -586,6 +591,7 @@ class CampbellView(QtWidgets.QWidget):
             sizes.append(20 if fail else 15)
             data.append(n)
         self.rings.setData(xs, ys, size=sizes, pen=pens, data=data)
+        self._ring_xy = (np.asarray(xs, float), np.asarray(ys, float), np.asarray(sizes, float))
         self.rings.setVisible(bool(xs))
         if any(not c.passed for c in s.coincidences):
             legend.append(("ring", True, "coincidence inside the margin (fail)"))
@@ -737,6 +743,10 @@ class CampbellView(QtWidgets.QWidget):
         def px(x, f):
             return (x - vx0) * sx, (vy1 - float(self._y(f))) * sy
 
+        # a long train's hundreds of mode labels try fewer spots (most find none anyway)
+        crowded = len(self._labels) > SOFT_PASS_LIMIT
+        mode_xs = MODE_LABEL_X[::4] if crowded else MODE_LABEL_X
+        mode_ays = (1.0, 0.0) if crowded else (1.0, 0.0, 0.5)
         requests = []
         for item, kind, value in self._labels:
             br = item.textItem.boundingRect()
@@ -748,11 +758,11 @@ class CampbellView(QtWidgets.QWidget):
                 continue
             if kind == "mode":  # just above its line, else just below, else on it; left first
                 y = px(0, value)[1]
-                spots = []
-                xs = [fx * w for fx in (0.01, 0.07, 0.13, 0.19, 0.25, 0.31, 0.37, 0.43, 0.49, 0.55, 0.61,
-                                        0.67, 0.73, 0.79)]
-                for ay in (1.0, 0.0, 0.5):
-                    spots += [Spot(x, y, 0.0, ay) for x in xs]
+                if not -th < y < h + th:  # its line is outside the view (zoomed or panned)
+                    requests.append((tw, th, []))
+                    continue
+                # plain tuples (x, y, ax, ay): a long train asks for thousands per redraw
+                spots = [(fx * w, y, 0.0, ay) for ay in mode_ays for fx in mode_xs]
                 requests.append((tw, th, [[], spots]))  # stage 1
                 continue
             if kind == "fixed":
@@ -784,20 +794,21 @@ class CampbellView(QtWidgets.QWidget):
             requests.append((tw, th, [first, [], rest]))
         # stage 0: the note and the lines' ends; 1: the modes; 2: the lines' fall-backs
         rings = []
-        if self.rings.isVisible():  # keep the coincidence rings clear of text where there is room
-            for pt in self.rings.points():
-                X, Y = (pt.pos().x() - vx0) * sx, (vy1 - pt.pos().y()) * sy
-                r = 0.5 * float(pt.size()) + 1.0
-                rings.append((X - r, Y - r, X + r, Y + r))
+        if self.rings.isVisible() and self._ring_xy is not None:
+            # keep the coincidence rings clear of text where there is room
+            xs, ys, sizes = self._ring_xy
+            X, Y, r = (xs - vx0) * sx, (vy1 - ys) * sy, 0.5 * sizes + 1.0
+            rings = list(zip((X - r).tolist(), (Y - r).tolist(), (X + r).tolist(), (Y + r).tolist()))
         chosen = place_labels_staged(requests, w, h, blocked=[self._cursor_label_box(w, h, vx0, sx)],
                                      soft=rings)
         for (item, _kind, _value), spot in zip(self._labels, chosen):
             if spot is None:
                 item.setVisible(False)
                 continue
+            x, y, ax, ay = spot
             item.setVisible(True)
-            item.setAnchor((spot.ax, spot.ay))
-            item.setPos(vx0 + spot.x / sx, vy1 - spot.y / sy)
+            item.setAnchor((ax, ay))
+            item.setPos(vx0 + x / sx, vy1 - y / sy)
 
     def _ring_tip(self, n: int) -> str:
         c = self.screening.coincidences[n]

@@ -382,6 +382,23 @@ class ResultsPanel(QtWidgets.QWidget):
             text = text.rstrip(".") + f" (forced response not computed: {st.response_error})."
         return text, ok
 
+    def verdict_summary(self) -> tuple[str, bool | None]:
+        """A short verdict for a status bar and its colour (True green, False red,
+        None grey) that follows the panel: no PASS while the model on screen has errors."""
+        if self.study is None:
+            return "no results", None
+        if self.is_stale:
+            return "no verdict (the model has an error)", None
+        text, ok = self.verdict_text()
+        if self.screening is None and ok is None:
+            return "no screening (no operating data)", None
+        if ok:
+            return "PASS", True
+        n = len(self.screening.failures) if self.screening is not None else 0
+        ex = len(self.study.exceedances) if self.study.response is not None else 0
+        parts = ([f"{n} inside the margin"] if n else []) + ([f"{ex} over a permissible value"] if ex else [])
+        return f"FAIL ({', '.join(parts)})", False
+
     def _show_verdict(self) -> None:
         m = self.modes
         n_el = int(m.elastic.sum())
