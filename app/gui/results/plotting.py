@@ -53,19 +53,20 @@ class PlotCanvas(pg.GraphicsLayoutWidget):
                             f"<span style='color:{theme.WARN}'>{html.escape(CAUTION)}</span>",
                             color=theme.INK, size=f"{theme.SMALL_POINT_SIZE}pt", justify="left")
         lay = self.ci.layout
-        row = lay.rowCount()
         old_rect = self.ci.geometry()
-        self.ci.addItem(note, row=row, col=0, colspan=max(1, lay.columnCount()))
-        lay.setRowStretchFactor(row, 0)
-        note.setMaximumHeight(3.2 * self.fontMetrics().height())
         hidden = [item for item in self.export_show if not item.isVisible()]
         for item in hidden:
             _show(item, True)
+        # items may move (e.g. the key beside or below the plot) before the note takes its row
+        for hook in self.layout_hooks:
+            hook(*self.EXPORT_SIZE)
+        row = lay.rowCount()
+        self.ci.addItem(note, row=row, col=0, colspan=max(1, lay.columnCount()))
+        lay.setRowStretchFactor(row, 0)
+        note.setMaximumHeight(3.2 * self.fontMetrics().height())
         try:
             # lay the central item out at the export size (the widget itself keeps its size);
             # twice, as a key that wraps to the new width asks for a new height
-            for hook in self.layout_hooks:
-                hook(*self.EXPORT_SIZE)
             for _ in range(2):
                 self.ci.setGeometry(QtCore.QRectF(0, 0, *self.EXPORT_SIZE))
                 lay.activate()
@@ -81,9 +82,9 @@ class PlotCanvas(pg.GraphicsLayoutWidget):
                 ex.parameters()["height"] = int(round(rect.height()))
                 ex.export(str(path))
         finally:
+            self.ci.removeItem(note)
             for item in hidden:
                 _show(item, False)
-            self.ci.removeItem(note)
             for hook in self.layout_hooks:
                 hook(float(self.width()), float(self.height()))
             self.ci.setGeometry(old_rect)
