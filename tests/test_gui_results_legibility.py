@@ -113,11 +113,16 @@ def test_interference_diagram_is_legible(make_window, path, size):
         assert " ".join(text_item.text().split("\n")) == text  # wrapped perhaps, never cut
 
 
+@pytest.mark.parametrize("system", ["SI", "US"])
 @pytest.mark.parametrize("name", ["engine_genset", "propulsion_line"])
-def test_forced_response_fits_1366x768(make_window, name):
+def test_forced_response_fits_1366x768(make_window, name, system):
     path = next(p for p in SAMPLES if p.stem == name)
     win = make_window(path, (1366, 768), 2)
+    win.results_panel.set_unit_system(system)
+    for _ in range(3):
+        QtWidgets.QApplication.processEvents()
     rv = win.results_panel.response_view
+    assert (system == "US") == ("lbf·ft" in rv.peak_model.headers[2])
     assert rv.response is not None
     t = rv.peak_table
     assert not t.horizontalScrollBar().isVisible() and not t.verticalScrollBar().isVisible()

@@ -240,8 +240,11 @@ def test_unit_system_reaches_every_axis_column_tip_and_export(panel, tmp_path):
     headers = rv.peak_model.headers
     assert "lbf·ft" in headers[2] and "ksi" in headers[5]
     for row, peak in zip(rv.peak_model.rows, study.response_peaks):
-        # core.units (pint) as the reference conversion of N*m to lbf*ft
-        assert row.cells[2] == f"{units.convert(peak.peak_torque, units.TORQUE, 'lbf*ft'):.3g}"
+        # 1 lbf*ft = 1.3558179 N*m (0.3048 m x 4.4482216 N, exact definitions of the foot and the
+        # pound-force), three significant digits, never in exponent form
+        expected = peak.peak_torque / (0.3048 * 4.4482216152605)
+        assert "e" not in row.cells[2]
+        assert float(row.cells[2]) == pytest.approx(expected, rel=5e-3)
         assert "lbf·ft" in row.tooltip
     assert "lbf·ft" in rv.plot.getAxis("left").labelText
     # modal torque axis and tips

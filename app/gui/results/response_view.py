@@ -170,14 +170,18 @@ class ResponseView(QtWidgets.QWidget):
         if not n or self.height() < 200:
             return
         t = self.peak_table
-        want = t.horizontalHeader().height() + n * t.verticalHeader().defaultSectionSize() + 2 * t.frameWidth()
+        header = max(t.horizontalHeader().height(), t.horizontalHeader().sizeHint().height())
+        want = header + n * t.verticalHeader().defaultSectionSize() + 2 * t.frameWidth() + 2
         if t.horizontalScrollBar().isVisible():
             want += t.horizontalScrollBar().height()
         lower = want + self.verdict.sizeHint().height() + self.quantity.sizeHint().height() + 16
         total = sum(self.splitter.sizes())
         lower = min(lower, int(0.56 * total))
-        if abs(self.splitter.sizes()[1] - lower) > 2:
+        # once per number of rows and height: a split the user dragged stays through live edits
+        key = (n, total, lower)
+        if key != getattr(self, "_fitted_for", None) and abs(self.splitter.sizes()[1] - lower) > 2:
             self.splitter.setSizes([total - lower, lower])
+        self._fitted_for = key
 
     # ------------------------------------------------------------ the result-view protocol (see panel)
     NO_AMPLITUDE = "give an excitation an amplitude to see the forced response"
@@ -336,6 +340,7 @@ class ResponseView(QtWidgets.QWidget):
     def showEvent(self, event) -> None:
         super().showEvent(event)
         self.ensure_drawn()
+        self._fit_table_height()
 
     def ensure_drawn(self) -> None:
         """Draw the plot now if results came while it was hidden (exports, tests)."""

@@ -199,6 +199,14 @@ def response_headers(unit_system: str = "SI", one_line: bool = False) -> tuple:
 
 
 def _converted(value, kind, unit: str) -> str:
+    """Three significant digits in ``unit``, never in exponent form ('2250', '104', '0.946'),
+    as app.formatting prints kN*m and MPa."""
     if value is None or not math.isfinite(value):
         return "—"
-    return f"{units.convert(value, kind, unit):.3g}"
+    v = units.convert(value, kind, unit)
+    if v == 0:
+        return "0"
+    if abs(v) >= 1000:
+        return f"{v:.0f}"
+    digits = max(0, 2 - math.floor(math.log10(abs(v))))
+    return f"{round(v, digits):.{digits}f}".rstrip("0").rstrip(".") if digits else f"{v:.0f}"
