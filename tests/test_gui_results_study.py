@@ -142,6 +142,11 @@ def test_response_tab_turns_on_with_one_amplitude_and_looks_disabled_without(pan
     # looks disabled: its text is drawn much lighter than an enabled tab's (not just unresponsive)
     image = bar.grab().toImage()
     assert _darkest(image, bar.tabRect(2)) > _darkest(image, bar.tabRect(1)) + 60
+    # and its tooltip shows although the tab is disabled
+    pos = bar.tabRect(2).center()
+    QtWidgets.QApplication.sendEvent(bar, QtGui.QHelpEvent(QtCore.QEvent.ToolTip, pos, bar.mapToGlobal(pos)))
+    assert QtWidgets.QToolTip.text() == panel.tabs.tabToolTip(2)
+    QtWidgets.QToolTip.hideText()
     # one amplitude is enough
     doc = copy.deepcopy(doc)
     doc["excitations"][0]["orders"] = [{"order": 1, "amplitude": "200 N*m"}, 2]
@@ -380,6 +385,16 @@ def test_reset_view_state_forgets_cursor_selection_and_zoom(panel):
     assert cv.log_box.isChecked() == cv.auto_log()
     y1 = cv.plot.vb.viewRange()[1][1]
     assert cv._y_inv(y1) == pytest.approx(cv.window_top_hz(), rel=1e-6)
+
+
+def test_a_non_finite_response_never_shows_pass(panel):
+    study = _study(_doc("engine_genset"))
+    peaks = list(study.response_peaks)
+    peaks[0] = dataclasses.replace(peaks[0], peak_torque=float("inf"))
+    bad = dataclasses.replace(study)
+    object.__setattr__(bad, "response_peaks", tuple(peaks))  # the cached value
+    panel.set_study(bad)
+    assert panel.verdict.text().startswith("No verdict") and "PASS" not in panel.verdict.text()
 
 
 def test_without_reset_a_live_edit_keeps_cursor_and_mode(panel):

@@ -55,6 +55,7 @@ class ModesView(QtWidgets.QWidget):
     def __init__(self, parent=None):
         super().__init__(parent)
         self.modes = None
+        self._forget = False
         self.above_limit = None
         self.unit_system = "SI"
         self._index = -1
@@ -139,7 +140,9 @@ class ModesView(QtWidgets.QWidget):
     def show_study(self, study) -> str | None:
         """Show the study's modes, keeping the same mode number selected across live edits."""
         keep = None
-        if self.modes is not None and 0 <= self._index < len(self.modes):
+        if self._forget:  # a newly opened project: no selection carried over
+            self._forget = False
+        elif self.modes is not None and 0 <= self._index < len(self.modes):
             keep = R.mode_index(study.modes, int(self.modes.number[self._index]))
         self.set_modes(study.modes, study.above_screening_limit, keep, screened=study.screening is not None)
         return None
@@ -152,9 +155,9 @@ class ModesView(QtWidgets.QWidget):
             self._draw()
 
     def reset_view_state(self) -> None:
-        """A newly opened project: no mode selection carried over."""
-        self._index = -1
-        self.modes = None
+        """A newly opened project: no mode selection carried over (the next study
+        selects its first elastic mode)."""
+        self._forget = True
 
     # ------------------------------------------------------------ data
     def set_modes(self, modes, above_limit=None, select: int | None = None, screened: bool | None = None) -> None:

@@ -432,4 +432,10 @@ def _not_finite(study) -> str | None:
         seps = [c.separation for c in s.coincidences]
         if seps and not np.isfinite(np.asarray(seps, float)).all():
             return "No verdict: a separation margin is not a number; check the model's values."
+    if study.response is not None:
+        for p in study.response_peaks:
+            for v in (p.peak_torque, p.peak_stress):
+                if v is not None and not np.isfinite(v):
+                    return (f"No verdict: the forced response of {study.train.name_of(p.link_id)} is not a "
+                            "number; check the model's values.")
     return None
