@@ -18,11 +18,11 @@ pytest.importorskip("pytestqt")
 from PySide6 import QtCore, QtGui  # noqa: E402
 
 from app import formatting as fmt  # noqa: E402
-from app.cli import CAUTION  # noqa: E402
+from core.about import CAUTION  # noqa: E402
 from app.gui.results import ResultsPanel  # noqa: E402
 from app.gui.results import rows as R  # noqa: E402
 from app.gui.results.campbell_view import RPM, margin_band_hz  # noqa: E402
-from app.gui.results.label_layout import Spot, place_labels  # noqa: E402
+from app.gui.results.label_layout import Spot, place_labels, place_labels_staged  # noqa: E402
 from core.project import build_train, load_document  # noqa: E402
 from core.screening import nearest_at_speed, screen  # noqa: E402
 from core.solver import natural_modes  # noqa: E402
@@ -68,8 +68,12 @@ def test_frequency_table_rows_equal_core_frequencies(panel, solved):
         assert _shown(model, i, 2) == fmt.cpm(f)
         assert _shown(model, i, 3) == ("yes" if modes.rigid_body[i] else "")
         if not modes.rigid_body[i]:
-            assert _shown(model, i, 4).startswith(modes.dominant_link(i) + " (")
-        assert _shown(model, i, 5).startswith(modes.dominant_disc(i) + " (")
+            # names over ids (issue 9, item 4): the element's name, its id where it has none
+            assert _shown(model, i, 4).startswith(train.name_of(modes.dominant_link(i)) + " (")
+        assert _shown(model, i, 5).startswith(train.name_of(modes.dominant_disc(i)) + " (")
+        screened = "not screened" if modes.rigid_body[i] else (
+            "above the screening limit" if f > s.cap_hz else "screened")
+        assert _shown(model, i, 6) == screened
 
 
 def test_selecting_a_frequency_row_draws_that_mode_and_emits(panel, qtbot, solved):
@@ -169,7 +173,17 @@ def test_campbell_axis_ranges(panel, solved):
     (x0, x1), (y0, y1) = cv.plot.vb.viewRange()
     top = max(s.speed_max, train.operating.trip_speed or 0.0) / RPM
     assert x0 == pytest.approx(0.0, abs=1e-6) and x1 == pytest.approx(1.2 * top, rel=1e-6)
-    assert cv._y_inv(y1) == pytest.approx(s.cap_hz, rel=1e-6)
+    assert cv._y_inv(y1) == pytest.approx(_window_top(s), rel=1e-6)
+
+
+def _window_top(s):
+    """Top of the diagram's frequency window, from its definition: the highest excitation
+    frequency in the operating range plus twice the margin (above it every mode is clear
+    by more than twice the margin), raised to each listed coincidence's mode plus the
+    margin, never above the screening limit."""
+    f_exc = max(float(l.frequency(s.speed_max)) for l in s.lines)
+    top = max([f_exc * (1 + 2 * s.margin)] + [c.frequency_hz * (1 + s.margin) for c in s.coincidences])
+    return min(top, s.cap_hz)
 
 
 def test_coincidence_table_lists_core_coincidences_in_order(panel, solved):
@@ -269,7 +283,7 @@ def test_log_axis_chosen_for_wide_frequency_span_and_user_can_override(panel):
     panel.set_results(train, modes, s)
     assert not cv.log_box.isChecked()
     (y0, y1), = [cv.plot.vb.viewRange()[1]]
-    assert y1 == pytest.approx(s.cap_hz, rel=1e-6)
+    assert y1 == pytest.approx(_window_top(s), rel=1e-6)
 
 
 def test_log_axis_bottom_holds_through_small_edits_and_follows_big_ones(panel):
@@ -319,6 +333,9 @@ def test_without_operating_data_only_frequencies(panel):
     assert panel.campbell_view.message.isVisibleTo(panel.campbell_view)
     assert "No operating data" in panel.campbell_view.message.text()
     assert not panel.tabs.isTabEnabled(2)
+    assert not panel.tabs.isTabEnabled(1)  # nothing to draw: the tab looks disabled and says why
+    assert "operating speed range" in panel.tabs.tabToolTip(1)
+    assert {r.cells[6] for r in panel.modes_view.table_model.rows} == {"—"}  # nothing was screened
 
 
 def test_clear_results_shows_the_message(panel, solved):
@@ -383,6 +400,7 @@ def test_export_menu_actions(panel, qtbot):
     actions = panel.export_menu_actions(panel)
     texts = [a.text() for a in actions if not a.isSeparator()]
     assert "Natural frequencies as CSV…" in texts and "Coincidences as CSV…" in texts
+    assert "Forced response peaks as CSV…" in texts
     for plot in ("Mode shape plot", "Interference diagram", "Forced response plot"):
         assert f"{plot} as PNG…" in texts and f"{plot} as SVG…" in texts
     assert all(isinstance(a, QtGui.QAction) for a in actions)
@@ -394,6 +412,20 @@ def test_labels_do_not_overlap_and_fall_back_or_hide():
     chosen = place_labels([(50, 12, spots), (50, 12, spots), (50, 12, spots)], 200, 100)
     assert chosen[0] == spots[0] and chosen[1] == spots[1] and chosen[2] is None
     assert place_labels([(50, 12, [Spot(190, 10, 0, 0)])], 200, 100) == [None]  # would leave the plot
+
+
+def test_staged_labels_keep_first_choices_and_soft_boxes_give_way():
+    end = Spot(100, 10, 0, 0)
+    elsewhere = Spot(100, 50, 0, 0)
+    # the second label's only first-stage spot is where the first label would go first:
+    # staged, the first label falls back and the second keeps its line end
+    labels = [(40, 12, [[], [end, elsewhere]]), (40, 12, [[end]])]
+    assert place_labels_staged(labels, 200, 100) == [elsewhere, end]
+    # a soft box (a marker) is avoided while there is room, given way to when there is none
+    ring = (95, 5, 145, 25)
+    assert place_labels_staged([(40, 12, [[end, elsewhere]])], 200, 100, soft=[ring]) == [elsewhere]
+    assert place_labels_staged([(40, 12, [[end]])], 200, 100, soft=[ring]) == [end]
+    assert place_labels_staged([(40, 12, [[end]])], 200, 100, blocked=[ring]) == [None]
 
 
 # ------------------------------------------------------------ look (rendered offscreen)

@@ -15,14 +15,26 @@ from PySide6 import QtCore, QtGui, QtWidgets
 
 from app import formatting as fmt
 from app.gui import theme
-from core.screening import ExcitationLine, nearest_at_speed, pair_separation
+from core.screening import ExcitationLine, highest_excitation_hz, nearest_at_speed, pair_separation
 
 from . import rows as R
-from .label_layout import Spot, place_labels
+from .label_layout import SOFT_PASS_LIMIT, Spot, place_labels_staged
+from .legend import FlowLegend
 from .plotting import PlotCanvas, new_plot, plot_over_table
 from .table import RowsModel, fit_columns, make_table_view
 
 RPM = 2.0 * math.pi / 60.0  # rad/s per rpm
+#: the frequency axis turns logarithmic when the lowest mode in the window would sit in
+#: the bottom tenth of a linear axis (a few pixels above the speed axis on a small screen)
+LOG_BELOW = 0.1
+#: where a mode's label may sit along its line (fractions of the plot's width), left first
+MODE_LABEL_X = (0.01, 0.07, 0.13, 0.19, 0.25, 0.31, 0.37, 0.43, 0.49, 0.55, 0.61, 0.67, 0.73, 0.79)
+
+
+def margin_band_text(margin: float) -> str:
+    """What the shaded band around a natural frequency is, in words that match
+    :func:`margin_band_hz` (the separation is relative to the excitation frequency)."""
+    return f"margin band: |f_n − f_exc| < {fmt.percent(margin)} % of f_exc"
 
 
 def margin_band_hz(f_n: float, margin: float) -> tuple[float, float] | None:
@@ -68,9 +80,10 @@ class CampbellView(QtWidgets.QWidget):
         self.canvas.export_title = "Interference diagram"
         self.plot = new_plot(self.canvas, 0, "Reference speed, rpm", "Frequency, Hz")
         self.plot.getAxis("left").setWidth(64)
-        self.legend = pg.LegendItem(colCount=3, labelTextColor=theme.INK, labelTextSize=f"{theme.SMALL_POINT_SIZE}pt",
-                                    horSpacing=18, verSpacing=-4)
+        self.legend = FlowLegend()
         self.canvas.addItem(self.legend, row=1, col=0)
+        self._key_side = False
+        self.canvas.layout_hooks.append(self._arrange_key)
         self.canvas.ci.layout.setRowStretchFactor(0, 10)
         self.canvas.export_show = [self.legend]
 
@@ -107,13 +120,14 @@ class CampbellView(QtWidgets.QWidget):
         self._mode_item = QtWidgets.QGraphicsPathItem()
         self._mode_item.setPen(theme.natural_frequency_pen())
         self._mode_item.setZValue(-5)
-        self._mode_item.setToolTip("Natural frequencies; the shaded bands are the excitation frequencies "
-                                   "that come within the required margin")
+        self._mode_item.setToolTip("Natural frequencies; the shaded band around each holds the excitation "
+                                   "frequencies it lies within the required margin of")
         self.selected_line = pg.InfiniteLine(0.0, angle=0, pen=theme.natural_frequency_pen(True))
         self.selected_line.setZValue(-4)
         for item in (self._band_item, self._mode_item, self.selected_line):
             item.setVisible(False)
             self.plot.addItem(item, ignoreBounds=True)
+        self._ring_xy = None  # (x, y, size) of the rings drawn, for the label placement
         self._ring_pens = {True: theme.pen(theme.COINCIDENCE_FAIL, theme.BOLD_WIDTH),
                            False: theme.pen(theme.COINCIDENCE_PASS, theme.LINE_WIDTH)}
         self.rings = pg.ScatterPlotItem(symbol="o", brush=theme.brush((0, 0, 0, 0)), hoverable=True,
@@ -131,8 +145,9 @@ class CampbellView(QtWidgets.QWidget):
                                 "(high gear-mesh or blade orders); tick or untick to override.")
         self.log_box.toggled.connect(self._log_toggled)
         self.fit_button = QtWidgets.QPushButton("Fit view", self)
-        self.fit_button.setToolTip("Back to the full speed range and every screened mode "
-                                   "(drag to pan, mouse wheel to zoom).")
+        self.fit_button.setToolTip("Back to the full speed range and the frequencies the excitations reach "
+                                   "in the operating range (drag to pan, mouse wheel to zoom out to "
+                                   "every screened mode).")
         self.fit_button.clicked.connect(self.fit_view)
         self.key_box = QtWidgets.QCheckBox("Key", self)
         self.key_box.setChecked(True)
@@ -141,6 +156,10 @@ class CampbellView(QtWidgets.QWidget):
         self.key_box.toggled.connect(self._key_toggled)
         self.hover = QtWidgets.QLabel(self)
         self.hover.setStyleSheet(f"color: {theme.INK_MUTED};")
+        self.hover.setMinimumWidth(40)
+        self.hover.setSizePolicy(QtWidgets.QSizePolicy.Ignored, QtWidgets.QSizePolicy.Preferred)
+        self.hover.setToolTip("The pointer's speed and frequency; drag the red cursor to read out "
+                              "every excitation at a speed.")
         self.message = QtWidgets.QLabel(self)
         self.message.setWordWrap(True)
         self.message.setAlignment(QtCore.Qt.AlignCenter)
@@ -199,11 +218,11 @@ class CampbellView(QtWidgets.QWidget):
         bar.addWidget(self.log_box)
         bar.addWidget(self.fit_button)
         bar.addWidget(self.key_box)
-        bar.addStretch(1)
+        bar.addSpacing(8)
+        bar.addWidget(self.hover, 1)  # the pointer read-out beside the controls: no row of its own
         ul.addLayout(bar)
         ul.addWidget(self.canvas, 1)
         ul.addWidget(self.message, 1)
-        ul.addWidget(self.hover)
 
         self.splitter = split = plot_over_table(self, upper, lower)
 
@@ -217,10 +236,6 @@ class CampbellView(QtWidgets.QWidget):
     def resizeEvent(self, event) -> None:
         super().resizeEvent(event)
         self._arrange(self.width() < self.NARROW_PX)
-        # a legend wider than the view would widen the whole plot past the window edge
-        cols = 3 if self.width() >= 1100 else (2 if self.width() >= 620 else 1)
-        if cols != self.legend.columnCount:
-            self.legend.setColumnCount(cols)
 
     def _arrange(self, narrow: bool) -> None:
         """Coincidences and cursor read-out side by side, or as tabs when narrow."""
@@ -246,9 +261,42 @@ class CampbellView(QtWidgets.QWidget):
         if self._narrow:
             self.lower_tabs.setCurrentIndex(which)
 
+    KEY_AXES_PX = (90.0, 70.0)  # px the axes, their labels and margins take around the plot (w, h)
+
+    def _arrange_key(self, w: float, h: float) -> None:
+        """The key below the plot, or beside it when that leaves the diagram the
+        larger area of a 1.6:1 shape (a short wide canvas, e.g. on a 1366 x 768
+        screen, loses a third of its height to a key below)."""
+        lg = self.legend
+        ax, ay = self.KEY_AXES_PX
+        side, side_w = False, None
+        if lg.texts and lg._shown and w > 300 and h > 150:
+            def score(pw, ph):
+                return min(pw, 1.6 * ph) if pw > 0 and ph > 0 else 0.0
+            best = score(w - ax, h - ay - lg.height_for(w - 16))
+            for cand in (190.0, 220.0, 250.0, 280.0, 310.0):
+                if cand > 0.42 * w or lg.height_for(cand) > h - 12:
+                    continue
+                sc = score(w - ax - cand, h - ay)
+                if sc > 1.05 * best:
+                    best, side, side_w = sc, True, cand
+        ci = self.canvas.ci
+        if side != self._key_side:
+            self._key_side = side
+            ci.removeItem(lg)
+            if side:
+                ci.addItem(lg, row=0, col=1)
+                ci.layout.setAlignment(lg, QtCore.Qt.AlignTop)
+                ci.layout.setColumnStretchFactor(0, 10)
+                ci.layout.setColumnStretchFactor(1, 0)
+                ci.layout.setHorizontalSpacing(14)
+            else:
+                ci.addItem(lg, row=1, col=0)
+        lg.set_fixed_width(side_w if side else None)
+
     def _key_toggled(self, on: bool) -> None:
-        self.legend.setVisible(on)
-        self.legend.setMaximumHeight(16777215 if on else 0)
+        self.legend.set_shown(on)
+        self._arrange_key(float(self.canvas.width()), float(self.canvas.height()))
         self.canvas.ci.layout.invalidate()
 
     def _log_toggled(self, _on: bool) -> None:
@@ -317,6 +365,29 @@ class CampbellView(QtWidgets.QWidget):
             self.message.show()
             self.canvas.hide()
 
+    # ------------------------------------------------------------ the result-view protocol (see panel)
+    NO_SCREENING = ("give the reference disc, the operating speed range and at least one excitation "
+                    "to draw the interference diagram")
+
+    def show_study(self, study) -> str | None:
+        """Show ``study`` (core.study.Study); the text of what is missing when there is nothing to draw."""
+        if study.screening is None:
+            self.clear("No operating data: " + self.NO_SCREENING + ".")
+            return self.NO_SCREENING[0].upper() + self.NO_SCREENING[1:] + "."
+        self.set_screening(study.screening, study.modes)
+        return None
+
+    def set_unit_system(self, system: str) -> None:
+        """Speeds in rpm and frequencies in Hz in both unit systems: nothing changes."""
+
+    def reset_view_state(self) -> None:
+        """A newly opened project: no cursor position, no chosen axis, no zoom, no mode kept."""
+        self._cursor_rpm = None
+        self._ranges = self._window = None
+        self._log_chosen_by_user = False
+        self._selected = -1
+        self.selected_line.setVisible(False)
+
     def select_mode(self, index: int) -> None:
         """Emphasise the natural-frequency line of mode ``index`` (into modes)."""
         self._selected = index
@@ -336,20 +407,41 @@ class CampbellView(QtWidgets.QWidget):
         """Frequency (Hz) to the plot's y coordinate (log10 on a logarithmic axis)."""
         if not self._log:
             return f
+        if isinstance(f, float):  # the label placement asks one value at a time
+            return math.log10(max(f, 1e-12))
         return np.log10(np.maximum(f, 1e-12))
 
     def _y_inv(self, y: float) -> float:
         return 10.0 ** y if self._log else y
 
-    def _frequency_window(self):
-        """(lowest, highest) frequency of the plot window in Hz: up to the screening cap."""
+    def window_top_hz(self) -> float:
+        """Top of the frequency window (Hz): what the excitations reach in the
+        operating range plus twice the margin (the listing threshold: a mode above
+        it is clear of every excitation by more than twice the margin), raised to
+        the modes of the listed coincidences, never above the screening limit."""
         s = self.screening
-        el = s.modes.frequency_hz[s.modes.elastic]
-        y_max = s.cap_hz if s.cap_hz > 0 else 1.2 * float(np.max(el, initial=1.0))
+        top = highest_excitation_hz(s.lines, s.speed_max) * (1.0 + 2.0 * s.margin)
+        for c in s.coincidences:
+            top = max(top, c.frequency_hz * (1.0 + s.margin))
+        if s.cap_hz > 0:
+            top = min(top, s.cap_hz) if top > 0 else s.cap_hz
+        if not top > 0:
+            el = s.modes.frequency_hz[s.modes.elastic]
+            top = 1.2 * float(np.max(el, initial=1.0))
+        return float(top)
+
+    def _modes_in_window(self, top: float) -> list[float]:
+        m = self.modes
+        return [float(f) for i, f in enumerate(m.frequency_hz) if m.elastic[i] and 0 < f <= top]
+
+    def _frequency_window(self):
+        """(lowest, highest) frequency of the plot window in Hz (see window_top_hz)."""
+        s = self.screening
+        y_max = self.window_top_hz()
         if not self._log:
             return 0.0, y_max
-        lows = [float(f) for f in el if 0 < f <= y_max]
-        lows += [l.fixed_hz for l in s.lines if l.fixed_hz]
+        lows = self._modes_in_window(y_max)
+        lows += [l.fixed_hz for l in s.lines if l.fixed_hz and l.fixed_hz <= y_max]
         low = min(0.5 * min(lows) if lows else y_max / 1000.0, y_max / 10.0)
         # live edits move the lowest mode a little: the axis keeps its bottom while that
         # mode stays between 2 and 4 times above it, so the diagram does not jump per edit
@@ -359,13 +451,12 @@ class CampbellView(QtWidgets.QWidget):
         return low, y_max
 
     def auto_log(self) -> bool:
-        """Logarithmic frequency axis when a coincidence (or, without any, the lowest
-        screened mode) lies below 1/40 of the cap: on a linear axis it would sit
-        within a few pixels of the speed axis (a high mesh or blade order does that)."""
-        s = self.screening
-        fs = [c.frequency_hz for c in s.coincidences] or \
-            [float(f) for f in s.modes.frequency_hz[s.modes.elastic] if 0 < f <= s.cap_hz]
-        return bool(fs) and s.cap_hz > 0 and min(fs) < s.cap_hz / 40.0
+        """Logarithmic frequency axis when the lowest mode in the window lies below
+        LOG_BELOW of the window's top: on a linear axis it (and the low order lines
+        that cross it) would be squeezed into a few pixels above the speed axis."""
+        top = self.window_top_hz()
+        fs = self._modes_in_window(top)
+        return bool(fs) and min(fs) < LOG_BELOW * top
 
     def _add(self, item, ignore_bounds: bool = False):
         """Add an item that lives until the next redraw."""
@@ -400,7 +491,7 @@ class CampbellView(QtWidgets.QWidget):
         f_lo, f_hi = self._frequency_window()
         y0, y1 = float(self._y(f_lo)), float(self._y(f_hi))
         self._window = (x_max, f_lo, f_hi)
-        ref_name = next((d.name for d in s.train.discs if d.id == op.reference), op.reference)
+        ref_name = s.train.name_of(op.reference)
         p.setLabel("bottom", f"Reference speed, rpm ({ref_name})")
         p.setLabel("left", "Frequency, Hz" + (" (log scale)" if self._log else ""))
         p.getAxis("left").setTicks(self._log_ticks(f_lo, f_hi) if self._log else None)
@@ -429,10 +520,13 @@ class CampbellView(QtWidgets.QWidget):
                                        "not screened.")
             legend.append(("trip", None, f"trip speed {fmt.rpm(op.trip_speed)} rpm (not screened)"))
 
-        # natural frequencies under the cap, with their margin bands: one path each
+        # every screened natural frequency (up to the screening limit) with its margin band:
+        # one path each; those above the window are reached by zooming out, and a note says so
         m = self.modes
-        shown = [i for i in range(len(m)) if not m.rigid_body[i] and 0 < m.frequency_hz[i] <= f_hi]
+        limit = s.cap_hz if s.cap_hz > 0 else f_hi
+        shown = [i for i in range(len(m)) if m.elastic[i] and 0 < m.frequency_hz[i] <= max(limit, f_hi)]
         self._shown_modes = shown
+        above = [i for i in shown if m.frequency_hz[i] > f_hi]
         x_lo, x_hi = -0.1 * x_max, 3.0 * x_max
         bands, lines = QtGui.QPainterPath(), QtGui.QPainterPath()
         font = theme.font(theme.SMALL_POINT_SIZE)
@@ -445,14 +539,18 @@ class CampbellView(QtWidgets.QWidget):
             y = float(self._y(f))
             lines.moveTo(x_lo, y)
             lines.lineTo(x_hi, y)
-            self._add_label(f"mode {int(m.number[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f)
+            if f <= f_hi:
+                self._add_label(f"mode {int(m.number[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f)
+        if above:
+            self._add_label(self.above_note(above), theme.INK_MUTED, font, "above", None)
+            self._labels[-1][0].setToolTip(self.above_tip(above))
         self._band_item.setPath(bands)
         self._mode_item.setPath(lines)
         self._band_item.setVisible(bool(shown))
         self._mode_item.setVisible(bool(shown))
         self._place_selected_line()
         legend.append(("nf", None, "natural frequency"))
-        legend.append(("band", theme.MARGIN_BAND, f"± {fmt.percent(s.margin)} % margin band"))
+        legend.append(("band", theme.MARGIN_BAND, margin_band_text(s.margin)))
 
         # excitation lines: one colour per source, the order number beside the line
         sources = list(dict.fromkeys(l.source for l in s.lines))
@@ -493,6 +591,7 @@ class CampbellView(QtWidgets.QWidget):
             sizes.append(20 if fail else 15)
             data.append(n)
         self.rings.setData(xs, ys, size=sizes, pen=pens, data=data)
+        self._ring_xy = (np.asarray(xs, float), np.asarray(ys, float), np.asarray(sizes, float))
         self.rings.setVisible(bool(xs))
         if any(not c.passed for c in s.coincidences):
             legend.append(("ring", True, "coincidence inside the margin (fail)"))
@@ -516,6 +615,19 @@ class CampbellView(QtWidgets.QWidget):
         for item in self._line_pool[len(self.line_items):]:
             item.setVisible(False)
         self._layout_labels()
+
+    def above_note(self, above: list[int]) -> str:
+        """Note for the screened modes above the window (indices into modes)."""
+        m, s = self.modes, self.screening
+        nums = [int(m.number[i]) for i in above]
+        fs = [float(m.frequency_hz[i]) for i in above]
+        what = (f"mode {nums[0]} ({fmt.hz(fs[0])} Hz)" if len(nums) == 1 else
+                f"modes {nums[0]}–{nums[-1]} ({fmt.hz(fs[0])}–{fmt.hz(fs[-1])} Hz)")
+        return f"↑ {what}"
+
+    def above_tip(self, above: list[int]) -> str:
+        return (f"{self.above_note(above)[2:]}: above this window, more than {fmt.percent(2 * self.screening.margin)} % "
+                "clear of every excitation in the operating range; zoom out (mouse wheel) to see.")
 
     def _place_cursor(self) -> None:
         """Speed cursor bounds (the drawn speed range) and position (kept, else the top speed)."""
@@ -575,6 +687,7 @@ class CampbellView(QtWidgets.QWidget):
                                                        else QtCore.Qt.SolidLine))
             self._legend_samples.append(sample)
             self.legend.addItem(sample, text)
+        self._arrange_key(float(self.canvas.width()), float(self.canvas.height()))
 
     @staticmethod
     def _log_ticks(f_lo: float, f_hi: float):
@@ -593,11 +706,14 @@ class CampbellView(QtWidgets.QWidget):
         """A label from the pool (TextItems are costly to create; a redraw reuses them)."""
         if self._n_labels == len(self._label_pool):
             item = pg.TextItem("", fill=theme.brush((255, 255, 255, 215)))
+            item.textItem.document().setDocumentMargin(1.5)  # a tight box: more labels find room
             item.setZValue(30)
             self.plot.addItem(item, ignoreBounds=True)
             self._label_pool.append(item)
         item = self._label_pool[self._n_labels]
         self._n_labels += 1
+        if item.toolTip():
+            item.setToolTip("")
         look = (text, color, font.key())
         if getattr(item, "_look", None) != look:  # set again, a TextItem lays its text out anew
             item._look = look
@@ -627,40 +743,72 @@ class CampbellView(QtWidgets.QWidget):
         def px(x, f):
             return (x - vx0) * sx, (vy1 - float(self._y(f))) * sy
 
+        # a long train's hundreds of mode labels try fewer spots (most find none anyway)
+        crowded = len(self._labels) > SOFT_PASS_LIMIT
+        mode_xs = MODE_LABEL_X[::4] if crowded else MODE_LABEL_X
+        mode_ays = (1.0, 0.0) if crowded else (1.0, 0.0, 0.5)
         requests = []
         for item, kind, value in self._labels:
             br = item.textItem.boundingRect()
             tw, th = br.width(), br.height()
-            spots = []
-            if kind == "mode":  # just above its line, left first, then further right
+            if kind == "above":  # the note on modes above the window: along the top edge
+                spots = [Spot(2.0 + fx * (w - 4.0), y, fx, 0.0) for y in (2.0, 4.0 + th)
+                         for fx in (0.0, 0.5, 0.25, 0.75, 1.0, 0.125, 0.375, 0.625, 0.875)]
+                requests.append((tw, th, [spots[:3], spots[3:]]))  # first with the lines' ends
+                continue
+            if kind == "mode":  # just above its line, else just below, else on it; left first
                 y = px(0, value)[1]
-                for fx in (0.01, 0.2, 0.4, 0.6):
-                    spots += [Spot(fx * w, y, 0.0, 1.0), Spot(fx * w, y, 0.0, 0.0)]
-            elif kind == "fixed":
+                if not -th < y < h + th:  # its line is outside the view (zoomed or panned)
+                    requests.append((tw, th, []))
+                    continue
+                # plain tuples (x, y, ax, ay): a long train asks for thousands per redraw
+                spots = [(fx * w, y, 0.0, ay) for ay in mode_ays for fx in mode_xs]
+                requests.append((tw, th, [[], spots]))  # stage 1
+                continue
+            if kind == "fixed":
                 y = px(0, value)[1]
-                for fx in (0.99, 0.75, 0.5, 0.3):
-                    spots += [Spot(fx * w, y, 1.0, 1.0), Spot(fx * w, y, 1.0, 0.0)]
-            else:  # an order line: at its end, else centred on the line further back
-                slope = value  # Hz per rpm
-                x_end = min(vx1, self._y_inv(vy1) / slope) if slope > 0 else vx1
-                for t in (1.0, 0.9, 0.8, 0.7, 0.6, 0.5, 0.4, 0.3):
-                    x = vx0 + t * (x_end - vx0)
-                    if x <= 0:
-                        continue
-                    X, Y = px(x, slope * x)
-                    if t == 1.0:
-                        spots.append(Spot(min(X, w - 1), max(Y, 1), 1.0 if X >= w - 2 else 0.5,
-                                          0.5 if X >= w - 2 else 0.0))
-                    spots.append(Spot(X, Y, 0.5, 0.5))
-            requests.append((tw, th, spots))
-        chosen = place_labels(requests, w, h, blocked=[self._cursor_label_box(w, h, vx0, sx)])
+                first = [Spot(0.99 * w, y, 1.0, 1.0), Spot(0.99 * w, y, 1.0, 0.0)]
+                rest = []
+                for fx in (0.87, 0.75, 0.63, 0.51, 0.39, 0.27):
+                    rest += [Spot(fx * w, y, 1.0, 1.0), Spot(fx * w, y, 1.0, 0.0)]
+                requests.append((tw, th, [first, [], rest]))
+                continue
+            # an order line: at its end (right or top edge), else beside the line further back
+            slope = value  # Hz per rpm
+            x_end = min(vx1, self._y_inv(vy1) / slope) if slope > 0 else vx1
+            first, rest = [], []
+            for t in (1.0, 0.95, 0.9, 0.85, 0.8, 0.75, 0.7, 0.65, 0.6, 0.55, 0.5, 0.45, 0.4, 0.35, 0.3):
+                x = vx0 + t * (x_end - vx0)
+                if x <= 0:
+                    continue
+                X, Y = px(x, slope * x)
+                if t == 1.0:
+                    at_right = X >= w - 2
+                    first.append(Spot(min(X, w - 1), max(Y, 1), 1.0 if at_right else 0.5,
+                                      0.5 if at_right else 0.0))
+                    if at_right:  # just above or below where it leaves the plot
+                        first += [Spot(w - 1, Y, 1.0, 1.0), Spot(w - 1, Y, 1.0, 0.0)]
+                    continue
+                # centred on the line, or beside it: above-left or below-right of the point
+                rest += [Spot(X, Y, 0.5, 0.5), Spot(X - 2, Y - 2, 1.0, 1.0), Spot(X + 2, Y + 2, 0.0, 0.0)]
+            requests.append((tw, th, [first, [], rest]))
+        # stage 0: the note and the lines' ends; 1: the modes; 2: the lines' fall-backs
+        rings = []
+        if self.rings.isVisible() and self._ring_xy is not None:
+            # keep the coincidence rings clear of text where there is room
+            xs, ys, sizes = self._ring_xy
+            X, Y, r = (xs - vx0) * sx, (vy1 - ys) * sy, 0.5 * sizes + 1.0
+            rings = list(zip((X - r).tolist(), (Y - r).tolist(), (X + r).tolist(), (Y + r).tolist()))
+        chosen = place_labels_staged(requests, w, h, blocked=[self._cursor_label_box(w, h, vx0, sx)],
+                                     soft=rings)
         for (item, _kind, _value), spot in zip(self._labels, chosen):
             if spot is None:
                 item.setVisible(False)
                 continue
+            x, y, ax, ay = spot
             item.setVisible(True)
-            item.setAnchor((spot.ax, spot.ay))
-            item.setPos(vx0 + spot.x / sx, vy1 - spot.y / sy)
+            item.setAnchor((ax, ay))
+            item.setPos(vx0 + x / sx, vy1 - y / sy)
 
     def _ring_tip(self, n: int) -> str:
         c = self.screening.coincidences[n]
@@ -710,7 +858,7 @@ class CampbellView(QtWidgets.QWidget):
             return
         pt = self.plot.vb.mapSceneToView(pos)
         f = self._y_inv(pt.y())
-        text = f"Pointer: {pt.x():.0f} rpm, {fmt.hz(f)} Hz ({fmt.cpm(f)} cpm)"
+        text = f"{pt.x():.0f} rpm, {fmt.hz(f)} Hz ({fmt.cpm(f)} cpm)"
         shown = self._shown_modes
         if shown:
             # the natural-frequency line within a few pixels of the pointer, if any
@@ -720,6 +868,5 @@ class CampbellView(QtWidgets.QWidget):
             k = int(np.argmin(dist))
             if dist[k] < 6:
                 i = shown[k]
-                text += (f" — on mode {int(self.modes.number[i])}, {fmt.hz(float(fs[k]))} Hz "
-                         f"({fmt.cpm(float(fs[k]))} cpm)")
-        self.hover.setText(text + " · drag the red cursor to read out the excitations at a speed")
+                text += f" — on mode {int(self.modes.number[i])}"
+        self.hover.setText(text)

@@ -7,20 +7,27 @@ entry).  Coordinates are pixels, y downwards, as on screen.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass
+import math
+from typing import NamedTuple
+
+#: above this many labels the second pass that gives way to soft boxes is skipped
+#: (soft boxes are then ignored from the start): a long train's hundreds of mode
+#: labels must be placed within a frame's time on every live edit
+SOFT_PASS_LIMIT = 60
 
 
-@dataclass(frozen=True)
-class Spot:
+class Spot(NamedTuple):  # a tuple: hundreds are made per redraw
     x: float  # anchor point, px
     y: float
     ax: float  # anchor of the text box at (x, y): 0 left/top, 1 right/bottom
     ay: float
 
 
-def _box(spot: Spot, w: float, h: float, pad: float):
-    left = spot.x - spot.ax * w
-    top = spot.y - spot.ay * h
+def _box(spot, w: float, h: float, pad: float):
+    """Box of a label of size (w, h) at ``spot`` (a Spot or a plain (x, y, ax, ay) tuple)."""
+    x, y, ax, ay = spot
+    left = x - ax * w
+    top = y - ay * h
     return (left - pad, top - pad, left + w + pad, top + h + pad)
 
 
@@ -28,37 +35,91 @@ def _overlap(a, b) -> bool:
     return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
 
 
+class _Grid:
+    """Placed boxes in buckets of ``cell`` pixels, so each test looks at near neighbours
+    only (long trains have hundreds of mode labels)."""
+
+    def __init__(self, cell: float):
+        self.inv = 1.0 / cell
+        self.cells: dict = {}
+
+    def _keys(self, b):
+        inv = self.inv
+        js = range(math.floor(b[1] * inv), math.floor(b[3] * inv) + 1)
+        for i in range(math.floor(b[0] * inv), math.floor(b[2] * inv) + 1):
+            for j in js:
+                yield i, j
+
+    def add(self, b) -> None:
+        cells = self.cells
+        for k in self._keys(b):
+            cells.setdefault(k, []).append(b)
+
+    def free(self, b) -> bool:
+        cells = self.cells
+        l, t, r, btm = b
+        for k in self._keys(b):
+            for o in cells.get(k, ()):
+                if l < o[2] and o[0] < r and t < o[3] and o[1] < btm:
+                    return False
+        return True
+
+
+def _place(labels, width, height, pad, grid: _Grid, chosen, index):
+    """Place labels[i] for i in ``index`` (each (w, h, spots)) into ``grid``; fills ``chosen``."""
+    for i in index:
+        w, h, spots = labels[i]
+        for s in spots:
+            b = _box(s, w, h, pad)
+            if b[0] < 0 or b[1] < 0 or b[2] > width or b[3] > height or not grid.free(b):
+                continue
+            chosen[i] = s
+            grid.add(b)
+            break
+
+
 def place_labels(labels, width: float, height: float, pad: float = 1.5, blocked=(), cell: float = 48.0):
     """``labels``: list of (w, h, [Spot, ...]) in priority order.  ``blocked``:
     boxes (x0, y0, x1, y1) to keep clear (e.g. the legend).  Returns, per label,
-    the chosen Spot or None.  Placed boxes are kept in a grid of ``cell``-pixel
-    buckets, so each test looks at near neighbours only (long trains have
-    hundreds of mode labels)."""
-    grid: dict = {}
-
-    def cells(b):
-        for i in range(int(b[0] // cell), int(b[2] // cell) + 1):
-            for j in range(int(b[1] // cell), int(b[3] // cell) + 1):
-                yield i, j
-
-    def add(b):
-        for c in cells(b):
-            grid.setdefault(c, []).append(b)
-
-    def free(b):
-        return not any(_overlap(b, o) for c in cells(b) for o in grid.get(c, ()))
-
+    the chosen Spot or None."""
+    grid = _Grid(cell)
     for b in blocked:
-        add(b)
-    chosen = []
-    for w, h, spots in labels:
-        pick = None
-        for s in spots:
-            b = _box(s, w, h, pad)
-            if b[0] < 0 or b[1] < 0 or b[2] > width or b[3] > height or not free(b):
+        grid.add(b)
+    chosen = [None] * len(labels)
+    _place(labels, width, height, pad, grid, chosen, range(len(labels)))
+    return chosen
+
+
+def place_labels_staged(labels, width: float, height: float, pad: float = 1.5, blocked=(), soft=(),
+                        cell: float = 48.0):
+    """Like :func:`place_labels`, but each label gives its spots in stages
+    (a list of spot lists): every label tries its first-stage spots before any
+    label falls back to a later stage.  So a line's label at the line's end is
+    not pushed out by another label that could have gone elsewhere.
+
+    ``soft``: boxes to keep clear where possible (e.g. markers drawn above the
+    labels anyway); a label that finds no spot in any stage tries them all
+    again ignoring these (not with more than SOFT_PASS_LIMIT labels: then soft
+    boxes are ignored from the start).  Returns, per label, the chosen Spot or None."""
+    chosen = [None] * len(labels)
+    n_stages = max((len(stages) for _w, _h, stages in labels), default=0)
+    if len(labels) > SOFT_PASS_LIMIT:
+        soft = ()
+    placed = []
+    for keep_soft in ((True, False) if soft else (True,)):
+        grid = _Grid(cell)
+        for b in list(blocked) + (list(soft) if keep_soft else []) + placed:
+            grid.add(b)
+        for k in range(n_stages):
+            todo = [i for i, (_w, _h, stages) in enumerate(labels) if chosen[i] is None and k < len(stages)]
+            if not todo:
                 continue
-            pick = s
-            add(b)
+            stage = {i: (labels[i][0], labels[i][1], labels[i][2][k]) for i in todo}
+            before = [chosen[i] for i in todo]
+            _place(stage, width, height, pad, grid, chosen, todo)
+            for i, was in zip(todo, before):
+                if was is None and chosen[i] is not None:
+                    placed.append(_box(chosen[i], labels[i][0], labels[i][1], pad))
+        if all(c is not None for c in chosen):
             break
-        chosen.append(pick)
     return chosen

@@ -7,6 +7,7 @@ from PySide6 import QtCore, QtWidgets
 
 from app import formatting as fmt
 from app.gui import theme
+from core import units
 
 from . import rows as R
 from .plotting import PlotCanvas, column_ticks, new_plot, side_by_side, train_line
@@ -31,6 +32,20 @@ def _set_text(label, text: str) -> None:
         label.setText(text)
 
 
+def modal_torque_scale(largest_nm: float, system: str = "SI") -> tuple[float, str]:
+    """(factor from N*m, unit text) for the modal torque axis: SI with a k/M/G prefix
+    chosen from the largest value, US customary in lbf*ft or, from 10 000 lbf*ft,
+    in kip*ft (1 kip = 1000 lbf)."""
+    if system == "SI":
+        scale, prefix = pg.siScale(largest_nm or 1.0)
+        return scale, f"{prefix}N·m"
+    unit = units.display_unit(units.TORQUE, system)
+    scale = units.convert(1.0, units.TORQUE, unit)
+    if largest_nm * scale >= 1e4 and unit == "lbf*ft":
+        return scale / 1e3, "kip·ft"
+    return scale, R.pretty(unit)
+
+
 class ModesView(QtWidgets.QWidget):
     """Left: the frequency table.  Right: plots of the selected mode, the upper
     one per disc along the train, the lower one per link, x axes linked."""
@@ -40,16 +55,19 @@ class ModesView(QtWidgets.QWidget):
     def __init__(self, parent=None):
         super().__init__(parent)
         self.modes = None
-        self.cap_hz = None
+        self._forget = False
+        self.above_limit = None
+        self.unit_system = "SI"
         self._index = -1
         self._line = None
         self._line_key = None  # topology the train line was placed for
         self._pool = {}  # (plot, name) -> plot item kept from one redraw to the next
         self._used = set()
 
-        self.table_model = RowsModel(R.FREQUENCY_HEADERS, self, numeric_columns=(0, 1, 2))
+        self.table_model = RowsModel(R.FREQUENCY_HEADERS_SHOWN, self, numeric_columns=(0, 1, 2))
         self.table = make_table_view(self.table_model, self)
         self.table.setToolTip("Natural frequencies, lowest first. Select a row to draw its mode shape.")
+        self.table.setTextElideMode(QtCore.Qt.ElideMiddle)  # 'Pump imp…r (73.7 %)': the share stays in view
         self.table.selectionModel().currentRowChanged.connect(self._row_changed)
 
         self.show_box = QtWidgets.QComboBox(self)
@@ -118,15 +136,47 @@ class ModesView(QtWidgets.QWidget):
             else:
                 self.splitter.setSizes([int(self.width() * 0.4), int(self.width() * 0.6)])
 
+    # ------------------------------------------------------------ the result-view protocol (see panel)
+    def show_study(self, study) -> str | None:
+        """Show the study's modes, keeping the same mode number selected across live edits."""
+        keep = None
+        if self._forget:  # a newly opened project: no selection carried over
+            self._forget = False
+        elif self.modes is not None and 0 <= self._index < len(self.modes):
+            keep = R.mode_index(study.modes, int(self.modes.number[self._index]))
+        self.set_modes(study.modes, study.above_screening_limit, keep, screened=study.screening is not None)
+        return None
+
+    def set_unit_system(self, system: str) -> None:
+        """Modal torque axis and tips in the display unit system."""
+        if system != self.unit_system:
+            self.unit_system = system
+            self._titles.pop(id(self.lower), None)
+            self._draw()
+
+    def reset_view_state(self) -> None:
+        """A newly opened project: no mode selection carried over (the next study
+        selects its first elastic mode)."""
+        self._forget = True
+
     # ------------------------------------------------------------ data
-    def set_modes(self, modes, cap_hz=None, select: int | None = None) -> None:
-        self.modes, self.cap_hz = modes, cap_hz
+    def set_modes(self, modes, above_limit=None, select: int | None = None, screened: bool | None = None) -> None:
+        """``above_limit``: per mode, True where above the screening limit (listed and
+        marked); ``screened``: whether a screening was run (default: when ``above_limit`` is given)."""
+        if screened is None:
+            screened = above_limit is not None
+        self.modes, self.above_limit = modes, above_limit
         train = modes.train
         key = (tuple(train.disc_ids), tuple((l.id, l.from_id, l.to_id) for l in train.links))
         if key != self._line_key:  # a value edit keeps the positions along the train
             self._line_key, self._line = key, train_line(train)
-        self.table_model.set_rows(R.frequency_rows(modes, cap_hz))
-        fit_columns(self.table, elastic=4)
+        self.table_model.set_rows(R.frequency_rows(modes, above_limit, screened))
+        fit_columns(self.table, max_width=220, elastic=(4, 5))
+        # the screening column as wide as its longest word, whichever rows were measured
+        h = self.table.horizontalHeader()
+        need = self.table.fontMetrics().horizontalAdvance(R.ABOVE_LIMIT) + 16
+        if h.count() > 6 and h.sectionSize(6) < need:
+            h.resizeSection(6, need)
         n = len(modes)
         if select is None or not 0 <= select < n:
             elastic = np.flatnonzero(modes.elastic)
@@ -134,7 +184,7 @@ class ModesView(QtWidgets.QWidget):
         self._index = -1
         self.select_mode(select)
 
-    def clear(self) -> None:
+    def clear(self, message: str = "") -> None:
         self.modes, self._line, self._index = None, None, -1
         self._line_key = None
         self.table_model.set_rows([])
@@ -215,13 +265,13 @@ class ModesView(QtWidgets.QWidget):
         if len(line.series) > 1:
             parts = []
             for s, members in enumerate(line.series):
-                label = "main line" if s == 0 else f"branch to {train.discs[members[-1]].id}"
+                label = "main line" if s == 0 else f"branch to {train.name_of(train.discs[members[-1]].id)}"
                 parts.append(f"<span style='color:{theme.series_color(s)}'>&#9632;</span>&nbsp;{label}")
             _set_text(self.key, "&nbsp;&nbsp;&nbsp;".join(parts))
         else:
             _set_text(self.key, "")
         energy = self.show_box.currentText() == SHOW_ENERGY
-        names = [d.name or d.id for d in train.discs]
+        names = [train.name_of(d.id) for d in train.discs]
         self._update_ticks()
         if energy:
             self._draw_energy(m, i, line, names)
@@ -269,14 +319,15 @@ class ModesView(QtWidgets.QWidget):
                 hoverable=True, hoverSize=14,
                 tip=lambda x, y, data: f"{data}\ntwist {y:+.3f} (largest = 1)"))
             spots.setData(line.disc_x[k], shape[k], size=10, brush=theme.brush(theme.series_color(row)),
-                          pen=white, data=[f"{names[j]} ({m.train.discs[j].id})" for j in k])
+                          pen=white, data=[names[j] for j in k])
         self.upper.setYRange(-1.1, 1.1, padding=0)
 
         torque = np.nan_to_num(m.link_torque[i], nan=0.0, posinf=0.0, neginf=0.0)
-        scale, prefix = pg.siScale(float(np.max(np.abs(torque), initial=0.0)) or 1.0)
-        self._title(self.lower, f"Modal torque per link, {prefix}N·m per rad of largest twist")
+        scale, unit = modal_torque_scale(float(np.max(np.abs(torque), initial=0.0)), self.unit_system)
+        self._title(self.lower, f"Modal torque per link, {unit} per rad of largest twist")
+        link_names = [m.train.name_of(lid) for lid in m.link_ids]
         self._bars(self.lower, line, torque * scale, lambda j, v: (
-            f"{m.link_ids[j]}: modal torque {torque[j]:+.4g} N·m per rad of largest twist"))
+            f"{link_names[j]}: modal torque {torque[j] * scale:+.4g} {unit} per rad of largest twist"))
 
     def _draw_energy(self, m, i, line, names) -> None:
         ke = 100.0 * m.kinetic_share[i]
@@ -293,7 +344,8 @@ class ModesView(QtWidgets.QWidget):
             hoverable=True, tip=lambda x, y, data: f"{data}\n{y:.1f} % of the kinetic energy"))
         spots.setData(bx, ke, size=14, brush=theme.brush((0, 0, 0, 0)), pen=None, data=names)
         self.upper.setYRange(0, max(5.0, float(np.nanmax(ke)) * 1.1 if ke.size else 5.0), padding=0)
-        self._bars(self.lower, line, se, lambda j, v: f"{m.link_ids[j]}: {v:.1f} % of the strain energy")
+        link_names = [m.train.name_of(lid) for lid in m.link_ids]
+        self._bars(self.lower, line, se, lambda j, v: f"{link_names[j]}: {v:.1f} % of the strain energy")
 
     def _side_by_side(self, which: str, x, width: float):
         """plotting.side_by_side, kept while the train line is the same object."""

@@ -1,17 +1,38 @@
 """ResultsPanel: every result view of the desktop program in one widget.
 
-A verdict line on top, then three tabs (natural frequencies and mode shapes,
-the interference diagram, the forced response) and the screening-only
-caution at the bottom.  The main window feeds it with ``set_results`` after
-every solve; the panel only shows what core computed.
+A verdict line on top, then one tab per result view (natural frequencies and
+mode shapes, the interference diagram, the forced response, and the views
+later analyses add) and the screening-only caution at the bottom.  The main
+window feeds it one :class:`core.study.Study` after every solve
+(``set_study``); the panel only shows what the study holds.
+
+Adding a view (design options, acceptance, transients, ...)
+-----------------------------------------------------------
+A result view is a QWidget with four methods (the result-view protocol):
+
+* ``show_study(study) -> str | None``: show the study; return None when the
+  view shows something, else the sentence saying what is missing (the tab is
+  then disabled, greyed, and that sentence is its tooltip);
+* ``clear(message="")``: no results;
+* ``set_unit_system(system)``: 'SI' or 'US' for every axis, column and tip;
+* ``reset_view_state()``: a newly opened project (no cursor, selection, zoom).
+
+Register it with ``panel.add_view(key, view, title, tip)``; the panel calls
+the four methods at the right moments, greys the view while the model on
+screen has errors (``set_stale``) and keeps the tab's look and tooltip.  A
+view that exports a plot sets ``view.canvas`` (a :class:`PlotCanvas`); one
+that exports a table adds an entry to ``export_menu_actions``.
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
+
+import numpy as np
 from PySide6 import QtCore, QtGui, QtWidgets
 
 from app import formatting as fmt
-from core.about import CAUTION
 from app.gui import theme
+from core.about import CAUTION
 
 from . import rows as R
 from .campbell_view import CampbellView
@@ -20,6 +41,21 @@ from .response_view import ResponseView
 from .table import write_csv
 
 TAB_MODES, TAB_CAMPBELL, TAB_RESPONSE = 0, 1, 2
+
+# the look of a tab that cannot show anything (greyed text, not just unresponsive),
+# and of views that show the last valid model; theme.py is the natural home of these
+DISABLED_TAB_STYLE = f"QTabBar::tab:disabled {{ color: #a3abb5; }}"
+STALE_GREY = "#8c96a3"
+
+
+@dataclass
+class ResultTab:
+    """A registered result view and what its tab says when it is available."""
+
+    key: str
+    view: QtWidgets.QWidget
+    title: str
+    tip: str
 
 
 class ResultsPanel(QtWidgets.QWidget):
@@ -30,8 +66,12 @@ class ResultsPanel(QtWidgets.QWidget):
 
     def __init__(self, parent=None, show_caution: bool = True):
         super().__init__(parent)
+        self.study = None
         self.train = self.modes = self.screening = self.response = None
         self.solve_time_s = 0.0
+        self.unit_system = "SI"
+        self.stale_message: str | None = None
+        self.result_tabs: list[ResultTab] = []
 
         self.verdict = QtWidgets.QLabel(self)
         self.verdict.setFont(theme.font(theme.BASE_POINT_SIZE, bold=True))
@@ -42,19 +82,20 @@ class ResultsPanel(QtWidgets.QWidget):
         self.details.setStyleSheet(f"color: {theme.INK_MUTED};")
         self.details.setAlignment(QtCore.Qt.AlignRight | QtCore.Qt.AlignVCenter)
 
+        self.tabs = QtWidgets.QTabWidget(self)
+        self.tabs.setDocumentMode(True)
+        self.tabs.tabBar().setStyleSheet(DISABLED_TAB_STYLE)
         self.modes_view = ModesView(self)
         self.campbell_view = CampbellView(self)
         self.response_view = ResponseView(self)
-        self.tabs = QtWidgets.QTabWidget(self)
-        self.tabs.setDocumentMode(True)
-        self.tabs.addTab(self.modes_view, "Modes")
-        self.tabs.addTab(self.campbell_view, "Interference diagram")
-        self.tabs.addTab(self.response_view, "Forced response")
-        self.tabs.setTabToolTip(TAB_MODES, "Natural-frequency table, mode shapes, modal torque and energy shares")
-        self.tabs.setTabToolTip(TAB_CAMPBELL, "Excitation orders against natural frequencies over speed, "
-                                              "coincidences and the speed cursor")
-        self.response_tip = "Damped vibratory torque and stress against speed"
-        self.tabs.setTabToolTip(TAB_RESPONSE, self.response_tip)
+        self.add_view("modes", self.modes_view, "Modes",
+                      "Natural-frequency table, mode shapes, modal torque and energy shares")
+        self.add_view("campbell", self.campbell_view, "Interference diagram",
+                      "Excitation orders against natural frequencies over speed, coincidences and the "
+                      "speed cursor")
+        self.add_view("response", self.response_view, "Forced response",
+                      "Damped vibratory torque and stress against speed")
+        self.response_tip = self.result_tabs[TAB_RESPONSE].tip
 
         self.caution = QtWidgets.QLabel(CAUTION, self)
         self.caution.setWordWrap(True)
@@ -79,54 +120,101 @@ class ResultsPanel(QtWidgets.QWidget):
         # the mode count and solve time sit beside the tabs only where they do not crowd them
         self.details.setVisible(self.width() >= 900)
 
+    # ------------------------------------------------------------ views
+    def add_view(self, key: str, view, title: str, tip: str, index: int | None = None) -> ResultTab:
+        """Register a result view (see the module docstring) as a tab."""
+        tab = ResultTab(key, view, title, tip)
+        if index is None or index >= len(self.result_tabs):
+            self.result_tabs.append(tab)
+            i = self.tabs.addTab(view, title)
+        else:
+            self.result_tabs.insert(index, tab)
+            i = self.tabs.insertTab(index, view, title)
+        self.tabs.setTabToolTip(i, tip)
+        if hasattr(view, "set_unit_system"):
+            view.set_unit_system(self.unit_system)
+        if self.study is not None:
+            self._show_in(tab)
+        return tab
+
+    def view(self, key: str):
+        return next(t.view for t in self.result_tabs if t.key == key)
+
+    def tab_index(self, key: str) -> int:
+        return self.tabs.indexOf(self.view(key))
+
+    def _show_in(self, tab: ResultTab) -> None:
+        try:
+            why = tab.view.show_study(self.study)
+        except Exception as exc:  # the rest still shows; say why this part does not
+            tab.view.clear()
+            why = f"{tab.title} not shown: {exc}"
+        self._set_tab(self.tabs.indexOf(tab.view), why is None, tab.tip if why is None else why)
+
     # ------------------------------------------------------------ public API
-    def set_results(self, train, modes, screening, response=None, solve_time_s: float = 0.0) -> None:
-        """Show a solve: modes (core.solver.Modes), screening (core.screening.Screening
-        or None without operating data), response (core.response.Response or None)."""
-        if modes is None and screening is not None:
-            modes = screening.modes
-        previous = self.current_mode_index()
-        previous_number = None
-        if self.modes is not None and 0 <= previous < len(self.modes):
-            previous_number = int(self.modes.number[previous])
-        self.train, self.modes, self.screening, self.response = train, modes, screening, response
-        self.solve_time_s = float(solve_time_s)
-        if not self.tabs.isEnabled():
-            self.tabs.setEnabled(True)
-        # keep the same mode number selected across live edits
-        keep = None if previous_number is None else R.mode_index(modes, previous_number)
-        self.modes_view.set_modes(modes, screening.cap_hz if screening is not None else None, keep)
-        if screening is not None:
-            self.campbell_view.set_screening(screening, modes)
-        else:
-            self.campbell_view.clear("No operating data: give the reference disc, the operating speed "
-                                     "range and the excitations to draw the interference diagram.")
-        self._set_tab(TAB_CAMPBELL, True)
-        if response is not None:
-            try:
-                self.response_view.set_response(train, response)
-                self._set_tab(TAB_RESPONSE, True, self.response_tip)
-            except Exception as exc:  # the rest still shows; say why this part does not
-                self.response_view.clear()
-                self._set_tab(TAB_RESPONSE, False, f"Forced response not shown: {exc}")
-        else:
-            if self.response_view.response is not None:
-                self.response_view.clear()
-            self._set_tab(TAB_RESPONSE, False, "No excitation has an amplitude: give amplitudes to the "
-                                               "excitation orders to compute the forced response.")
+    def set_study(self, study, solve_time_s: float | None = None) -> None:
+        """Show a :class:`core.study.Study` in every view.  ``solve_time_s``: what
+        the solve took (the study's own time when not given)."""
+        bad = _not_finite(study)
+        if bad:
+            self.clear_results(bad)
+            return
+        self.study = study
+        self.train, self.modes, self.screening, self.response = \
+            study.train, study.modes, study.screening, study.response
+        self.solve_time_s = float(study.solve_time_s if solve_time_s is None else solve_time_s)
+        for tab in self.result_tabs:
+            self._show_in(tab)
         if not self.tabs.isTabEnabled(self.tabs.currentIndex()):
             self.tabs.setCurrentIndex(TAB_MODES)
         self.campbell_view.select_mode(self.modes_view.current_index())
         self._show_verdict()
 
+    def set_results(self, train, modes, screening, response=None, solve_time_s: float = 0.0) -> None:
+        """Compatibility: the parts of a study given one by one (wrapped in a Study)."""
+        from core.study import Study, StudyOptions
+        if modes is None and screening is not None:
+            modes = screening.modes
+        self.set_study(Study(train, StudyOptions(), modes, screening, response), solve_time_s)
+
     def clear_results(self, message: str) -> None:
-        """No valid results (e.g. the model has an error): say why, keep the layout."""
+        """No valid results (e.g. the model cannot be built): say why, keep the layout."""
+        self.study = None
         self.train = self.modes = self.screening = self.response = None
-        self.modes_view.clear()
-        self.campbell_view.clear(message)
-        self.response_view.clear()
+        for tab in self.result_tabs:
+            tab.view.clear(message if tab.view is self.campbell_view else "")
         self._set_label(self.verdict, message, theme.verdict_style(None))
         self.details.setText("")
+
+    def set_stale(self, message: str | None) -> None:
+        """While the model on screen has errors (``message`` says which), every view
+        is greyed and the verdict says the views show the last valid model; there is
+        no verdict for a model that has errors.  None: the model is valid again."""
+        message = message or None
+        if message == self.stale_message:
+            return
+        self.stale_message = message
+        if message is None:
+            self.tabs.setGraphicsEffect(None)
+        else:
+            effect = QtWidgets.QGraphicsColorizeEffect(self.tabs)
+            effect.setColor(theme.qcolor(STALE_GREY))
+            effect.setStrength(0.85)
+            self.tabs.setGraphicsEffect(effect)
+        if self.study is not None:
+            self._show_verdict()
+
+    @property
+    def is_stale(self) -> bool:
+        return self.stale_message is not None
+
+    def reset_view_state(self) -> None:
+        """A newly opened project: no speed cursor position, no mode selection
+        carried over, zoom and chosen axes reset."""
+        for tab in self.result_tabs:
+            if hasattr(tab.view, "reset_view_state"):
+                tab.view.reset_view_state()
+        self.tabs.setCurrentIndex(TAB_MODES)
 
     def select_mode(self, index: int) -> None:
         """Select mode ``index`` (into modes) in every view, without emitting modeSelected."""
@@ -147,17 +235,19 @@ class ResultsPanel(QtWidgets.QWidget):
         self.caution.setVisible(visible)
 
     def set_unit_system(self, system: str) -> None:
-        """'SI' or 'US' for the response view's torque and stress."""
-        self.response_view.unit_system = system
-        if self.response is not None:
-            self.response_view.set_response(self.train, self.response)
+        """'SI' or 'US' for every axis, table column, tooltip and export of every view."""
+        self.unit_system = system
+        for tab in self.result_tabs:
+            if hasattr(tab.view, "set_unit_system"):
+                tab.view.set_unit_system(system)
 
     # ------------------------------------------------------------ exports
     def export_menu_actions(self, parent) -> list[QtGui.QAction]:
-        """File > Export entries: CSV of the two tables, PNG and SVG of each plot."""
+        """File > Export entries: CSV of the tables, PNG and SVG of each plot."""
         items = [
             ("Natural frequencies as CSV…", "csv", self.export_frequency_csv, "natural_frequencies.csv"),
             ("Coincidences as CSV…", "csv", self.export_coincidence_csv, "coincidences.csv"),
+            ("Forced response peaks as CSV…", "csv", self.export_response_csv, "forced_response.csv"),
             (None, None, None, None),
         ]
         for name, key in (("Mode shape plot", "modes"), ("Interference diagram", "campbell"),
@@ -180,6 +270,11 @@ class ResultsPanel(QtWidgets.QWidget):
         if self.modes is None:
             QtWidgets.QMessageBox.information(self, "Export", "There are no results to export yet.")
             return
+        if self.is_stale:
+            QtWidgets.QMessageBox.information(
+                self, "Export", "The model on screen has an error, so the results shown belong to the "
+                f"last valid model; fix the model first.\n\n{self.stale_message}")
+            return
         filt = {"csv": "CSV table (*.csv)", "png": "PNG image (*.png)", "svg": "SVG drawing (*.svg)"}[ext]
         path, _ = QtWidgets.QFileDialog.getSaveFileName(self, "Export " + text.rstrip("…").lower(),
                                                         default, filt)
@@ -192,21 +287,41 @@ class ResultsPanel(QtWidgets.QWidget):
         except (OSError, ValueError) as exc:
             QtWidgets.QMessageBox.warning(self, "Export", f"Could not write {path}:\n{exc}")
 
-    def export_frequency_csv(self, path: str) -> None:
+    def _check_exportable(self) -> None:
         if self.modes is None:
             raise ValueError("there are no results to export")
+        if self.is_stale:
+            raise ValueError("the model on screen has an error; the results shown belong to the last "
+                             "valid model")
+
+    def export_frequency_csv(self, path: str) -> None:
+        self._check_exportable()
         title = f"Natural frequencies: {self.train.title}"
         write_csv(path, title, R.FREQUENCY_HEADERS, self.modes_view.table_model.rows)
 
     def export_coincidence_csv(self, path: str) -> None:
+        self._check_exportable()
         if self.screening is None:
             raise ValueError("there is no interference screening (no operating data)")
         title = (f"Coincidences: {self.train.title}, required margin {fmt.percent(self.screening.margin)} %, "
                  f"verdict {self.screening.verdict.upper()}")
         write_csv(path, title, R.COINCIDENCE_HEADERS, self.campbell_view.coincidence_model.rows)
 
+    def export_response_csv(self, path: str) -> None:
+        """The forced response's peak table as shown (units of the display system)."""
+        self._check_exportable()
+        if self.response is None:
+            raise ValueError("there is no forced response (no excitation amplitudes)")
+        rv = self.response_view
+        n = len(rv.exceeded)
+        judged = "; ".join(filter(None, [f"{n} permissible value(s) exceeded" if n else "",
+                                         f"units {self.unit_system}"]))
+        title = f"Forced response peaks: {self.train.title}; {judged}"
+        write_csv(path, title, R.response_headers(self.unit_system, one_line=True), rv.peak_model.rows)
+
     def export_plot(self, which: str, path: str) -> None:
         """``which``: 'modes', 'campbell' or 'response'; format from the extension (.png / .svg)."""
+        self._check_exportable()
         canvas = {"modes": self.modes_view.canvas, "campbell": self.campbell_view.canvas,
                   "response": self.response_view.canvas}[which]
         if which == "campbell" and self.screening is None:
@@ -238,25 +353,89 @@ class ResultsPanel(QtWidgets.QWidget):
         self.select_mode(index)
         self.modeSelected.emit(index)
 
-    def _show_verdict(self) -> None:
-        m, s = self.modes, self.screening
-        n_el = int(m.elastic.sum())
-        details = f"{len(m)} modes ({n_el} elastic) · solved in {self.solve_time_s * 1e3:.1f} ms"
+    def verdict_text(self) -> tuple[str, bool | None]:
+        """The verdict line of the study shown and its colour (True green, False red,
+        None grey): the separation screening and the forced response together."""
+        st, s = self.study, self.screening
         if s is None:
-            self._set_label(self.verdict, "Natural frequencies only: no operating data to screen against.",
-                            theme.verdict_style(None))
-        elif s.passed:
-            self._set_label(self.verdict, f"PASS: every excitation keeps at least {fmt.percent(s.margin)} % "
-                            "separation from the natural frequencies in the operating range.",
-                            theme.verdict_style(True))
-        else:
+            text, ok = "Natural frequencies only: no operating data to screen against.", None
+        elif not s.passed:
             w = s.failures[0]
             n = len(s.failures)
-            self._set_label(self.verdict, f"FAIL: {n} coincidence{'s' if n > 1 else ''} inside the "
-                            f"{fmt.percent(s.margin)} % margin; worst mode {w.mode} "
-                            f"({fmt.hz(w.frequency_hz)} Hz) with {w.line.label}, "
-                            f"{fmt.percent(w.separation)} %.", theme.verdict_style(False))
+            text, ok = (f"FAIL: {n} coincidence{'s' if n > 1 else ''} inside the "
+                        f"{fmt.percent(s.margin)} % margin; worst mode {w.mode} "
+                        f"({fmt.hz(w.frequency_hz)} Hz) with {w.line.label}, "
+                        f"{fmt.percent(w.separation)} %."), False
+        else:
+            text, ok = (f"PASS: every excitation keeps at least {fmt.percent(s.margin)} % "
+                        "separation from the natural frequencies in the operating range."), True
+        ex = st.exceedances if st is not None and st.response is not None else ()
+        if ex:
+            e = ex[0]
+            more = f"; the forced response exceeds {len(ex)} permissible value(s), first " \
+                   f"{self.train.name_of(e.link_id)} ({e.quantity}) at {fmt.rpm(e.speed)} rpm"
+            if ok:
+                text, ok = "FAIL: separation passes" + more + ".", False
+            else:
+                text = text.rstrip(".") + more + "."
+        elif st is not None and st.response_error is not None and st.has_amplitudes:
+            text = text.rstrip(".") + f" (forced response not computed: {st.response_error})."
+        return text, ok
+
+    def verdict_summary(self) -> tuple[str, bool | None]:
+        """A short verdict for a status bar and its colour (True green, False red,
+        None grey) that follows the panel: no PASS while the model on screen has errors."""
+        if self.study is None:
+            return "no results", None
+        if self.is_stale:
+            return "no verdict (the model has an error)", None
+        text, ok = self.verdict_text()
+        if self.screening is None and ok is None:
+            return "no screening (no operating data)", None
+        if ok:
+            return "PASS", True
+        n = len(self.screening.failures) if self.screening is not None else 0
+        ex = len(self.study.exceedances) if self.study.response is not None else 0
+        parts = ([f"{n} inside the margin"] if n else []) + ([f"{ex} over a permissible value"] if ex else [])
+        return f"FAIL ({', '.join(parts)})", False
+
+    def _show_verdict(self) -> None:
+        m = self.modes
+        n_el = int(m.elastic.sum())
+        details = f"{len(m)} modes ({n_el} elastic) · solved in {self.solve_time_s * 1e3:.1f} ms"
+        text, ok = self.verdict_text()
+        if self.is_stale:
+            # a verdict exists only for the model on screen: grey, and no PASS while it has errors
+            details = "last valid model · " + details
+            self._set_label(self.verdict, f"No verdict: the model on screen has an error — "
+                            f"{self.stale_message}. The greyed views show the last valid model.",
+                            theme.verdict_style(None))
+        else:
+            self._set_label(self.verdict, text, theme.verdict_style(ok))
         if self.response is not None and self.response_view.exceeded:
             details += f" · {len(self.response_view.exceeded)} response exceedance(s)"
         self._set_label(self.details, details)
-        self.verdict.setToolTip(details)
+        self.verdict.setToolTip(details if not self.is_stale else f"Last valid model: {text}\n{details}")
+
+
+def _not_finite(study) -> str | None:
+    """The message for a study holding a non-number (None when every shown value is finite):
+    such a study never shows a verdict (core refuses these; this is the last guard)."""
+    m = study.modes
+    f = np.asarray(m.frequency_hz, float)
+    if f.size and not np.isfinite(f).all():
+        k = int(np.flatnonzero(~np.isfinite(f))[0])
+        return (f"No verdict: the natural frequency of mode {int(m.number[k])} is not a number; "
+                "check the model's values (a speed ratio or stiffness far out of range).")
+    s = study.screening
+    if s is not None:
+        seps = [c.separation for c in s.coincidences]
+        if seps and not np.isfinite(np.asarray(seps, float)).all():
+            return "No verdict: a separation margin is not a number; check the model's values."
+    if study.response is not None:
+        for p in study.response_peaks:
+            for v in (p.peak_torque, p.peak_stress):
+                if v is not None and not np.isfinite(v):
+                    return (f"No verdict: the forced response of {study.train.name_of(p.link_id)} is not a "
+                            "number; check the model's values.")
+    return None

@@ -31,6 +31,15 @@ class PlotCanvas(pg.GraphicsLayoutWidget):
         self.ci.setContentsMargins(6, 6, 10, 6)
         self.export_title = ""
         self.export_show = []  # items hidden on screen by the user but always exported
+        # called with (width, height) of the plot area before it is laid out at that size
+        # (on a resize and for an export): e.g. to move the key beside or below the plot
+        self.layout_hooks = []
+
+    def resizeEvent(self, event) -> None:
+        if event is not None:  # pyqtgraph calls it with None while it is built
+            for hook in getattr(self, "layout_hooks", ()):
+                hook(float(event.size().width()), float(event.size().height()))
+        super().resizeEvent(event)
 
     EXPORT_SIZE = (1600, 980)  # px the plot is laid out at (and written at) for an export
 
@@ -44,20 +53,24 @@ class PlotCanvas(pg.GraphicsLayoutWidget):
                             f"<span style='color:{theme.WARN}'>{html.escape(CAUTION)}</span>",
                             color=theme.INK, size=f"{theme.SMALL_POINT_SIZE}pt", justify="left")
         lay = self.ci.layout
-        row = lay.rowCount()
         old_rect = self.ci.geometry()
+        hidden = [item for item in self.export_show if not item.isVisible()]
+        for item in hidden:
+            _show(item, True)
+        # items may move (e.g. the key beside or below the plot) before the note takes its row
+        for hook in self.layout_hooks:
+            hook(*self.EXPORT_SIZE)
+        row = lay.rowCount()
         self.ci.addItem(note, row=row, col=0, colspan=max(1, lay.columnCount()))
         lay.setRowStretchFactor(row, 0)
         note.setMaximumHeight(3.2 * self.fontMetrics().height())
-        hidden = [item for item in self.export_show if not item.isVisible()]
-        for item in hidden:
-            item.setVisible(True)
-            item.setMaximumHeight(16777215)
         try:
-            # lay the central item out at the export size (the widget itself keeps its size)
-            self.ci.setGeometry(QtCore.QRectF(0, 0, *self.EXPORT_SIZE))
-            lay.activate()
-            QtWidgets.QApplication.processEvents()
+            # lay the central item out at the export size (the widget itself keeps its size);
+            # twice, as a key that wraps to the new width asks for a new height
+            for _ in range(2):
+                self.ci.setGeometry(QtCore.QRectF(0, 0, *self.EXPORT_SIZE))
+                lay.activate()
+                QtWidgets.QApplication.processEvents()
             if str(path).lower().endswith(".svg"):
                 _accept_closed_svg_paths()
                 pg.exporters.SVGExporter(self.ci).export(str(path))
@@ -69,12 +82,22 @@ class PlotCanvas(pg.GraphicsLayoutWidget):
                 ex.parameters()["height"] = int(round(rect.height()))
                 ex.export(str(path))
         finally:
-            for item in hidden:
-                item.setVisible(False)
-                item.setMaximumHeight(0)
             self.ci.removeItem(note)
+            for item in hidden:
+                _show(item, False)
+            for hook in self.layout_hooks:
+                hook(float(self.width()), float(self.height()))
             self.ci.setGeometry(old_rect)
             lay.activate()
+
+
+def _show(item, on: bool) -> None:
+    """Show or hide an item that the user may hide on screen (e.g. the key)."""
+    if hasattr(item, "set_shown"):
+        item.set_shown(on)
+    else:
+        item.setVisible(on)
+        item.setMaximumHeight(16777215 if on else 0)
 
 
 def _accept_closed_svg_paths() -> None:
@@ -205,14 +228,26 @@ def side_by_side(x, width: float = 0.6):
     return out, widths
 
 
+def elide(text: str, metrics, width: float) -> str:
+    """``text`` cut to ``width`` pixels with an ellipsis (axis ticks; tooltips carry it whole)."""
+    from PySide6 import QtCore as _QtCore
+    return metrics.elidedText(text, _QtCore.Qt.ElideRight, int(width))
+
+
 def column_ticks(train, line: TrainLine, width_px: float, font) -> list:
-    """Bottom-axis ticks: the main-line disc id at each column, thinned so
-    that the labels fit side by side in ``width_px``."""
+    """Bottom-axis ticks: the name of the main-line disc at each column (its id
+    where it has none), thinned so that the labels fit side by side in
+    ``width_px``; a long name is shortened with an ellipsis."""
     from PySide6 import QtGui
-    main = {int(line.disc_x[i]): train.discs[i].id for i in range(len(train.discs))
+    main = {int(line.disc_x[i]): train.name_of(train.discs[i].id) for i in range(len(train.discs))
             if line.disc_row[i] == 0}
     fm = QtGui.QFontMetrics(font)
-    widest = max((fm.horizontalAdvance(t) for t in main.values()), default=20) + 12
     per_column = max(width_px, 50.0) / max(line.n_columns, 1)
+    longest = max((fm.horizontalAdvance(t) for t in main.values()), default=20)
+    # as wide as a column allows, but never narrower than about ten characters
+    room = max(per_column - 24, fm.horizontalAdvance("Crank thro…"))
+    room = min(room, longest)
+    main = {c: elide(t, fm, room) for c, t in main.items()}
+    widest = max((fm.horizontalAdvance(t) for t in main.values()), default=20) + 24
     step = max(1, int(np.ceil(widest / per_column)))
     return [[(c, main.get(c, "")) for c in range(0, line.n_columns, step)]]

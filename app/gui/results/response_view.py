@@ -17,12 +17,15 @@ from app.gui import theme
 from core import units
 
 from . import rows as R
+from .legend import FlowLegend
 from .plotting import PlotCanvas, new_plot, plot_over_table
-from .table import RowsModel, fit_columns, make_table_view
+from .table import RowsModel, make_table_view
 
 RPM = 2.0 * math.pi / 60.0
 TORQUE, STRESS, SHARE = "Vibratory torque", "Vibratory shear stress", "Share of permissible"
 SUM, PHASED = "Sum of order amplitudes (conservative)", "Phase-aware synthesis"
+#: curves closer than this share of the plot's height are drawn as lying on each other
+OVERLAP = 0.01
 MAX_DEFAULT_LINKS = 4
 
 
@@ -36,14 +39,53 @@ def default_links(resp, summary) -> list[str]:
     return chosen or list(resp.link_ids[:MAX_DEFAULT_LINKS])
 
 
+def overlapping(curves, tolerance: float, share: float = 0.5):
+    """For each curve (y arrays over the same speeds), the index of an earlier
+    curve it lies on (within ``tolerance`` at ``share`` or more of the finite
+    points: it would be hidden there), else None."""
+    out = []
+    for k, y in enumerate(curves):
+        hit = None
+        for j in range(k):
+            d = np.abs(np.asarray(y, float) - np.asarray(curves[j], float))
+            d = d[np.isfinite(d)]
+            if d.size and float(np.mean(d <= tolerance)) >= share:
+                hit = j
+                break
+        out.append(hit)
+    return out
+
+
+def fit_peak_columns(view: QtWidgets.QTableView) -> None:
+    """Columns as narrow as their contents (a few pixels of air), the link's name
+    taking what is left and elided (its tooltip carries it whole): the nine
+    columns fit a 1366-pixel screen.  Done once, as fit_columns does."""
+    if view.property("columns_fitted") or not view.model().rowCount():
+        return
+    view.setProperty("columns_fitted", True)
+    view.resizeColumnsToContents()
+    h = view.horizontalHeader()
+    for c in range(1, h.count()):
+        h.resizeSection(c, min(h.sectionSize(c) + 4, 140))
+    h.setStretchLastSection(False)
+    h.setMinimumSectionSize(36)
+    h.setSectionResizeMode(0, QtWidgets.QHeaderView.Stretch)
+
+
 class ResponseView(QtWidgets.QWidget):
+    """The plot of the ticked links above; the order choice and the peak table
+    (one row per link, tick a row to plot it) below, so that the controls and
+    the table fit a 1366 x 768 screen without scrolling."""
+
     def __init__(self, parent=None):
         super().__init__(parent)
         self.train = None
         self.response = None
         self.summary = []
+        self.exceeded = []
         self.unit_system = "SI"
         self._draw_pending = False  # new results arrived while the plot was hidden
+        self._user_ticked = False  # the user chose links: keep them across live edits
 
         self.quantity = QtWidgets.QComboBox(self)
         self.quantity.addItems([TORQUE, STRESS, SHARE])
@@ -51,47 +93,44 @@ class ResponseView(QtWidgets.QWidget):
                                  "(shafts with geometry, times their stress concentration factor); or the "
                                  "amplitude as a share of the link's permissible torque or stress, so links "
                                  "of very different size read on one scale.")
+        self.quantity.setSizeAdjustPolicy(QtWidgets.QComboBox.AdjustToContents)
         self.combination = QtWidgets.QComboBox(self)
         self.combination.setToolTip("How the orders are combined: the plain sum of amplitudes is "
                                     "conservative; the phase-aware synthesis uses the given phases. "
                                     "Or one order alone.")
-        self.links = QtWidgets.QListWidget(self)
-        self.links.setToolTip("Tick the links to plot.")
-        self.links.setMinimumWidth(140)
-        self.links.setMaximumWidth(260)
+        # wide enough for the two combinations; a long single-order entry is elided in the
+        # box (its full text is in the list and the tooltip)
+        self.combination.setSizeAdjustPolicy(QtWidgets.QComboBox.AdjustToMinimumContentsLengthWithIcon)
+        self.combination.setMinimumContentsLength(max(len(SUM), len(PHASED)))
         self.quantity.currentIndexChanged.connect(lambda _i: self._quantity_changed())
-        self.combination.currentIndexChanged.connect(lambda _i: self._draw())
-        self.links.itemChanged.connect(lambda _item: self._draw())
+        self.combination.currentIndexChanged.connect(lambda _i: self._combination_changed())
 
         self.canvas = PlotCanvas(self)
         self.canvas.export_title = "Forced response"
         self.plot = new_plot(self.canvas, 0, "Reference speed, rpm", "")
         self.plot.getAxis("left").setWidth(72)
         self._rpm, self._plotted = None, []
-        self.legend = self.plot.addLegend(offset=(8, 8), labelTextColor=theme.INK,
-                                          brush=theme.brush((255, 255, 255, 220)))
+        # the key below the plot, never over the curves
+        self.legend = FlowLegend()
+        self.canvas.addItem(self.legend, row=1, col=0)
+        self.canvas.ci.layout.setRowStretchFactor(0, 10)
         self.hover = QtWidgets.QLabel(self)
         self.hover.setStyleSheet(f"color: {theme.INK_MUTED};")
         self.verdict = QtWidgets.QLabel(self)
         self.verdict.setWordWrap(True)
 
         self.peak_model = RowsModel(R.response_headers(), self, numeric_columns=(2, 3, 4, 5, 6, 7),
-                                    status_column=8)
+                                    status_column=8, check_column=0)
         self.peak_table = make_table_view(self.peak_model, self)
+        self.peak_table.horizontalHeader().setDefaultAlignment(QtCore.Qt.AlignLeft | QtCore.Qt.AlignBottom)
+        # compact rows: a ten-link train's table and the plot share a 1366 x 768 screen
+        self.peak_table.verticalHeader().setDefaultSectionSize(self.peak_table.fontMetrics().height() + 3)
         self.peak_table.setToolTip("Peak vibratory torque and stress per link over the computed speeds "
-                                   "(sum of order amplitudes) against the permissible values given.")
-
-        controls = QtWidgets.QWidget(self)
-        cl = QtWidgets.QVBoxLayout(controls)
-        cl.setContentsMargins(0, 0, 0, 0)
-        cl.addWidget(QtWidgets.QLabel("Quantity"))
-        cl.addWidget(self.quantity)
-        cl.addWidget(QtWidgets.QLabel("Orders"))
-        cl.addWidget(self.combination)
-        cl.addWidget(QtWidgets.QLabel("Links"))
-        cl.addWidget(self.links, 1)
-        self.combination.setMaximumWidth(260)
-        self.quantity.setMaximumWidth(260)
+                                   "(sum of order amplitudes) against the permissible values given. "
+                                   "Tick a link to plot it.")
+        self.peak_model.checkedChanged.connect(self._ticked)
+        self.links_note = QtWidgets.QLabel("Tick links in the table to plot them.", self)
+        self.links_note.setStyleSheet(f"color: {theme.INK_MUTED};")
 
         plot_box = QtWidgets.QWidget(self)
         pl = QtWidgets.QVBoxLayout(plot_box)
@@ -99,22 +138,80 @@ class ResponseView(QtWidgets.QWidget):
         pl.setSpacing(2)
         pl.addWidget(self.canvas, 1)
         pl.addWidget(self.hover)
-        top = QtWidgets.QSplitter(QtCore.Qt.Horizontal, self)
-        top.addWidget(controls)
-        top.addWidget(plot_box)
-        top.setStretchFactor(0, 0)
-        top.setStretchFactor(1, 1)
-        top.setChildrenCollapsible(False)
 
         lower = QtWidgets.QWidget(self)
         ll = QtWidgets.QVBoxLayout(lower)
         ll.setContentsMargins(0, 4, 0, 0)
-        ll.setSpacing(2)
+        ll.setSpacing(3)
+        bar = QtWidgets.QHBoxLayout()
+        bar.setContentsMargins(0, 0, 0, 0)
+        bar.addWidget(QtWidgets.QLabel("Quantity"))
+        bar.addWidget(self.quantity)
+        bar.addSpacing(12)
+        bar.addWidget(QtWidgets.QLabel("Orders"))
+        bar.addWidget(self.combination, 1)
+        bar.addSpacing(12)
+        bar.addWidget(self.links_note)
+        ll.addLayout(bar)
         ll.addWidget(self.verdict)
         ll.addWidget(self.peak_table, 1)
 
-        self.splitter = plot_over_table(self, top, lower)
+        self.splitter = plot_over_table(self, plot_box, lower)
         self._proxy = pg.SignalProxy(self.plot.scene().sigMouseMoved, rateLimit=30, slot=self._mouse_moved)
+
+    def resizeEvent(self, event) -> None:
+        super().resizeEvent(event)
+        self.links_note.setVisible(self.width() >= 900)
+        self._fit_table_height()
+
+    def _fit_table_height(self) -> None:
+        """Give the table the height of all its rows (up to half the view), the plot the rest."""
+        n = self.peak_model.rowCount()
+        if not n or self.height() < 200:
+            return
+        t = self.peak_table
+        header = max(t.horizontalHeader().height(), t.horizontalHeader().sizeHint().height())
+        want = header + n * t.verticalHeader().defaultSectionSize() + 2 * t.frameWidth() + 2
+        if t.horizontalScrollBar().isVisible():
+            want += t.horizontalScrollBar().height()
+        lower = want + self.verdict.sizeHint().height() + self.quantity.sizeHint().height() + 16
+        total = sum(self.splitter.sizes())
+        lower = min(lower, int(0.56 * total))
+        # once per number of rows and height: a split the user dragged stays through live edits
+        key = (n, total, lower)
+        if key != getattr(self, "_fitted_for", None) and abs(self.splitter.sizes()[1] - lower) > 2:
+            self.splitter.setSizes([total - lower, lower])
+        self._fitted_for = key
+
+    # ------------------------------------------------------------ the result-view protocol (see panel)
+    NO_AMPLITUDE = "give an excitation an amplitude to see the forced response"
+
+    def show_study(self, study) -> str | None:
+        """Show the study's forced response; the text of what is missing or went wrong otherwise."""
+        if study.response is None:
+            if self.response is not None:
+                self.clear()
+            if study.response_error is not None:
+                return f"Forced response not computed: {study.response_error}"
+            if study.train.operating is None:
+                return ("No operating data: give the reference disc, the operating speed range and an "
+                        "excitation with an amplitude to see the forced response.")
+            return self.NO_AMPLITUDE[0].upper() + self.NO_AMPLITUDE[1:] + "."
+        self.set_response(study.train, study.response, study.response_peaks, study.exceedances)
+        return None
+
+    def set_unit_system(self, system: str) -> None:
+        if system != self.unit_system:
+            self.unit_system = system
+            if self.response is not None:
+                self.set_response(self.train, self.response, self.summary, self.exceeded)
+
+    def reset_view_state(self) -> None:
+        """A newly opened project: default links, quantity and combination again."""
+        self._user_ticked = False
+        self.response = None
+        self.quantity.setCurrentIndex(0)
+        self.combination.setCurrentIndex(0)
 
     # ------------------------------------------------------------ data
     def set_response(self, train, resp, summary=None, exceeded=None) -> None:
@@ -124,7 +221,7 @@ class ResponseView(QtWidgets.QWidget):
             from core import response as core_response
             summary = core_response.response_summary(resp) if summary is None else summary
             exceeded = core_response.exceedances(resp) if exceeded is None else exceeded
-        before = self.checked_links() if self.response is not None else None
+        before = self.checked_links() if (self.response is not None and self._user_ticked) else None
         self.train, self.response, self.summary, self.exceeded = train, resp, list(summary), list(exceeded)
         self.canvas.export_title = f"{train.title}: forced response"
 
@@ -145,55 +242,61 @@ class ResponseView(QtWidgets.QWidget):
         i = self.combination.findText(keep)
         self.combination.setCurrentIndex(max(i, 0))
         self.combination.blockSignals(False)
+        self._combination_tip()
 
-        wanted = set(before) if before else set(default_links(resp, self.summary))
-        self.links.blockSignals(True)
-        self.links.clear()
-        for lid in resp.link_ids:
-            item = QtWidgets.QListWidgetItem(lid, self.links)
-            item.setFlags(item.flags() | QtCore.Qt.ItemIsUserCheckable)
-            item.setCheckState(QtCore.Qt.Checked if lid in wanted else QtCore.Qt.Unchecked)
-        self.links.blockSignals(False)
-
+        ids = list(resp.link_ids)
+        wanted = [l for l in before if l in ids] if before is not None else default_links(resp, self.summary)
         self.peak_model.headers = list(R.response_headers(self.unit_system))
-        self.peak_model.set_rows(R.response_rows(self.summary, self.unit_system))
-        fit_columns(self.peak_table)
+        self.peak_model.set_rows(R.response_rows(self.summary, self.unit_system, train))
+        self.peak_model.headerDataChanged.emit(QtCore.Qt.Horizontal, 0, len(self.peak_model.headers) - 1)
+        self.peak_model.set_checked(wanted)
+        fit_peak_columns(self.peak_table)
         self._set_verdict()
+        self._fit_table_height()
         self._quantity_changed()
 
-    def clear(self) -> None:
+    def clear(self, message: str = "") -> None:
         self.response = None
         self._draw_pending = False
         self.plot.clear()
         self.legend.clear()
-        self.links.clear()
         self.peak_model.set_rows([])
         self.verdict.setText("")
 
     def checked_links(self) -> list[str]:
-        out = []
-        for k in range(self.links.count()):
-            it = self.links.item(k)
-            if it.checkState() == QtCore.Qt.Checked:
-                out.append(it.text())
-        return out
+        """Ids of the ticked links, in the train's order."""
+        if self.response is None:
+            return []
+        return [lid for lid in self.response.link_ids if lid in self.peak_model.checked]
 
     def set_checked_links(self, link_ids) -> None:
-        want = set(link_ids)
-        self.links.blockSignals(True)
-        for k in range(self.links.count()):
-            it = self.links.item(k)
-            it.setCheckState(QtCore.Qt.Checked if it.text() in want else QtCore.Qt.Unchecked)
-        self.links.blockSignals(False)
+        self._user_ticked = True
+        self.peak_model.set_checked(link_ids)
         self._draw()
+
+    def _ticked(self) -> None:
+        self._user_ticked = True
+        self._draw()
+
+    def _combination_changed(self) -> None:
+        self._combination_tip()
+        self._draw()
+
+    def _combination_tip(self) -> None:
+        self.combination.setToolTip(f"{self.combination.currentText()}\n\nHow the orders are combined: the "
+                                    "plain sum of amplitudes is conservative; the phase-aware synthesis uses "
+                                    "the given phases. Or one order alone.")
+
+    def _name(self, link_id: str) -> str:
+        return R.name_of(self.train, link_id)
 
     def _set_verdict(self) -> None:
         judged = [p for p in self.summary if p.passed is not None]
         if self.exceeded:
             e = self.exceeded[0]
             what = "torque" if e.quantity == "torque" else "stress"
-            self.verdict.setText(f"{len(self.exceeded)} permissible value(s) exceeded — first: {e.link_id} "
-                                 f"vibratory {what} at {fmt.rpm(e.speed)} rpm.")
+            self.verdict.setText(f"{len(self.exceeded)} permissible value(s) exceeded — first: "
+                                 f"{self._name(e.link_id)}, vibratory {what} at {fmt.rpm(e.speed)} rpm.")
             self.verdict.setStyleSheet(theme.verdict_style(False))
         elif judged:
             self.verdict.setText(f"Every link with a permissible value stays below it "
@@ -237,6 +340,7 @@ class ResponseView(QtWidgets.QWidget):
     def showEvent(self, event) -> None:
         super().showEvent(event)
         self.ensure_drawn()
+        self._fit_table_height()
 
     def ensure_drawn(self) -> None:
         """Draw the plot now if results came while it was hidden (exports, tests)."""
@@ -263,16 +367,19 @@ class ResponseView(QtWidgets.QWidget):
         share = quantity == SHARE
         if share:
             scale = 1.0
+            self._unit_text = "%"
             p.setLabel("left", f"{quantity}, %", siPrefixEnableRanges=())
         else:
             kind = units.STRESS if stress else units.TORQUE
             unit = units.display_unit(kind, self.unit_system)
             if self.unit_system == "SI":  # N*m or Pa with an automatic k / M prefix
                 scale = 1.0
+                self._unit_text = None  # the axis's own prefixed unit
                 p.setLabel("left", quantity, units="Pa" if stress else "N·m")
             else:
                 scale = units.convert(1.0, kind, unit)
-                p.setLabel("left", f"{quantity}, {unit}", siPrefixEnableRanges=())
+                self._unit_text = R.pretty(unit)
+                p.setLabel("left", f"{quantity}, {R.pretty(unit)}", siPrefixEnableRanges=())
         rpm = np.asarray(r.speed, float) / RPM
         self._rpm = rpm
         op = self.train.operating if self.train is not None else None
@@ -299,24 +406,40 @@ class ResponseView(QtWidgets.QWidget):
                                                "anchors": [(1, 1), (1, 1)]})
             p.addItem(limit)
             top = 100.0
+        curves = []  # (series number, link id, y, permissible in plot units or None)
+        ids = list(r.link_ids)
         for n, lid in enumerate(self.checked_links()):
-            j = list(r.link_ids).index(lid)
+            j = ids.index(lid)
             peak = peaks.get(lid)
             y = self._share(j, peak) if share else self._torque_or_stress(j, stress) * scale
             if y is None or not np.isfinite(y).any():
                 continue
             top = max(top, float(np.nanmax(y)))
-            p.plot(rpm, y, pen=theme.series_pen(n, theme.BOLD_WIDTH), name=lid)
+            allowed = None
+            if not share and peak is not None:
+                allowed = peak.permissible_stress if stress else peak.permissible_torque
+                allowed = allowed * scale if allowed is not None and math.isfinite(allowed) else None
+                if allowed is not None:
+                    top = max(top, allowed)
+            curves.append((n, lid, y, allowed))
+        # a curve lying on an earlier one is drawn dashed on top of it, so both colours show,
+        # and its key entry says so: every curve named in the key can be seen
+        on = overlapping([y for _n, _l, y, _a in curves], OVERLAP * max(top, 1e-30))
+        for (n, lid, y, allowed), under in zip(curves, on):
+            name = self._name(lid)
+            pen = theme.series_pen(n, theme.BOLD_WIDTH)
+            text = name
+            if under is not None:
+                pen = theme.pen(theme.series_color(n), theme.BOLD_WIDTH, QtCore.Qt.DashLine)
+                text = f"{name} (dashed where it lies on {self._name(curves[under][1])})"
+            item = p.plot(rpm, y, pen=pen)
+            item.opts["name"] = name
+            self.legend.addItem(item, text)
             self._plotted.append((lid, y))
-            if share or peak is None:
-                continue
-            allowed = peak.permissible_stress if stress else peak.permissible_torque
-            if allowed is not None and math.isfinite(allowed):
-                a = allowed * scale
-                top = max(top, a)
-                p.addItem(pg.InfiniteLine(a, angle=0, pen=theme.pen(theme.series_color(n), theme.LINE_WIDTH,
-                                                                    QtCore.Qt.DashLine),
-                                          label=f"permissible, {lid}",
+            if allowed is not None:
+                p.addItem(pg.InfiniteLine(allowed, angle=0, pen=theme.pen(theme.series_color(n), theme.LINE_WIDTH,
+                                                                          QtCore.Qt.DashLine),
+                                          label=f"permissible, {name}",
                                           labelOpts={"position": 0.98, "color": theme.series_color(n),
                                                      "anchors": [(1, 1), (1, 1)]}))
         if len(rpm):
@@ -332,6 +455,8 @@ class ResponseView(QtWidgets.QWidget):
         if rpm is None or not len(rpm):
             return
         k = int(np.clip(np.searchsorted(rpm, pt.x()), 0, len(rpm) - 1))
-        unit = self.plot.getAxis("left").labelUnits
-        values = ", ".join(f"{lid} {y[k]:.4g}" for lid, y in getattr(self, "_plotted", []))
+        unit = getattr(self, "_unit_text", None)
+        if unit is None:  # SI: the values are plotted in N*m or Pa
+            unit = self.plot.getAxis("left").labelUnits
+        values = ", ".join(f"{self._name(lid)} {y[k]:.4g}" for lid, y in getattr(self, "_plotted", []))
         self.hover.setText(f"At {rpm[k]:.0f} rpm: {values}" + (f" ({unit})" if unit else ""))

@@ -16,7 +16,9 @@ _ALIGN = int(QtCore.Qt.TextAlignmentRole.value)
 _FOREGROUND = int(QtCore.Qt.ForegroundRole.value)
 _BACKGROUND = int(QtCore.Qt.BackgroundRole.value)
 _FONT = int(QtCore.Qt.FontRole.value)
-_ROLES = frozenset((_DISPLAY, _TOOLTIP, _ALIGN, _FOREGROUND, _BACKGROUND, _FONT))
+_CHECK = int(QtCore.Qt.CheckStateRole.value)
+_ROLES = frozenset((_DISPLAY, _TOOLTIP, _ALIGN, _FOREGROUND, _BACKGROUND, _FONT, _CHECK))
+_CHECKED, _UNCHECKED = QtCore.Qt.Checked, QtCore.Qt.Unchecked
 _RIGHT = int((QtCore.Qt.AlignRight | QtCore.Qt.AlignVCenter).value)
 _LEFT = int((QtCore.Qt.AlignLeft | QtCore.Qt.AlignVCenter).value)
 
@@ -25,12 +27,21 @@ _STATUS_FILL = {"pass": None, "fail": theme.FAIL_FILL, "muted": None}
 
 
 class RowsModel(QtCore.QAbstractTableModel):
-    """Rows of text; a row's status colours it (fail rows get a pale red fill)."""
+    """Rows of text; a row's status colours it (fail rows get a pale red fill).
 
-    def __init__(self, headers, parent=None, numeric_columns=(), status_column=None):
+    ``check_column``: that column carries a tick box per row (the row's ``key``
+    is what is ticked; ``checkedChanged`` after the user ticks or unticks one).
+    """
+
+    checkedChanged = QtCore.Signal()
+
+    def __init__(self, headers, parent=None, numeric_columns=(), status_column=None,
+                 check_column: int | None = None):
         super().__init__(parent)
         self.headers = list(headers)
         self.rows: list[Row] = []
+        self.check_column = check_column
+        self.checked: set = set()
         self._numeric = set(numeric_columns)
         self._status_column = status_column
         self._brushes = {k: QtGui.QBrush(theme.qcolor(v)) for k, v in _STATUS_TEXT.items()}
@@ -73,6 +84,10 @@ class RowsModel(QtCore.QAbstractTableModel):
             return None
         row = self.rows[index.row()]
         col = index.column()
+        if role == _CHECK:
+            if col != self.check_column:
+                return None
+            return _CHECKED if row.key in self.checked else _UNCHECKED
         if role == _DISPLAY:
             return row.cells[col]
         if role == _TOOLTIP:
@@ -90,6 +105,32 @@ class RowsModel(QtCore.QAbstractTableModel):
         if role == _FONT and col == self._status_column and status in ("pass", "fail"):
             return self._bold
         return None
+
+    def flags(self, index):
+        f = super().flags(index)
+        if index.isValid() and index.column() == self.check_column:
+            f |= QtCore.Qt.ItemIsUserCheckable
+        return f
+
+    def setData(self, index, value, role=QtCore.Qt.EditRole):
+        if not index.isValid() or index.column() != self.check_column or int(role) != _CHECK:
+            return False
+        key = self.rows[index.row()].key
+        on = value in (_CHECKED, int(_CHECKED.value), True)
+        if on == (key in self.checked):
+            return True
+        (self.checked.add if on else self.checked.discard)(key)
+        self.dataChanged.emit(index, index, [QtCore.Qt.CheckStateRole])
+        self.checkedChanged.emit()
+        return True
+
+    def set_checked(self, keys) -> None:
+        """Tick exactly ``keys`` (no checkedChanged: the caller redraws)."""
+        self.checked = set(keys)
+        if self.rows and self.check_column is not None:
+            c = self.check_column
+            self.dataChanged.emit(self.index(0, c), self.index(len(self.rows) - 1, c),
+                                  [QtCore.Qt.CheckStateRole])
 
     def headerData(self, section, orientation, role=QtCore.Qt.DisplayRole):
         if role == QtCore.Qt.DisplayRole and orientation == QtCore.Qt.Horizontal:
@@ -117,12 +158,12 @@ def make_table_view(model: RowsModel, parent=None) -> QtWidgets.QTableView:
     return v
 
 
-def fit_columns(view: QtWidgets.QTableView, max_width: int = 360, elastic: int | None = None) -> None:
+def fit_columns(view: QtWidgets.QTableView, max_width: int = 360, elastic=None) -> None:
     """Size columns to their contents once (the first time the table has rows),
     then leave them: live re-solves must not undo widths the user dragged.
 
-    ``elastic``: the column of long descriptive text (e.g. the excitation's name)
-    that takes the width left over by the others, so that on a small screen
+    ``elastic``: the column (or columns, sharing it) of long descriptive text
+    (e.g. the excitation's name) that takes the width left over by the others, so that on a small screen
     (1366 x 768) every number column stays in view and that text is elided
     (its row's tooltip carries it in full) instead of pushing columns off the edge.
     """
@@ -136,7 +177,8 @@ def fit_columns(view: QtWidgets.QTableView, max_width: int = 360, elastic: int |
     if elastic is not None:
         h.setStretchLastSection(False)
         h.setMinimumSectionSize(max(h.minimumSectionSize(), 40))
-        h.setSectionResizeMode(elastic, QtWidgets.QHeaderView.Stretch)
+        for c in ((elastic,) if isinstance(elastic, int) else elastic):
+            h.setSectionResizeMode(c, QtWidgets.QHeaderView.Stretch)
 
 
 def write_csv(path: str, title: str, headers, rows: list[Row]) -> None:
@@ -145,6 +187,6 @@ def write_csv(path: str, title: str, headers, rows: list[Row]) -> None:
         w = csv.writer(fh)
         w.writerow([f"# {title}"])
         w.writerow([f"# {CAUTION}"])
-        w.writerow(list(headers))
+        w.writerow([h.replace("\n", " ") for h in headers])
         for r in rows:
             w.writerow(list(r.cells))
