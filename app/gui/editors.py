@@ -138,19 +138,24 @@ def stored_value(text: str, kind, system: str):
     text = text.strip()
     if not text:
         return None
+    x = _bare_number(text)
     if isinstance(kind, u.Kind):
-        try:
-            float(text)
-        except ValueError:
-            return text
-        return f"{text} {u.display_unit(kind, system)}"
+        # a bare number is in the unit on display; anything else is kept as typed (and marked)
+        return text if x is None else f"{text} {u.display_unit(kind, system)}"
     if kind == NUMBER:
-        try:
-            x = float(text)
-        except ValueError:
+        if x is None:
             return text
         return int(x) if x.is_integer() and abs(x) < 1e15 else x
     return text
+
+
+def _bare_number(text: str) -> float | None:
+    """The number, when ``text`` is one plain number by the strict grammar (core.units):
+    'nan', 'inf' and '1_000' are not."""
+    try:
+        return u.parse_number(text)
+    except Exception:
+        return None
 
 
 def text_problem(text: str, kind) -> str | None:
@@ -159,11 +164,9 @@ def text_problem(text: str, kind) -> str | None:
     if not text:
         return None
     if isinstance(kind, u.Kind):
-        try:
-            float(text)
+        if _bare_number(text) is not None:
             return None
-        except ValueError:
-            return _read(text, kind)[1]
+        return _read(text, kind)[1]
     if kind == NUMBER:
         try:
             u.parse_number(text)
