@@ -446,3 +446,15 @@ def test_a_new_view_plugs_in_with_add_view(panel):
     assert ("units", "US") in view.calls and ("reset",) in view.calls
     panel.clear_results("The model cannot be solved")
     assert view.calls[-1][0] == "clear"
+
+
+def test_the_saved_unit_system_reaches_the_results_from_the_start(qtbot, tmp_path):
+    """A user whose saved choice is US customary sees US units in the results at once."""
+    from PySide6 import QtCore
+
+    from app.gui.main_window import MainWindow
+    settings = QtCore.QSettings(str(tmp_path / "s.ini"), QtCore.QSettings.IniFormat)
+    settings.setValue("unit_system", "US")
+    win = MainWindow(settings=settings, autosave=False)
+    qtbot.addWidget(win)
+    assert win.results_panel.unit_system == "US"

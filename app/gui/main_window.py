@@ -134,6 +134,8 @@ class MainWindow(QtWidgets.QMainWindow):
         self._build_widgets()
         self._build_actions()
         self._connect()
+        if hasattr(self.results_panel, "set_unit_system"):
+            self.results_panel.set_unit_system(self.system)  # the saved choice, from the start
         self.setMinimumSize(1024, 640)
         self.resize(1600, 1000)
         self._autosave = QtCore.QTimer(self)
