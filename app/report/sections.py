@@ -552,7 +552,7 @@ def frequency_block(ctx: Ctx):
     spec = [("Mode", 0.07, "RIGHT"), ("Hz", 0.11, "RIGHT"), ("cpm", 0.1, "RIGHT"),
             ("Largest strain energy (link, share)", 0.28), ("Largest kinetic energy (disc, share)", 0.28)]
     if s is not None:
-        spec.append(("Screened", 0.16))
+        spec.append(("Screened", 0.21))
     rows, cells = [], {}
     strain_max = m.strain_share.max(axis=1) if m.strain_share.size else np.zeros(len(m))
     kin_max = m.kinetic_share.max(axis=1)

@@ -193,11 +193,14 @@ class LongTable(Flowable):
         c.setFillColor(ZEBRA)
         y = top - head_h
         row_tops = []
+        zebra = []
         for i in range(start, stop):
             row_tops.append(y)
             if (i - start) % 2 == 1:
-                c.rect(0, y - heights[i], total_w, heights[i], stroke=0, fill=1)
+                zebra.append(f"0 {y - heights[i]:.2f} {total_w:.2f} {heights[i]:.2f} re")
             y -= heights[i]
+        if zebra:  # one filled path of all stripes (a rect call per row formats its numbers in Python)
+            c._code.append("\n".join(zebra) + " f")
         for i in range(start, stop):
             for cmd, col, value in cells.get(i, ()):
                 if cmd == "BACKGROUND":

@@ -66,7 +66,7 @@ doc.build([t])
 '''
 
 
-def chain_document(n: int) -> dict:
+def chain_document(n: int, amplitudes: bool = False) -> dict:
     """An invented n-disc chain written with unit strings (see the module docstring)."""
     scale = n / 200.0
     discs = []
@@ -95,7 +95,7 @@ def chain_document(n: int) -> dict:
         else:
             link.update(kind="shaft", stiffness=f"{2.5 * scale:.6g} MN*m/rad", loss_factor=0.01)
         links.append(link)
-    orders = [{"order": o, "amplitude": f"{a} N*m", "phase_deg": 15 * k}
+    orders = [{"order": o, "amplitude": f"{a} N*m", "phase_deg": 15 * k} if amplitudes else o
               for k, (o, a) in enumerate([(0.5, 900), (1, 700), (1.5, 500), (2, 350), (3, 250), (6, 120)])]
     return {"format": "twistwise-project", "version": 1,
             "title": f"Benchmark chain, {n} discs (invented)", "discs": discs, "links": links,
@@ -127,6 +127,7 @@ def main(argv=None):
     p.add_argument("--sizes", type=int, nargs="+", default=[200, 2000, 20000])
     p.add_argument("--repeats", type=int, default=3)
     p.add_argument("--profile", type=int, metavar="N", help="profile one in-process sheet of N discs")
+    p.add_argument("--with-response", action="store_true", help="orders with amplitudes: forced response too")
     a = p.parse_args(argv)
     tmp = Path(tempfile.mkdtemp(prefix="bench_report."))
     if a.profile:
@@ -134,7 +135,7 @@ def main(argv=None):
         import pstats
         sys.path.insert(0, str(ROOT))
         from app.report import write_sheet
-        doc = chain_document(a.profile)
+        doc = chain_document(a.profile, a.with_response)
         cProfile.runctx("write_sheet(doc, None, out)", globals(), {"write_sheet": write_sheet, "doc": doc,
                                                                      "out": tmp / "p.pdf"}, str(tmp / "prof"))
         pstats.Stats(str(tmp / "prof")).sort_stats("cumtime").print_stats(30)
@@ -144,7 +145,7 @@ def main(argv=None):
     rows = []
     for n in a.sizes:
         proj = tmp / f"chain_{n}.json"
-        proj.write_text(json.dumps(chain_document(n), indent=1), encoding="utf-8")
+        proj.write_text(json.dumps(chain_document(n, a.with_response), indent=1), encoding="utf-8")
         sheet = tmp / f"chain_{n}.pdf"
         rep = median_of([py, "-m", "app", "report", str(proj), "-o", str(sheet)], a.repeats)
         chk = median_of([py, "-m", "app", "check", str(proj)], a.repeats)
@@ -154,7 +155,7 @@ def main(argv=None):
         rows.append((n, rep, chk, ref, pages))
     print(f"review sheet benchmark — {datetime.date.today()}, {platform.processor() or platform.machine()}, "
           f"{os.cpu_count()} CPUs, Python {platform.python_version()}; median of {a.repeats} runs, "
-          "whole process")
+          "whole process" + (", with forced response" if a.with_response else ""))
     print("wall s / CPU s; per disc in ms of wall time; 'sheet' = report - check (what the PDF adds)")
     head = (f"{'discs':>6} {'pages':>5} {'report':>13} {'check':>13} {'reference':>13} "
             f"{'report/disc':>11} {'sheet/disc':>10} {'ref/disc':>8} {'report/ref':>10}")
