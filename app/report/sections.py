@@ -123,14 +123,16 @@ class Ctx:
         return self.train.name_of(element_id)
 
     def cols(self, *spec) -> list[Column]:
-        """Columns from (title, width fraction, align, wrap) tuples; fractions scaled to the frame."""
+        """Columns from (title, width fraction[, align[, wrap[, max_lines]]]) tuples; fractions scaled
+        to the frame."""
         total = sum(s[1] for s in spec)
         out = []
         for s in spec:
             title, frac = s[0], s[1]
             align = s[2] if len(s) > 2 else "LEFT"
             wrap = s[3] if len(s) > 3 else align == "LEFT"
-            out.append(Column(title, frac / total * self.width, align, wrap))
+            max_lines = s[4] if len(s) > 4 else 4
+            out.append(Column(title, frac / total * self.width, align, wrap, max_lines))
         return out
 
 
@@ -311,7 +313,7 @@ def segments_text(link, units: Units, max_listed: int = 4) -> str:
     if len(segs) <= max_listed:
         return "\n".join(one(s) for s in segs)
     total = sum(s.length for s in segs)
-    return "\n".join([one(segs[0]), one(segs[1]), f"… {len(segs) - 3} more …", one(segs[-1]),
+    return "\n".join([one(segs[0]), f"… {len(segs) - 2} more …", one(segs[-1]),
                       f"{len(segs)} segments, {num(total * f)} long"])
 
 
@@ -337,9 +339,9 @@ def link_table(ctx: Ctx, links) -> LongTable:
     raw = {l.get("id"): l for l in ctx.doc.get("links", []) if isinstance(l, dict)}
     spec = [("Link (id)", 0.14), ("Kind", 0.085), ("From / to", 0.145),
             (f"Stiffness ({U.unit(u.STIFFNESS)})", 0.10, "RIGHT", True),
-            (f"Geometry: length × outer dia. / bore ({U.unit(u.LENGTH)})", 0.15, "LEFT", True),
+            (f"Geometry: length × outer dia. / bore ({U.unit(u.LENGTH)})", 0.15, "LEFT", True, 6),
             ("Material, mass model", 0.095), ("Speed ratio (output / input)", 0.07, "RIGHT"),
-            ("Damping as entered, limits", 0.21)]
+            ("Damping as entered, limits", 0.21, "LEFT", True, 8)]
     finite = [l.total_stiffness if not l.is_rigid else 0.0 for l in links]
     k_col = U.column(finite, u.STIFFNESS)
     rows = []
