@@ -189,21 +189,35 @@ def _detailed(pl, train, width: float) -> list[Drawing]:
             _symbol(d, l.kind, x + side * pitch * 0.42, y)
             _ground(d, xg, y, side)
         # disc blocks and their labels
-        for i, x_id in enumerate(sorted(in_band, key=lambda v: (pl.column[v], rows_of[v]))):
+        inertia = {disc.id: disc.inertia for disc in train.discs}
+        taken: list[tuple[float, float, float, float]] = []
+        for x_id in sorted(in_band, key=lambda v: (pl.column[v], rows_of[v])):
             c, r = pl.column[x_id], rows_of[x_id]
             h = heights[x_id]
             x, y = X(c), Y(r)
             d.add(Rect(x - bw / 2, y - h / 2, bw, h, fillColor=DISC_FILL, strokeColor=DISC_EDGE,
-                       strokeWidth=0.7, strokeDashArray=(1.5, 1.5) if train.disc(x_id).inertia <= 0 else None))
-            # a label wider than the pitch alternates below and above, so neighbours never touch
-            name = train.name_of(x_id)
-            wide = text_width(name, 5.6) > pitch - 4
-            label = fit_text(name, 2 * pitch - 8 if wide else pitch - 3, 5.6)
-            below = not wide or c % 2 == 0
-            ly = y - H_MAX / 2 - 7 if below else y + H_MAX / 2 + 2.5
-            d.add(String(x, ly, label, fontName=FONT, fontSize=5.6, fillColor=INK, textAnchor="middle"))
+                       strokeWidth=0.7, strokeDashArray=(1.5, 1.5) if inertia[x_id] <= 0 else None))
+            _disc_label(d, train.name_of(x_id), x, y, pitch, width, taken)
         drawings.append(d)
     return drawings
+
+
+def _disc_label(d: Drawing, name: str, x: float, y: float, pitch: float, width: float, taken: list):
+    """The disc's name below its block, else above, else shortened: the first
+    place that touches no label already drawn (greedy, left to right)."""
+    size = 5.6
+    below, above = y - H_MAX / 2 - 7, y + H_MAX / 2 + 2.5
+    full_w = min(2 * pitch - 6, 150.0)
+    options = [(fit_text(name, full_w, size), below), (fit_text(name, full_w, size), above),
+               (fit_text(name, pitch - 3, size), below), (fit_text(name, pitch - 3, size), above)]
+    for text, ly in options:
+        w = text_width(text, size)
+        x0 = min(max(x - w / 2, 1.0), width - w - 1.0)
+        box = (x0 - 1.5, ly - 1.5, x0 + w + 1.5, ly + size)
+        if all(box[2] <= b[0] or box[0] >= b[2] or box[3] <= b[1] or box[1] >= b[3] for b in taken):
+            taken.append(box)
+            d.add(String(x0, ly, text, fontName=FONT, fontSize=size, fillColor=INK))
+            return
 
 
 def legend_drawing(width: float) -> Drawing:

@@ -65,12 +65,18 @@ def text_width(text: str, font: str = FONT, size: float = SIZE) -> float:
 
 
 def _break_word(word: str, width: float, font: str, size: float) -> list[str]:
-    """A word wider than ``width`` cut into pieces that fit."""
+    """A word wider than ``width`` cut into pieces that fit, after an underscore,
+    hyphen or slash where one allows ('intermediate_' / 'shaft'), else anywhere."""
     out, cur = [], ""
     for ch in word:
         if cur and text_width(cur + ch, font, size) > width:
-            out.append(cur)
-            cur = ch
+            cut = max(cur.rfind("_"), cur.rfind("-"), cur.rfind("/"))
+            if cut > 0:
+                out.append(cur[:cut + 1])
+                cur = cur[cut + 1:] + ch
+            else:
+                out.append(cur)
+                cur = ch
         else:
             cur += ch
     out.append(cur)
