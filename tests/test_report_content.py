@@ -207,12 +207,12 @@ def test_reader_items_on_the_sample_sheets(sample_sheets):
     assert "Booster pump A" in twin.split("Coincidences, worst first")[1]  # the disc, by name
     engine = sample_sheets["engine_genset", "SI"]
     # damping as entered (psi) with its loss factor; amplitudes, phases, firing angles and the throws
-    assert "relative damping psi = 1" in engine and "eta = psi/2π = 0.159" in engine
+    assert "psi = 1 (eta = 0.159)" in engine  # entered psi, eta = psi / 2 pi
     assert "Firing angle (deg)" in engine and "600" in engine and "Crank throw 4" in engine
     assert "0.33" in engine and "Phase (deg)" in engine  # 330 N*m in kN*m, its phase column
     assert "Modes above the screening limit" in engine and "no: above the screening limit" in engine
     propulsion = sample_sheets["propulsion_line", "SI"]
-    assert "relative damping psi = 1.1" in propulsion and "with speed², given at 200 rpm" in propulsion
+    assert "psi = 1.1 (eta = 0.175)" in propulsion and "with speed², given at 200 rpm" in propulsion
 
 
 def test_dynamic_magnifier_and_loss_factor_shown_as_entered(tmp_path):
@@ -220,11 +220,11 @@ def test_dynamic_magnifier_and_loss_factor_shown_as_entered(tmp_path):
     out = tmp_path / "d.pdf"
     write_sheet(doc, None, out)
     text = sheet_text(out)
-    assert "dynamic magnifier M = 8" in text and "loss factor eta = 1/M = 0.125" in text
+    assert "M = 8 (eta = 0.125)" in text  # eta = 1 / M
     doc["links"][1].pop("dynamic_magnifier")
     doc["links"][1]["loss_factor"] = 0.05
     write_sheet(doc, None, out)
-    assert "loss factor eta = 0.05" in sheet_text(out)
+    assert "eta = 0.05 (psi = 0.314)" in sheet_text(out)  # psi = 2 pi eta
 
 
 @pytest.mark.parametrize("stem", sorted(SAMPLE))

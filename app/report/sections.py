@@ -167,20 +167,20 @@ def entered_number(raw, fallback: float) -> float:
 
 
 def damping_as_entered(raw: dict, link, units: Units) -> list[str]:
-    """The link's damping in the user's own terms, with the loss-factor equivalent."""
+    """The link's damping in the user's own terms (psi = relative damping, M = dynamic
+    magnifier, eta = loss factor), with its loss-factor or psi equivalent."""
     out = []
     eta = link.loss_factor
     if raw.get("relative_damping") is not None:
         psi = entered_number(raw["relative_damping"], eta * TWO_PI)
-        out.append(f"relative damping psi = {psi:g} (loss factor eta = psi/2π = {eta:.3g})")
+        out.append(f"psi = {psi:g} (eta = {eta:.3g})")
     elif raw.get("dynamic_magnifier") is not None:
         mag = entered_number(raw["dynamic_magnifier"], 1.0 / eta if eta else math.inf)
-        out.append(f"dynamic magnifier M = {mag:g} (loss factor eta = 1/M = {eta:.3g})")
+        out.append(f"M = {mag:g} (eta = {eta:.3g})")
     elif raw.get("loss_factor") is not None and eta:
-        out.append(f"loss factor eta = {entered_number(raw['loss_factor'], eta):g} "
-                   f"(relative damping psi = 2π eta = {eta * TWO_PI:.3g})")
+        out.append(f"eta = {entered_number(raw['loss_factor'], eta):g} (psi = {eta * TWO_PI:.3g})")
     if link.damping:
-        out.append(f"viscous c = {units.text(link.damping, u.DAMPING)}")
+        out.append(f"c = {units.text(link.damping, u.DAMPING)}")
     return out
 
 
@@ -352,15 +352,15 @@ def link_table(ctx: Ctx, links) -> LongTable:
             k_text = k_col[n] + ("\n(geometry)" if l.stiffness is None else "")
         extras = damping_as_entered(raw.get(l.id, {}), l, U)
         if l.stress_concentration != 1.0:
-            extras.append(f"stress concentration factor {l.stress_concentration:g}")
+            extras.append(f"SCF {l.stress_concentration:g}")
         if l.permissible_torque is not None:
-            extras.append(f"permissible torque {U.text(l.permissible_torque, u.TORQUE)}")
+            extras.append(f"perm. torque {U.text(l.permissible_torque, u.TORQUE)}")
         if l.permissible_stress is not None:
-            extras.append(f"permissible stress {U.text(l.permissible_stress, u.STRESS)}")
+            extras.append(f"perm. stress {U.text(l.permissible_stress, u.STRESS)}")
         label = f"{l.name} ({l.id})" if l.name and l.name != l.id else l.id
         material = ", ".join(x for x in ((l.material.name if l.material else ""),
                                          (l.mass if l.kind == "shaft" and l.has_geometry else "")) if x) or "—"
-        rows.append([label, KINDS[l.kind], f"{ctx.name(l.from_id)}\nto {ctx.name(l.to_id)}", k_text,
+        rows.append([label, KINDS[l.kind], f"{ctx.name(l.from_id)} to {ctx.name(l.to_id)}", k_text,
                      segments_text(l, U), material, f"{l.speed_ratio:g}" if l.kind == "gear_mesh" else "—",
                      "\n".join(extras) or "—"])
     return table(ctx.cols(*spec), rows)
@@ -377,10 +377,10 @@ def model_notes(ctx: Ctx) -> list:
         out.append(Paragraph(f"Materials — {txt}.", st["note"]))
     out.append(Paragraph(
         "Speed ratio (output / input) = speed of the 'to' disc (output) / speed of the 'from' disc (input) of a "
-        "gear mesh. Stiffness and inertia are as given for each element on its own shaft (not referred). "
-        "Damping is shown as entered (relative damping psi, dynamic magnifier M or loss factor eta) with its "
-        "loss-factor equivalent; mass model of a shaft with geometry: none (massless spring), lumped or "
-        "distributed.", st["note"]))
+        "gear mesh. SCF = stress concentration factor; perm. = permissible vibratory amplitude. Stiffness and inertia are as given for each element on its own shaft (not referred). "
+        "Damping as entered: psi = relative damping (coupling catalogues), M = dynamic magnifier, eta = loss "
+        "factor, with the equivalent in brackets (eta = psi / 2π = 1 / M); c = viscous damping. Mass model of a "
+        "shaft with geometry: none (massless spring), lumped or distributed.", st["note"]))
     return out
 
 
