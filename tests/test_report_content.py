@@ -345,3 +345,19 @@ def test_sheet_data_keeps_the_command_lines_verdict(tmp_path):
     assert squash(wording.separation_verdict(data.screening, nbsp="\u00a0")) in sheet_text(out)
     assert not math.isnan(data.screening.cap_hz)
     json.dumps(data.doc)  # the document the sheet hashes is plain JSON
+
+
+def test_huge_names_and_texts_still_lay_out(tmp_path):
+    # names without a length limit are legal: every one is cut or wrapped, none breaks the layout
+    doc = named_doc()
+    long = "Very long name " * 400
+    doc["title"] = long
+    doc["description"] = long * 5
+    doc["discs"][0]["name"] = long
+    doc["links"][1]["name"] = long
+    doc["excitations"][0]["name"] = long
+    doc["operating_speed"]["name"] = long
+    doc["operating_speed"]["min"] = "1400 rpm"  # motor 2x crosses a mode in range: a long verdict
+    out = tmp_path / "long_names.pdf"
+    write_sheet(doc, None, out)
+    assert len(PdfReader(str(out)).pages) >= 3

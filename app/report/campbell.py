@@ -25,7 +25,7 @@ from reportlab.graphics.shapes import Circle, Drawing, Line, Rect, String
 from reportlab.lib import colors
 
 from .. import formatting as fmt
-from .charts import BAND_FILL, RANGE_EDGE, RANGE_FILL, Plot, drawing, source_colours
+from .charts import BAND_FILL, RANGE_EDGE, RANGE_FILL, Plot, drawing, fit_text, source_colours
 from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PASS_INK
 from .tables import text_width, wrap_text
 
@@ -124,14 +124,14 @@ def panel_tops(screening) -> list[float]:
 def _source_text(train, source: str, lines) -> str:
     mine = [l for l in lines if l.source == source]
     if mine and mine[0].order is None:
-        return f"{source}: {mine[0].fixed_hz:g} Hz, fixed frequency"
+        return f"{source[:200]}: {mine[0].fixed_hz:g} Hz, fixed frequency"
     orders = [l.order for l in mine]
     if len(orders) > 10:
         text = f"orders {fmt.order(min(orders))}–{fmt.order(max(orders))} ({len(orders)} orders)"
     else:
         text = ("order " if len(orders) == 1 else "orders ") + ", ".join(fmt.order(o) for o in orders)
     at = mine[0].at if mine else None
-    return f"{source}: {text}" + (f" at '{train.name_of(at)}'" if at else "")
+    return f"{source[:200]}: {text}" + (f" at '{train.name_of(at)[:200]}'" if at else "")
 
 
 def legend_items(s, above_drawn: bool) -> list[tuple]:
@@ -152,10 +152,10 @@ def legend_items(s, above_drawn: bool) -> list[tuple]:
     if above_drawn:
         items.append(("line", ABOVE_INK, (1, 1.5), "natural frequency above the screening limit (not screened)"))
     if s.speed_min == s.speed_max:
-        items.append(("line", RANGE_EDGE, None, f"{op.range_name} ({fmt.rpm(s.speed_min)} rpm)"))
+        items.append(("line", RANGE_EDGE, None, f"{op.range_name[:200]} ({fmt.rpm(s.speed_min)} rpm)"))
     else:
         items.append(("fill", RANGE_FILL, None,
-                      f"{op.range_name} ({fmt.rpm(s.speed_min)}–{fmt.rpm(s.speed_max)} rpm)"))
+                      f"{op.range_name[:200]} ({fmt.rpm(s.speed_min)}–{fmt.rpm(s.speed_max)} rpm)"))
     if op.trip_speed:
         items.append(("line", RANGE_EDGE, (1.5, 1.5), f"trip speed ({fmt.rpm(op.trip_speed)} rpm)"))
     items.append(("dot_fill", FAIL_INK, None, "coincidence inside the margin (fails)"))
@@ -247,7 +247,7 @@ def campbell_drawing(screening, width: float, plot_height: float, y_max_hz: floa
     height = top_pad + plot_height + bottom + legend_h + legend_gap
     d = drawing(width, height)
     y0 = bottom + legend_h + legend_gap
-    ref = train.name_of(op.reference)
+    ref = fit_text(train.name_of(op.reference), plot_w - 150, 7)
     p = Plot(d, left, y0, plot_w, plot_height, (0.0, x_max), (0.0, y_max_hz),
              x_title=f"speed of the reference shaft, '{ref}' (rpm)", y_title="frequency (Hz)")
     if title:

@@ -29,11 +29,19 @@ def text_width(text: str, size: float, font: str = FONT) -> float:
 
 def fit_text(text: str, width: float, size: float, font: str = FONT) -> str:
     """``text`` shortened with an ellipsis so that it fits ``width`` points."""
+    # no glyph is narrower than a quarter of the size: longer text cannot fit (and a hostile
+    # 100 000-character name must not cost a measure per character dropped)
+    text = text[:int(max(width, 0.0) / (0.25 * size)) + 2]
     if text_width(text, size, font) <= width:
         return text
-    while text and text_width(text + "…", size, font) > width:
-        text = text[:-1]
-    return text + "…"
+    lo, hi = 0, len(text)  # the longest prefix that fits with the ellipsis, by bisection
+    while lo < hi:
+        mid = (lo + hi + 1) // 2
+        if text_width(text[:mid] + "…", size, font) <= width:
+            lo = mid
+        else:
+            hi = mid - 1
+    return text[:lo] + "…"
 
 
 def drawing(width: float, height: float) -> Drawing:

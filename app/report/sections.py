@@ -237,13 +237,13 @@ def verdict_block(ctx: Ctx):
         lines.append("Only the natural frequencies and mode shapes are reported.")
     else:
         op = train.operating
-        head = "Separation: " + wording.separation_verdict(s, nbsp="\u00a0")
+        head = "Separation: " + clip(wording.separation_verdict(s, nbsp="\u00a0"), 600)
         fill, ink = (PASS_FILL, PASS_INK) if s.passed else (FAIL_FILL, FAIL_INK)
         rng = (f"{fmt.rpm(op.speed_min)} rpm" if op.speed_min == op.speed_max
                else f"{fmt.rpm(op.speed_min)}–{fmt.rpm(op.speed_max)} rpm")
         trip = f"; trip speed {fmt.rpm(op.trip_speed)} rpm" if op.trip_speed else ""
-        lines.append(f"<b>Operating range:</b> {escape(op.range_name)}, {rng} of the reference shaft "
-                     f"'{escape(ctx.name(op.reference))}'{trip}.")
+        lines.append(f"<b>Operating range:</b> {escape(clip(op.range_name, 200))}, {rng} of the reference shaft "
+                     f"'{escape(clip(ctx.name(op.reference), 200))}'{trip}.")
         lines.append(f"<b>Required separation margin:</b> {fmt.percent(s.margin)}\u00a0% between every natural "
                      f"frequency and every excitation frequency over the operating range.")
         n_el = int(np.sum(s.modes.elastic & (s.modes.frequency_hz <= s.cap_hz)))
@@ -261,7 +261,7 @@ def verdict_block(ctx: Ctx):
             worst = data.response_exceedances[0]
             lines.append(f"<b>Forced response:</b> <font color='{FAIL_INK.hexval()}'>FAIL</font> — {n_ex} "
                          f"exceedance{'s' if n_ex > 1 else ''} of a permissible vibratory value (worst: "
-                         f"{escape(ctx.name(worst.link_id))}, {worst.quantity} at "
+                         f"{escape(clip(ctx.name(worst.link_id), 200))}, {worst.quantity} at "
                          f"{100 * worst.peak / worst.permissible:.0f}\u00a0% of permissible).")
         elif checked:
             lines.append(f"<b>Forced response:</b> PASS — the peak vibratory torque and stress stay within "
