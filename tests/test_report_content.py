@@ -130,11 +130,11 @@ def test_us_sheet_of_every_sample_has_no_si_unit(stem, sample_sheets):
     assert "lb·ft²" in text
 
 
-def test_a_2000_disc_sheet_converts_by_column_not_by_cell(tmp_path, monkeypatch):
+def test_a_long_sheet_converts_by_column_not_by_cell(tmp_path, monkeypatch):
     from core import units
     calls = []
     real = units.convert
-    doc = chain_doc(2000)
+    doc = chain_doc(500)  # 500 discs and links: thousands of cells
     data = compute(doc)
     monkeypatch.setattr(units, "convert", lambda *a, **k: calls.append(a) or real(*a, **k))
     from app.report.sheet import render
@@ -361,3 +361,20 @@ def test_huge_names_and_texts_still_lay_out(tmp_path):
     out = tmp_path / "long_names.pdf"
     write_sheet(doc, None, out)
     assert len(PdfReader(str(out)).pages) >= 3
+
+
+def test_mode_shape_envelope_keeps_the_extremes():
+    import numpy as np
+    x = np.linspace(0.0, 160.0, 20_001)
+    y = np.sin(x / 7.0) + 0.3 * np.sin(x * 3.1)
+    px, py = charts.envelope(x, y)
+    assert len(px) < 1000  # thinned to what 160 points of width can show
+    assert py.max() == y.max() and py.min() == y.min()
+    # every original vertex lies inside the band drawn at its half-point bin
+    bins = np.floor(x * 2.0).astype(int)
+    for b in (0, 77, 200, 319):
+        sel = y[bins == b]
+        k = 2 * b
+        assert py[k] == sel.min() and py[k + 1] == sel.max()
+    short = np.linspace(0.0, 160.0, 50)
+    assert charts.envelope(short, np.sin(short))[0] is short

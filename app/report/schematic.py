@@ -76,12 +76,13 @@ def _arrow(d: Drawing, x: float, y: float):
     d.add(Polygon([x - 5, y - 3.2, x, y, x - 5, y + 3.2], fillColor=GREY, strokeColor=GREY, strokeWidth=0.3))
 
 
-def schematic_drawings(doc: dict, train, width: float, frame_h: float = 760.0) -> tuple[list[Drawing], str]:
+def schematic_drawings(doc: dict, train, width: float, frame_h: float = 760.0,
+                       placement=None) -> tuple[list[Drawing], str]:
     """(drawings, note): one drawing per band of columns, together the whole
     train; a train too long or too wide for that (more than
     :data:`MAX_DETAIL_COLUMNS` columns, or rows taller than a few pages) gets
     one overview drawing instead, and the note says so."""
-    pl = place_document(doc)
+    pl = placement or place_document(doc)
     n_cols = max(pl.n_columns, 1)
     if n_cols > MAX_DETAIL_COLUMNS or pl.n_rows * ROW_H > 2.5 * frame_h:
         return [overview_drawing(pl, train, width, frame_h)], (

@@ -119,6 +119,14 @@ class Ctx:
     def doc(self) -> dict:
         return self.data.doc
 
+    @property
+    def placement(self):
+        """Where each disc sits on the schematic (computed once per sheet)."""
+        if "_placement" not in self.__dict__:
+            from ..schematic_layout import place_document
+            self.__dict__["_placement"] = place_document(self.doc)
+        return self.__dict__["_placement"]
+
     def name(self, element_id) -> str:
         return self.train.name_of(element_id)
 
@@ -291,7 +299,7 @@ def verdict_block(ctx: Ctx):
 def schematic_block(ctx: Ctx):
     st = styles()
     out = [Paragraph("Train schematic", st["h1"])]
-    dwgs, note = schematic_drawings(ctx.doc, ctx.train, ctx.width, ctx.frame_h)
+    dwgs, note = schematic_drawings(ctx.doc, ctx.train, ctx.width, ctx.frame_h, ctx.placement)
     for dwg in dwgs:
         out.append(fit_frame(dwg, ctx.width, ctx.frame_h))
     out.append(legend_drawing(ctx.width))
@@ -464,9 +472,10 @@ def model_summary(ctx: Ctx) -> list:
         why.setdefault(l.id, []).append("coupling" if l.kind == "coupling" else
                                         "gear mesh" if l.kind == "gear_mesh" else "link to ground")
     m = ctx.study.modes
-    for i in np.flatnonzero(m.elastic)[:12]:
-        dom = m.dominant_link(int(i))
-        if dom:
+    if links:
+        link_ids = train.link_ids
+        for i in np.flatnonzero(m.elastic)[:12]:
+            dom = link_ids[int(np.argmax(m.strain_share[i]))]
             why.setdefault(dom, []).append(f"largest strain energy of mode {int(m.number[i])}")
     disc_by_id = {d.id: d for d in discs}
     link_by_id = {l.id: l for l in links}
@@ -479,7 +488,7 @@ def model_summary(ctx: Ctx) -> list:
             l = link_by_id[eid]
             value = "rigid" if l.is_rigid else U.text(l.total_stiffness, u.STIFFNESS)
             if l.kind == "gear_mesh":
-                value += f", ratio {l.speed_ratio:g}"
+                value += f", speed ratio (output / input) {l.speed_ratio:g}"
             rows.append([l.label, l.id, KINDS[l.kind], value, "; ".join(dict.fromkeys(reasons))])
     if rows:
         out.append(Paragraph("Elements that carry the results", st["h2"]))
@@ -556,17 +565,21 @@ def frequency_block(ctx: Ctx):
     if s is not None:
         spec.append(("Screened", 0.21))
     rows, cells = [], {}
-    strain_max = m.strain_share.max(axis=1) if m.strain_share.size else np.zeros(len(m))
+    # dominant elements by one argmax per table (Modes.dominant_* rebuild the id lists per call)
+    link_ids, disc_ids = ctx.train.link_ids, ctx.train.disc_ids
+    has_links = bool(m.strain_share.size)
+    strain_arg = m.strain_share.argmax(axis=1) if has_links else np.zeros(len(m), int)
+    strain_max = m.strain_share.max(axis=1) if has_links else np.zeros(len(m))
+    kin_arg = m.kinetic_share.argmax(axis=1)
     kin_max = m.kinetic_share.max(axis=1)
     for i in range(len(m)):
         f = float(m.frequency_hz[i])
         if m.rigid_body[i]:
             dom = "rigid-body mode"
         else:
-            li = m.dominant_link(i)
-            dom = fmt.share(ctx.name(li), float(strain_max[i])) if li else "—"
+            dom = fmt.share(ctx.name(link_ids[strain_arg[i]]), float(strain_max[i])) if has_links else "—"
         r = [str(int(m.number[i])), fmt.hz(f), fmt.cpm(f), dom,
-             fmt.share(ctx.name(m.dominant_disc(i)), float(kin_max[i]))]
+             fmt.share(ctx.name(disc_ids[kin_arg[i]]), float(kin_max[i]))]
         if s is not None:
             if m.rigid_body[i]:
                 r.append("—")
@@ -592,8 +605,7 @@ def frequency_block(ctx: Ctx):
 def mode_shape_block(ctx: Ctx):
     st = styles()
     m = ctx.study.modes
-    from ..schematic_layout import place_document
-    pl = place_document(ctx.doc)
+    pl = ctx.placement
     elastic = [i for i in range(len(m)) if m.elastic[i]][:N_SHAPE_PLOTS]
     if not elastic:
         return []
