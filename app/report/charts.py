@@ -15,7 +15,7 @@ from reportlab.graphics.shapes import Circle, Drawing, Line, PolyLine, Rect, Str
 from reportlab.lib import colors
 
 from .. import formatting as fmt
-from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PALETTE, PASS_INK, RULE
+from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PALETTE, RULE
 
 BAND_FILL = colors.Color(0.55, 0.55, 0.55, alpha=0.18)
 RANGE_FILL = colors.Color(0.25, 0.5, 0.85, alpha=0.14)
@@ -29,11 +29,19 @@ def text_width(text: str, size: float, font: str = FONT) -> float:
 
 def fit_text(text: str, width: float, size: float, font: str = FONT) -> str:
     """``text`` shortened with an ellipsis so that it fits ``width`` points."""
+    # no glyph is narrower than a quarter of the size: longer text cannot fit (and a hostile
+    # 100 000-character name must not cost a measure per character dropped)
+    text = text[:int(max(width, 0.0) / (0.25 * size)) + 2]
     if text_width(text, size, font) <= width:
         return text
-    while text and text_width(text + "…", size, font) > width:
-        text = text[:-1]
-    return text + "…"
+    lo, hi = 0, len(text)  # the longest prefix that fits with the ellipsis, by bisection
+    while lo < hi:
+        mid = (lo + hi + 1) // 2
+        if text_width(text[:mid] + "…", size, font) <= width:
+            lo = mid
+        else:
+            hi = mid - 1
+    return text[:lo] + "…"
 
 
 def drawing(width: float, height: float) -> Drawing:
@@ -136,30 +144,6 @@ class Plot:
                           textAnchor=anchor))
 
 
-def _legend(d: Drawing, x0: float, y_top: float, width: float, items, size=6.5) -> float:
-    """Items (kind, colour, text) laid out in columns below a plot; returns the y used down to."""
-    col_w = width / 2 if width > 300 else width
-    n_cols = max(1, int(width // col_w))
-    row_h = size + 3.5
-    for k, (kind, color, dash, text) in enumerate(items):
-        c, r = k % n_cols, k // n_cols
-        x, y = x0 + c * col_w, y_top - (r + 1) * row_h
-        if kind == "line":
-            d.add(Line(x, y + size * 0.35, x + 16, y + size * 0.35, strokeColor=color, strokeWidth=1.1,
-                       strokeDashArray=dash))
-        elif kind == "fill":
-            d.add(Rect(x, y - 0.5, 16, size, fillColor=color, strokeColor=None, strokeWidth=0))
-        elif kind == "dot_fill":
-            d.add(Circle(x + 8, y + size * 0.35, 2.6, fillColor=color, strokeColor=color, strokeWidth=0.8))
-        elif kind == "dot_open":
-            d.add(Circle(x + 8, y + size * 0.35, 2.6, fillColor=colors.white, strokeColor=color,
-                         strokeWidth=0.9))
-        d.add(String(x + 21, y, fit_text(text, col_w - 26, size), fontName=FONT, fontSize=size,
-                     fillColor=INK))
-    rows = math.ceil(len(items) / n_cols)
-    return y_top - rows * row_h
-
-
 # ----------------------------------------------------------------- Campbell
 def merged_intervals(intervals):
     """Union of (lo, hi) intervals as a sorted list of disjoint intervals."""
@@ -180,130 +164,46 @@ def source_colours(lines) -> dict:
     return {n: PALETTE[i % len(PALETTE)] for i, n in enumerate(names)}
 
 
-def campbell_drawing(screening, width: float, plot_height: float = 300.0,
-                     y_max_hz: float | None = None, title: str | None = None,
-                     with_legend: bool = True) -> Drawing:
-    """Interference diagram: reference rpm on x, Hz on y.
-
-    Natural frequencies as horizontal lines with their margin band (the
-    excitation frequencies f_e that fall within the required separation m of
-    f_n: f_n / (1 + m) < f_e < f_n / (1 - m)); excitation orders as rays from
-    the origin, fixed frequencies dashed; operating range shaded; coincidences
-    inside twice the margin marked at their crossing speed.
-    """
-    s = screening
-    op = s.train.operating
-    lines = s.lines
-    m = s.margin
-    rpm_top = fmt.rad_s_to_rpm(max(s.speed_max, op.trip_speed or 0.0))
-    x_max = rpm_top * 1.12
-    modes = s.modes
-    nat = [(int(modes.number[i]), float(modes.frequency_hz[i])) for i in range(len(modes))
-           if modes.elastic[i] and modes.frequency_hz[i] <= s.cap_hz]
-    if y_max_hz is None:
-        y_max_hz = s.cap_hz if s.cap_hz > 0 else (max((f for _, f in nat), default=1.0) * 1.2)
-    colour = source_colours(lines)
-    # legend first, to know the drawing's height
-    legend = []
-    for name, c in colour.items():
-        kinds = [l for l in lines if l.source == name]
-        dash = (3, 2) if kinds and kinds[0].order is None else None
-        legend.append(("line", c, dash, name))
-    legend += [("line", GREY, None, "natural frequency (mode number at left)"),
-               ("fill", BAND_FILL, None, f"separation margin band (±{fmt.percent(m)}\u00a0%)"),
-               ("line", RANGE_EDGE, None, op.range_name) if s.speed_min == s.speed_max
-               else ("fill", RANGE_FILL, None, op.range_name),
-               ("dot_fill", FAIL_INK, None, "coincidence inside the margin (fail)"),
-               ("dot_open", PASS_INK, None, "crossing outside the range, margin met (pass)")]
-    if op.trip_speed:
-        legend.append(("line", RANGE_EDGE, (1.5, 1.5), "trip speed"))
-    n_cols = 2 if width > 300 else 1
-    if not with_legend:
-        legend = []
-    legend_h = math.ceil(len(legend) / n_cols) * 10.0 + 4
-    top_pad, left, right, bottom = (14 if title else 4) + 12, 44, 30, 30
-    height = top_pad + plot_height + bottom + legend_h
-    d = drawing(width, height)
-    p = Plot(d, left, bottom + legend_h, width - left - right, plot_height, (0.0, x_max), (0.0, y_max_hz),
-             x_title=f"speed of the reference shaft '{op.reference}' (rpm)", y_title="frequency (Hz)")
-    if title:
-        d.add(String(left, height - 11, title, fontName=BOLD, fontSize=8, fillColor=INK))
-    # filled areas under the grid
-    p.vband(fmt.rad_s_to_rpm(s.speed_min), fmt.rad_s_to_rpm(s.speed_max), RANGE_FILL, RANGE_EDGE)
-    for lo, hi in merged_intervals([(f / (1 + m), f / (1 - m) if m < 1 else y_max_hz) for _, f in nat]):
-        p.hband(lo, hi, BAND_FILL)  # merged, so that overlapping bands do not darken each other
-    p.draw_axes()
-    if op.trip_speed:
-        xt = fmt.rad_s_to_rpm(op.trip_speed)
-        d.add(Line(p.sx(xt), p.y0, p.sx(xt), p.y0 + p.h, strokeColor=RANGE_EDGE, strokeWidth=0.7,
-                   strokeDashArray=(1.5, 1.5)))
-        p.text(p.sx(xt), p.y0 + p.h + 2, "trip", size=6, color=RANGE_EDGE, anchor="middle")
-    # natural frequencies, labelled at the left inside edge when there is room
-    last_label_y = -1e9
-    for num, f in nat:
-        p.hline(f, GREY, 0.7)
-        y = p.sy(f)
-        if y - last_label_y >= 7.5 and y + 6 < p.y0 + p.h:
-            p.text(p.x0 + 2, y + 1.2, f"{num}", size=6, color=INK)
-            last_label_y = y
-    # excitation lines and their labels outside the box (top or right edge)
-    taken: list[tuple[str, float]] = []
-    for line in lines:
-        c = colour[line.source]
-        if line.order is None:
-            p.hline(line.fixed_hz, c, 0.9, dash=(3, 2))
-            if line.fixed_hz <= y_max_hz:
-                p.text(p.x0 + p.w - 2, p.sy(line.fixed_hz) + 1.5, f"{line.fixed_hz:g} Hz", size=5.5,
-                       color=c, anchor="end")
-            continue
-        slope_rpm = line.slope * fmt.TWO_PI / 60.0  # Hz per rpm
-        x_end = min(x_max, y_max_hz / slope_rpm)
-        y_end = slope_rpm * x_end
-        d.add(Line(p.sx(0), p.sy(0), p.sx(x_end), p.sy(y_end), strokeColor=c, strokeWidth=0.8))
-        label = f"{fmt.order(line.order)}×"
-        if x_end < x_max * 0.999:  # leaves through the top
-            edge, pos = "top", p.sx(x_end)
-        else:
-            edge, pos = "right", p.sy(y_end)
-        # shift along the edge until clear of earlier labels
-        gap = 9.0 if edge == "right" else text_width(label, 6) + 3
-        for e, q in sorted(taken, key=lambda t: t[1]):
-            if e == edge and abs(q - pos) < gap:
-                pos = q + gap
-        taken.append((edge, pos))
-        if edge == "top":
-            p.text(pos, p.y0 + p.h + 3, label, size=6, color=c, anchor="middle")
-        else:
-            p.text(p.x0 + p.w + 3, pos - 2, label, size=6, color=c)
-    # coincidences at their crossing speed
-    for cn in s.coincidences:
-        if cn.crossing_speed is None:
-            continue
-        x = fmt.rad_s_to_rpm(cn.crossing_speed)
-        if not (0 <= x <= x_max and cn.frequency_hz <= y_max_hz):
-            continue
-        col = PASS_INK if cn.passed else FAIL_INK
-        d.add(Circle(p.sx(x), p.sy(cn.frequency_hz), 2.6, strokeColor=col, strokeWidth=0.9,
-                     fillColor=colors.white if cn.passed else col))
-    _legend(d, left, legend_h, width - left - right + 20, legend)
-    return d
-
-
 # ----------------------------------------------------------------- mode shapes
+def envelope(x: np.ndarray, y: np.ndarray, per_point: float = 2.0):
+    """A polyline thinned to what print can show: where more than ``per_point``
+    vertices share one point of width, the lowest and highest of them stand for
+    all (a vertical stroke, the same ink), so a 20 000-disc shape costs what a
+    few hundred do."""
+    if len(x) <= 2 * per_point * max(float(x[-1] - x[0]), 1.0):
+        return x, y
+    bins = np.floor((x - x[0]) * per_point).astype(np.int64)
+    starts = np.flatnonzero(np.r_[True, bins[1:] != bins[:-1]])
+    lo = np.minimum.reduceat(y, starts)
+    hi = np.maximum.reduceat(y, starts)
+    xb = x[starts]
+    return np.repeat(xb, 2), np.column_stack([lo, hi]).ravel()
+
+
 def mode_shape_drawing(modes, i: int, placement, width: float, height: float, links,
-                       label_discs: bool = True) -> Drawing:
+                       label_discs: bool = True, name_of=None, max_label: float = 58.0) -> Drawing:
     """Normalised twist angle of every disc against its schematic column.
 
-    Each link is drawn as a segment between its two discs, so a branch
-    (own row in the schematic, own colour here) shows as its own line.
+    Each link is drawn between its two discs, so a branch (own row in the
+    schematic, own colour here) shows as its own line; an unbranched train is
+    one polyline.  With few columns, the main line's disc names stand under
+    the axis, turned upright so that neighbours never collide, in the room
+    their longest name needs (cut at ``max_label`` points) so none is clipped.
     """
+    name_of = name_of or (lambda x: x)
     d = drawing(width, height)
     ids = list(modes.disc_ids)
     shape = modes.shape[i]
     col = np.array([placement.column.get(x, 0) for x in ids], float)
     row = np.array([placement.row.get(x, 0) for x in ids])
     n_cols = max(placement.n_columns, 1)
-    bottom = 30 if label_discs and n_cols <= 14 else 12
+    show_names = label_discs and n_cols <= 14
+    names = {}
+    if show_names:
+        names = {x: fit_text(name_of(x), max_label, 4.8) for k, x in enumerate(ids) if row[k] == 0}
+        bottom = 6 + max((text_width(t, 4.8) for t in names.values()), default=0.0)
+    else:
+        bottom = 8
     p = Plot(d, 22, bottom, width - 28, height - bottom - 24, (-0.5, n_cols - 0.5), (-1.15, 1.15),
              x_labels=False, grid=False, font_size=5.5)
     p.ya.valueStep = 1.0
@@ -313,34 +213,43 @@ def mode_shape_drawing(modes, i: int, placement, width: float, height: float, li
     p.hline(0.0, RULE, 0.5)
     f = float(modes.frequency_hz[i])
     title = f"Mode {int(modes.number[i])}: {fmt.hz(f)} Hz ({fmt.cpm(f)} cpm)"
-    d.add(String(p.x0, height - 9, title, fontName=BOLD, fontSize=7, fillColor=INK))
+    d.add(String(p.x0, height - 9, fit_text(title, width - p.x0, 7, BOLD), fontName=BOLD, fontSize=7,
+                 fillColor=INK))
     dom = modes.dominant_link(i)
     if dom:
-        text = "largest strain energy: " + fmt.share(dom, float(modes.strain_share[i].max()), "\u00a0")
-        d.add(String(p.x0, height - 17, fit_text(text, p.w, 6),
+        text = "largest strain energy: " + fmt.share(name_of(dom), float(modes.strain_share[i].max()), "\u00a0")
+        d.add(String(p.x0, height - 17, fit_text(text, width - p.x0, 6),
                      fontName=FONT, fontSize=6, fillColor=GREY))
     index = {x: k for k, x in enumerate(ids)}
-    for l in links:
-        if l.from_id in index and l.to_id in index:
-            a, b = index[l.from_id], index[l.to_id]
-            c = PALETTE[row[b] % len(PALETTE)]
-            p.d.add(Line(p.sx(col[a]), p.sy(shape[a]), p.sx(col[b]), p.sy(shape[b]), strokeColor=c,
-                         strokeWidth=0.9))
+    xs = np.array([p.sx(c) for c in col])
+    ys = np.array([p.sy(v) for v in shape])
+    branched = bool(np.any(row != 0))
+    chain = (not branched and len(ids) > 1 and
+             all(index.get(l.from_id, -9) + 1 == index.get(l.to_id, -9) or l.grounded for l in links))
+    if chain:  # one polyline along the discs in file order
+        order = np.argsort(col, kind="stable")
+        px, py = envelope(xs[order], ys[order])
+        pts = np.column_stack([px, py]).ravel().tolist()
+        d.add(PolyLine(pts, strokeColor=PALETTE[0], strokeWidth=0.9, strokeLineJoin=1))
+    else:
+        for l in links:
+            if l.from_id in index and l.to_id in index:
+                a, b = index[l.from_id], index[l.to_id]
+                c = PALETTE[row[b] % len(PALETTE)]
+                d.add(Line(xs[a], ys[a], xs[b], ys[b], strokeColor=c, strokeWidth=0.9))
     r = 1.6 if len(ids) <= 40 else 0.0
     if r:
         for k in range(len(ids)):
             c = PALETTE[row[k] % len(PALETTE)]
-            d.add(Circle(p.sx(col[k]), p.sy(shape[k]), r, fillColor=c, strokeColor=c, strokeWidth=0))
-    if label_discs and n_cols <= 14:
-        # main-line disc ids under the axis, rotated so that they never collide
+            d.add(Circle(xs[k], ys[k], r, fillColor=c, strokeColor=c, strokeWidth=0))
+    if show_names:
         from reportlab.graphics.shapes import Group
         for k, x in enumerate(ids):
-            if row[k] != 0:
+            if x not in names:
                 continue
-            g = Group(String(0, 0, fit_text(x, bottom * 1.1, 4.8), fontName=FONT, fontSize=4.8,
-                             fillColor=GREY, textAnchor="end"))
-            g.translate(p.sx(col[k]) + 1.7, p.y0 - 2)
-            g.rotate(60)
+            g = Group(String(0, 0, names[x], fontName=FONT, fontSize=4.8, fillColor=GREY, textAnchor="end"))
+            g.translate(xs[k] + 1.7, p.y0 - 2.5)
+            g.rotate(90)
             d.add(g)
     return d
 

@@ -18,11 +18,13 @@ from reportlab.lib import colors
 from ..schematic_layout import place_document
 from .charts import drawing, fit_text, text_width
 from .styles import FONT, GREY, INK, ITALIC
+from .tables import text_width as fast_width
 
 DISC_FILL = colors.HexColor("#c9d6e8")
 DISC_EDGE = colors.HexColor("#2b4a73")
 PITCH, MIN_PITCH = 60.0, 40.0
 ROW_H = 50.0
+MAX_DETAIL_COLUMNS = 240  # about two pages of bands; beyond, one overview drawing
 H_MIN, H_MAX = 7.0, 28.0
 
 
@@ -74,9 +76,25 @@ def _arrow(d: Drawing, x: float, y: float):
     d.add(Polygon([x - 5, y - 3.2, x, y, x - 5, y + 3.2], fillColor=GREY, strokeColor=GREY, strokeWidth=0.3))
 
 
-def schematic_drawings(doc: dict, train, width: float) -> list[Drawing]:
-    """One drawing per band of columns; together they show the whole train."""
-    pl = place_document(doc)
+def schematic_drawings(doc: dict, train, width: float, frame_h: float = 760.0,
+                       placement=None) -> tuple[list[Drawing], str]:
+    """(drawings, note): one drawing per band of columns, together the whole
+    train; a train too long or too wide for that (more than
+    :data:`MAX_DETAIL_COLUMNS` columns, or rows taller than a few pages) gets
+    one overview drawing instead, and the note says so."""
+    pl = placement or place_document(doc)
+    n_cols = max(pl.n_columns, 1)
+    if n_cols > MAX_DETAIL_COLUMNS or pl.n_rows * ROW_H > 2.5 * frame_h:
+        return [overview_drawing(pl, train, width, frame_h)], (
+            f"Overview: {len(train.discs)} discs in {n_cols} columns and {pl.n_rows} "
+            f"row{'s' if pl.n_rows != 1 else ''}, too many to draw one by one. Lines are shafts and links, "
+            "marks couplings and gear meshes; the ends of each line, the reference disc and the discs "
+            "where excitations act are named where there is room. Every element is listed in the model "
+            "tables.")
+    return _detailed(pl, train, width), ""
+
+
+def _detailed(pl, train, width: float) -> list[Drawing]:
     n_cols = max(pl.n_columns, 1)
     ground_left = any(side < 0 for _, _, side in pl.grounds)
     ground_right = any(side > 0 for _, _, side in pl.grounds)
@@ -157,8 +175,8 @@ def schematic_drawings(doc: dict, train, width: float) -> list[Drawing]:
                 0.5 * (max(x_start, X(cb) - pitch + bw / 2) + x_end)
             _symbol(d, l.kind, xm, y, rigid=l.is_rigid)
             gap = x_end - max(x_start, X(cb) - pitch + bw / 2)
-            label = fit_text(l.id, gap - 2, 5.0, ITALIC)
-            if gap > 18 and len(label) >= min(4, len(l.id)):
+            label = fit_text(l.label, gap - 2, 5.0, ITALIC)
+            if gap > 18 and len(label) >= min(4, len(l.label)):
                 d.add(String(xm, y + 7.5, label, fontName=ITALIC, fontSize=5.0, fillColor=GREY,
                              textAnchor="middle"))
         for lid, disc, side in pl.grounds:
@@ -172,20 +190,35 @@ def schematic_drawings(doc: dict, train, width: float) -> list[Drawing]:
             _symbol(d, l.kind, x + side * pitch * 0.42, y)
             _ground(d, xg, y, side)
         # disc blocks and their labels
-        for i, x_id in enumerate(sorted(in_band, key=lambda v: (pl.column[v], rows_of[v]))):
+        inertia = {disc.id: disc.inertia for disc in train.discs}
+        taken: list[tuple[float, float, float, float]] = []
+        for x_id in sorted(in_band, key=lambda v: (pl.column[v], rows_of[v])):
             c, r = pl.column[x_id], rows_of[x_id]
             h = heights[x_id]
             x, y = X(c), Y(r)
             d.add(Rect(x - bw / 2, y - h / 2, bw, h, fillColor=DISC_FILL, strokeColor=DISC_EDGE,
-                       strokeWidth=0.7, strokeDashArray=(1.5, 1.5) if train.disc(x_id).inertia <= 0 else None))
-            # a label wider than the pitch alternates below and above, so neighbours never touch
-            wide = text_width(x_id, 5.6) > pitch - 4
-            label = fit_text(x_id, 2 * pitch - 8 if wide else pitch - 3, 5.6)
-            below = not wide or c % 2 == 0
-            ly = y - H_MAX / 2 - 7 if below else y + H_MAX / 2 + 2.5
-            d.add(String(x, ly, label, fontName=FONT, fontSize=5.6, fillColor=INK, textAnchor="middle"))
+                       strokeWidth=0.7, strokeDashArray=(1.5, 1.5) if inertia[x_id] <= 0 else None))
+            _disc_label(d, train.name_of(x_id), x, y, pitch, width, taken)
         drawings.append(d)
     return drawings
+
+
+def _disc_label(d: Drawing, name: str, x: float, y: float, pitch: float, width: float, taken: list):
+    """The disc's name below its block, else above, else shortened: the first
+    place that touches no label already drawn (greedy, left to right)."""
+    size = 5.6
+    below, above = y - H_MAX / 2 - 7, y + H_MAX / 2 + 2.5
+    full_w = min(2 * pitch - 6, 150.0)
+    options = [(fit_text(name, full_w, size), below), (fit_text(name, full_w, size), above),
+               (fit_text(name, pitch - 3, size), below), (fit_text(name, pitch - 3, size), above)]
+    for text, ly in options:
+        w = text_width(text, size)
+        x0 = min(max(x - w / 2, 1.0), width - w - 1.0)
+        box = (x0 - 1.5, ly - 1.5, x0 + w + 1.5, ly + size)
+        if all(box[2] <= b[0] or box[0] >= b[2] or box[3] <= b[1] or box[1] >= b[3] for b in taken):
+            taken.append(box)
+            d.add(String(x0, ly, text, fontName=FONT, fontSize=size, fillColor=INK))
+            return
 
 
 def legend_drawing(width: float) -> Drawing:
@@ -212,4 +245,104 @@ def legend_drawing(width: float) -> Drawing:
     _ground(d, x + 4, y, 1)
     d.add(String(x + 12, y - 2, "ground", fontName=FONT, fontSize=6, fillColor=INK))
     del items
+    return d
+
+
+def overview_drawing(pl, train, width: float, frame_h: float) -> Drawing:
+    """The whole train in one drawing, columns and rows compressed to fit the frame.
+
+    Each row of the placement is one line (a row is a run of consecutive
+    columns); a branch drops from its parent disc.  Disc ticks appear when a
+    column is at least 2 points wide, coupling and mesh marks when there are
+    at most 400 of them.  Names go to the ends of each line, the reference
+    disc and the excitation discs, greedily in that order, wherever they do not
+    touch a name already placed.
+    """
+    n_cols = max(pl.n_columns, 1)
+    n_rows = max(pl.n_rows, 1)
+    margin = 16.0
+    pitch = (width - 2 * margin) / n_cols
+    row_h = min(30.0, max(3.0, frame_h * 0.7 / n_rows))
+    height = n_rows * row_h + 26
+    d = drawing(width, height)
+    top = height - 12
+
+    def X(col):
+        return margin + (col + 0.5) * pitch
+
+    def Y(row):
+        return top - (row + 0.5) * row_h
+
+    span: dict[int, list[int]] = {}
+    for disc, r in pl.row.items():
+        c = pl.column[disc]
+        lo_hi = span.setdefault(r, [c, c])
+        lo_hi[0], lo_hi[1] = min(lo_hi[0], c), max(lo_hi[1], c)
+    stroke = 1.4 if row_h >= 8 else 0.8
+    for r, (c0, c1) in span.items():
+        d.add(Line(X(c0), Y(r), X(c1), Y(r), strokeColor=INK, strokeWidth=stroke))
+    marks = [l for l in train.links if l.kind != "shaft" and not l.grounded]
+    for l in train.links:
+        if l.grounded:
+            continue
+        a, b = l.from_id, l.to_id
+        ra, rb = pl.row.get(a), pl.row.get(b)
+        if ra is None or rb is None or ra == rb:
+            continue
+        if pl.column[a] > pl.column[b]:
+            a, b, ra, rb = b, a, rb, ra
+        d.add(Line(X(pl.column[a]), Y(ra), X(pl.column[a]), Y(rb), strokeColor=INK, strokeWidth=0.6))
+        d.add(Line(X(pl.column[a]), Y(rb), X(pl.column[b]), Y(rb), strokeColor=INK, strokeWidth=stroke))
+    if pitch >= 2:
+        hh = min(row_h * 0.35, 8)
+        for disc, c in pl.column.items():
+            x, y = X(c), Y(pl.row[disc])
+            d.add(Line(x, y - hh, x, y + hh, strokeColor=DISC_EDGE, strokeWidth=min(1.2, pitch * 0.4)))
+    if len(marks) <= 400:
+        for l in marks:
+            if l.from_id not in pl.column or l.to_id not in pl.column:
+                continue
+            x = 0.5 * (X(pl.column[l.from_id]) + X(pl.column[l.to_id]))
+            y = Y(pl.row[l.to_id])
+            rr = min(2.6, row_h * 0.3)
+            if l.kind == "gear_mesh":
+                d.add(Circle(x, y, rr, fillColor=colors.white, strokeColor=INK, strokeWidth=0.6))
+            else:
+                d.add(Rect(x - 1, y - 2 * rr, 2, 4 * rr, fillColor=INK, strokeColor=None, strokeWidth=0))
+    for lid, disc, side in pl.grounds:
+        if disc in pl.column and row_h >= 8:
+            _ground(d, X(pl.column[disc]) + side * 6, Y(pl.row[disc]), side)
+    # names, most important first, where they do not touch an earlier one
+    wanted: list[str] = []
+    op = train.operating
+    by_row_ends = []
+    for r, (c0, c1) in sorted(span.items()):
+        ends = [x for x, c in pl.column.items() if pl.row[x] == r and c in (c0, c1)]
+        by_row_ends += sorted(ends, key=lambda x: pl.column[x])
+    if op is not None:
+        wanted.append(op.reference)
+        for e in op.excitations:
+            wanted += [x for x in [e.at or e.applied_at] + [c for c, _ in e.cylinders] if x]
+    wanted += by_row_ends
+    boxes: list[tuple[float, float, float, float]] = []
+    size = 5.6
+    for disc in dict.fromkeys(wanted):
+        if disc not in pl.column or len(boxes) > 60:
+            continue
+        text = fit_text(train.name_of(disc), 90, size)
+        w = fast_width(text, FONT, size)
+        x = min(max(X(pl.column[disc]) - w / 2, 2), width - w - 2)
+        for dy in (-(min(row_h * 0.35, 8) + size + 1), min(row_h * 0.35, 8) + 2):
+            y = Y(pl.row[disc]) + dy
+            box = (x - 1, y - 1.5, x + w + 1, y + size)
+            if y < 0 or y + size > height:
+                continue
+            if all(box[2] < b[0] or box[0] > b[2] or box[3] < b[1] or box[1] > b[3] for b in boxes):
+                boxes.append(box)
+                d.add(Line(X(pl.column[disc]), Y(pl.row[disc]), X(pl.column[disc]),
+                           y + (size if dy < 0 else -1), strokeColor=GREY, strokeWidth=0.3))
+                d.add(String(x, y, text, fontName=FONT, fontSize=size, fillColor=INK))
+                break
+    d.add(String(2, height - 8, f"overview of {n_cols} columns (1 at the left)", fontName=FONT, fontSize=6,
+                 fillColor=GREY))
     return d

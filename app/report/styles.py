@@ -62,6 +62,8 @@ def styles() -> dict[str, ParagraphStyle]:
                                  spaceAfter=1),
         "h1": ParagraphStyle("h1", parent=base, fontName=BOLD, fontSize=11, leading=14, spaceBefore=10,
                              spaceAfter=4, keepWithNext=1),
+        "h2": ParagraphStyle("h2", parent=base, fontName=BOLD, fontSize=9, leading=12, spaceBefore=6,
+                             spaceAfter=3, keepWithNext=1),
         "verdict": ParagraphStyle("verdict", parent=base, fontName=BOLD, fontSize=11, leading=14,
                                   spaceAfter=2),
     }

@@ -1,0 +1,861 @@
+"""The sections of the review sheet, each a function ``section(ctx) -> list of flowables``.
+
+:data:`SECTIONS` lists them in the order they print.  A section reads the
+study (``ctx.study``) and the document as the user wrote it (``ctx.doc``),
+formats numbers only through :mod:`app.formatting` and :class:`Units`, and
+returns ``[]`` when it has nothing to say (no operating data, no forced
+response, a study part that was not run).  Sections may add flowables to
+``ctx.appendix`` (printed at the end, after the method), which is how long
+trains keep a summary in the body and the full tables at the back.
+
+Adding a section for a new study part (design options, acceptance checks,
+transients): write ``def design_block(ctx)`` that returns ``[]`` when
+``ctx.study.design is None``, lay its tables out with :func:`table`
+(linear in the rows, header repeated) and its plots as drawings, then put
+its name in :data:`SECTIONS` where it should print.  Nothing else changes.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+from reportlab.platypus import (CondPageBreak, KeepInFrame, KeepTogether, PageBreak, Paragraph, Spacer, Table,
+                                TableStyle)
+
+from core import units as u
+from core.about import CAUTION, program_line
+
+from .. import formatting as fmt
+from .. import wording
+from . import campbell, charts
+from .schematic import legend_drawing, schematic_drawings
+from .styles import FAIL_FILL, FAIL_INK, FONT, GREY, INK, NEUTRAL_FILL, PASS_FILL, PASS_INK, escape, \
+    pretty_unit, styles
+from .tables import Column, LongTable, marked_styles, status_styles
+
+#: a train with more discs or links than this gets a summary in the body, the full tables in Appendix A
+BODY_ROWS = 60
+N_SHAPE_PLOTS = 6
+MAX_TEXT = 1500  # characters of a free text (description) printed in full
+KINDS = {"shaft": "shaft", "coupling": "coupling", "gear_mesh": "gear mesh"}
+TWO_PI = 2.0 * math.pi
+
+
+# ----------------------------------------------------------------- units and context
+class Units:
+    """Display units of one unit system; each value converted by one cached factor
+    (``core.units.convert(1.0, kind, unit)``: every display unit is a plain multiple)."""
+
+    def __init__(self, system: str):
+        self.system = system
+        self._factor: dict = {}
+
+    @property
+    def title(self) -> str:
+        return "SI" if self.system == "SI" else "US customary"
+
+    def factor(self, kind) -> float:
+        f = self._factor.get(kind.name)
+        if f is None:
+            f = self._factor[kind.name] = u.convert(1.0, kind, u.display_unit(kind, self.system))
+        return f
+
+    def unit(self, kind) -> str:
+        return pretty_unit(u.display_unit(kind, self.system))
+
+    def value(self, value_si: float | None, kind, digits: int = 4) -> str:
+        return "—" if value_si is None else num(value_si * self.factor(kind), digits)
+
+    def text(self, value_si: float | None, kind, digits: int = 4) -> str:
+        """The value with its unit, '12.5 kN·m'."""
+        return "—" if value_si is None else f"{self.value(value_si, kind, digits)}\u00a0{self.unit(kind)}"
+
+    def column(self, values_si, kind, digits: int = 4) -> list[str]:
+        """A whole column: one multiplication, then one format per value."""
+        a = np.asarray(values_si, float) * self.factor(kind)
+        return [num(v, digits) for v in a.tolist()]
+
+
+def num(value: float, digits: int = 4) -> str:
+    """A model value to ``digits`` significant digits, trailing zeros dropped, no exponent in the
+    usual range (310000, 0.045, 2738)."""
+    if value is None or not math.isfinite(value):
+        return "—"
+    if value == 0:
+        return "0"
+    text = f"{value:.{digits}g}"
+    if "e" not in text:
+        return text
+    rounded = float(text)
+    if 1e-4 <= abs(rounded) < 1e9:
+        return np.format_float_positional(rounded, trim="-")
+    m, e = f"{value:.{digits - 1}e}".split("e")
+    return f"{m.rstrip('0').rstrip('.') if '.' in m else m}e{int(e)}"
+
+
+@dataclass
+class Ctx:
+    """What every section gets: the computed sheet data, the frame and the unit system."""
+
+    data: object  # sheet.SheetData
+    width: float
+    frame_h: float
+    units: Units
+    author: str = ""
+    revision: str = ""
+    date_text: str = ""
+    appendix: list = field(default_factory=list)
+
+    @property
+    def study(self):
+        return self.data.study
+
+    @property
+    def train(self):
+        return self.data.study.train
+
+    @property
+    def doc(self) -> dict:
+        return self.data.doc
+
+    @property
+    def placement(self):
+        """Where each disc sits on the schematic (computed once per sheet)."""
+        if "_placement" not in self.__dict__:
+            from ..schematic_layout import place_document
+            self.__dict__["_placement"] = place_document(self.doc)
+        return self.__dict__["_placement"]
+
+    def name(self, element_id) -> str:
+        return self.train.name_of(element_id)
+
+    def cols(self, *spec) -> list[Column]:
+        """Columns from (title, width fraction[, align[, wrap[, max_lines]]]) tuples; fractions scaled
+        to the frame."""
+        total = sum(s[1] for s in spec)
+        out = []
+        for s in spec:
+            title, frac = s[0], s[1]
+            align = s[2] if len(s) > 2 else "LEFT"
+            wrap = s[3] if len(s) > 3 else align == "LEFT"
+            max_lines = s[4] if len(s) > 4 else 4
+            out.append(Column(title, frac / total * self.width, align, wrap, max_lines))
+        return out
+
+
+def table(columns, rows, cell_styles=None) -> LongTable:
+    return LongTable(columns, rows, cell_styles)
+
+
+def P(text, style="body") -> Paragraph:
+    return Paragraph(text, styles()[style])
+
+
+def clip(text: str, n: int = MAX_TEXT) -> str:
+    text = str(text)
+    return text if len(text) <= n else text[:n] + " … (cut here; the full text is in the project file)"
+
+
+def fit_frame(drawing, width, frame_h):
+    """The drawing itself, or shrunk to a page when it is taller than one."""
+    if drawing.height <= frame_h * 0.95 and drawing.width <= width * 1.001:
+        return drawing
+    return KeepInFrame(width, frame_h * 0.95, [drawing], mode="shrink")
+
+
+def entered_number(raw, fallback: float) -> float:
+    """A dimensionless number as the user wrote it (already validated by the model build)."""
+    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
+        return float(raw)
+    try:
+        return float(str(raw).strip())
+    except ValueError:
+        return fallback
+
+
+def damping_as_entered(raw: dict, link, units: Units) -> list[str]:
+    """The link's damping in the user's own terms (psi = relative damping, M = dynamic
+    magnifier, eta = loss factor), with its loss-factor or psi equivalent."""
+    out = []
+    eta = link.loss_factor
+    if raw.get("relative_damping") is not None:
+        psi = entered_number(raw["relative_damping"], eta * TWO_PI)
+        out.append(f"psi = {psi:g} (eta = {eta:.3g})")
+    elif raw.get("dynamic_magnifier") is not None:
+        mag = entered_number(raw["dynamic_magnifier"], 1.0 / eta if eta else math.inf)
+        out.append(f"M = {mag:g} (eta = {eta:.3g})")
+    elif raw.get("loss_factor") is not None and eta:
+        out.append(f"eta = {entered_number(raw['loss_factor'], eta):g} (psi = {eta * TWO_PI:.3g})")
+    if link.damping:
+        out.append(f"c = {units.text(link.damping, u.DAMPING)}")
+    return out
+
+
+# ----------------------------------------------------------------- title and verdict
+def title_block(ctx: Ctx):
+    st = styles()
+    data = ctx.data
+    doc = ctx.doc
+    out = [Paragraph("TORSIONAL VIBRATION REVIEW SHEET", st["kicker"]),
+           Paragraph(escape(clip(ctx.train.title, 200)), st["title"])]
+    rows = []
+    if doc.get("description"):
+        rows.append(("Description", escape(clip(doc["description"]))))
+    rows += [("Revision", escape(ctx.revision) if ctx.revision else "—"),
+             ("Author", escape(ctx.author) if ctx.author else "—"),
+             ("Date", escape(ctx.date_text)),
+             ("Program", escape(program_line())),
+             ("Units", f"{ctx.units.title} (speeds in rpm of the shaft named, frequencies in Hz)"),
+             ("Project file", escape(data.source_name)),
+             ("SHA-256", f'<font size="6.8">{data.sha256}</font><br/>'
+                         f'<font color="{GREY.hexval()}" size="6.5">{escape(data.hash_note)}</font>')]
+    t = Table([[P(f"<b>{k}</b>", "cell"), P(v, "cell")] for k, v in rows], colWidths=[70, ctx.width - 70],
+              hAlign="LEFT")
+    t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT),
+                           ("VALIGN", (0, 0), (-1, -1), "TOP"),
+                           ("LINEABOVE", (0, 0), (-1, 0), 0.8, INK),
+                           ("LINEBELOW", (0, -1), (-1, -1), 0.8, INK),
+                           ("TOPPADDING", (0, 0), (-1, -1), 1.5), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
+                           ("LEFTPADDING", (0, 0), (-1, -1), 2)]))
+    out.append(t)
+    return out
+
+
+def above_limit_text(ctx: Ctx, limit: int = 12) -> str:
+    """'7 (3595.71 Hz), 8 (5893.79 Hz)' for the modes above the screening limit ('' when none)."""
+    m = ctx.study.modes
+    idx = np.flatnonzero(ctx.study.above_screening_limit)
+    parts = [f"{int(m.number[i])} ({fmt.hz(float(m.frequency_hz[i]))}\u00a0Hz)" for i in idx[:limit]]
+    if len(idx) > limit:
+        parts.append(f"and {len(idx) - limit} more")
+    return ", ".join(parts)
+
+
+def verdict_block(ctx: Ctx):
+    st = styles()
+    data = ctx.data
+    s = data.screening
+    train = ctx.train
+    out = [Paragraph("Verdict", st["h1"])]
+    lines = []
+    if s is None:
+        head = "NOT SCREENED — the project has no operating data (reference shaft, operating speed, excitations)."
+        fill, ink = NEUTRAL_FILL, INK
+        lines.append("Only the natural frequencies and mode shapes are reported.")
+    else:
+        op = train.operating
+        head = "Separation: " + clip(wording.separation_verdict(s, nbsp="\u00a0"), 600)
+        fill, ink = (PASS_FILL, PASS_INK) if s.passed else (FAIL_FILL, FAIL_INK)
+        rng = (f"{fmt.rpm(op.speed_min)} rpm" if op.speed_min == op.speed_max
+               else f"{fmt.rpm(op.speed_min)}–{fmt.rpm(op.speed_max)} rpm")
+        trip = f"; trip speed {fmt.rpm(op.trip_speed)} rpm" if op.trip_speed else ""
+        lines.append(f"<b>Operating range:</b> {escape(clip(op.range_name, 200))}, {rng} of the reference shaft "
+                     f"'{escape(clip(ctx.name(op.reference), 200))}'{trip}.")
+        lines.append(f"<b>Required separation margin:</b> {fmt.percent(s.margin)}\u00a0% between every natural "
+                     f"frequency and every excitation frequency over the operating range.")
+        n_el = int(np.sum(s.modes.elastic & (s.modes.frequency_hz <= s.cap_hz)))
+        n_src = len({l.source for l in s.lines})
+        lines.append(f"<b>Modes screened:</b> {n_el} elastic modes up to the screening limit of "
+                     f"{fmt.hz(s.cap_hz)}\u00a0Hz against {len(s.lines)} excitation line"
+                     f"{'s' if len(s.lines) != 1 else ''} from {n_src} source{'s' if n_src != 1 else ''}.")
+        above = above_limit_text(ctx)
+        if above:
+            lines.append(f"<b>Modes above the screening limit</b> (listed and marked, not screened): {above}.")
+    if data.response is not None:
+        n_ex = len(data.response_exceedances)
+        checked = [p for p in data.response_summary if p.passed is not None]
+        if n_ex:
+            worst = data.response_exceedances[0]
+            lines.append(f"<b>Forced response:</b> <font color='{FAIL_INK.hexval()}'>FAIL</font> — {n_ex} "
+                         f"exceedance{'s' if n_ex > 1 else ''} of a permissible vibratory value (worst: "
+                         f"{escape(clip(ctx.name(worst.link_id), 200))}, {worst.quantity} at "
+                         f"{100 * worst.peak / worst.permissible:.0f}\u00a0% of permissible).")
+        elif checked:
+            lines.append(f"<b>Forced response:</b> PASS — the peak vibratory torque and stress stay within "
+                         f"the permissible values of all {len(checked)} links that give one.")
+        else:
+            lines.append("<b>Forced response:</b> computed, but no link gives a permissible vibratory "
+                         "torque or stress, so nothing was judged.")
+        if s is not None and not s.passed and not n_ex and checked:
+            lines.append("The separation margin is not met, but the damped forced response stays within the "
+                         "permissible values. API Standard 617 accepts a torsional response analysis showing "
+                         "that such a resonance does no harm (confirm the clause in the edition that applies); "
+                         "the reviewing engineer decides.")
+    body = [[Paragraph(f'<font color="{ink.hexval()}">{escape(head)}</font>', st["verdict"])]]
+    body += [[Paragraph(l, st["body"])] for l in lines]
+    body.append([Paragraph(f"<i>{escape(CAUTION)}</i>", st["small"])])
+    t = Table(body, colWidths=[ctx.width], hAlign="LEFT")
+    t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT),
+                           ("BACKGROUND", (0, 0), (-1, 0), fill),
+                           ("BOX", (0, 0), (-1, -1), 0.8, ink),
+                           ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
+                           ("LEFTPADDING", (0, 0), (-1, -1), 5)]))
+    out.append(t)
+    return out
+
+
+# ----------------------------------------------------------------- schematic and model
+def schematic_block(ctx: Ctx):
+    st = styles()
+    out = [Paragraph("Train schematic", st["h1"])]
+    dwgs, note = schematic_drawings(ctx.doc, ctx.train, ctx.width, ctx.frame_h, ctx.placement)
+    for dwg in dwgs:
+        out.append(fit_frame(dwg, ctx.width, ctx.frame_h))
+    out.append(legend_drawing(ctx.width))
+    if note:
+        out.append(Paragraph(escape(note), st["note"]))
+    return out
+
+
+def segments_text(link, units: Units, max_listed: int = 4) -> str:
+    """Segment geometry 'length × outer dia. / bore', one per line; a long list summarised."""
+    segs = link.segments
+    if not segs:
+        return "—"
+    f = units.factor(u.LENGTH)
+
+    def one(s):
+        t = f"{num(s.length * f)} × {num(s.outer_diameter * f)}"
+        return t + (f" / {num(s.inner_diameter * f)}" if s.inner_diameter > 0 else "")
+    if len(segs) <= max_listed:
+        return "\n".join(one(s) for s in segs)
+    total = sum(s.length for s in segs)
+    return "\n".join([one(segs[0]), f"… {len(segs) - 2} more …", one(segs[-1]),
+                      f"{len(segs)} segments, {num(total * f)} long"])
+
+
+def disc_table(ctx: Ctx, discs) -> LongTable:
+    U = ctx.units
+    any_damp = any(d.damping > 0 for d in ctx.train.discs)
+    spec = [("Disc", 0.40), ("Id", 0.22, "LEFT", True), (f"Inertia ({U.unit(u.INERTIA)})", 0.18, "RIGHT")]
+    if any_damp:
+        spec.append((f"Damping to ground ({U.unit(u.DAMPING)})", 0.20, "RIGHT"))
+    inertia = U.column([d.inertia for d in discs], u.INERTIA)
+    damp = U.column([d.damping for d in discs], u.DAMPING) if any_damp else None
+    rows = []
+    for k, d in enumerate(discs):
+        r = [d.name or d.id, d.id, inertia[k]]
+        if any_damp:
+            r.append(damp[k] if d.damping else "—")
+        rows.append(r)
+    return table(ctx.cols(*spec), rows)
+
+
+def link_table(ctx: Ctx, links) -> LongTable:
+    U = ctx.units
+    raw = {l.get("id"): l for l in ctx.doc.get("links", []) if isinstance(l, dict)}
+    spec = [("Link (id)", 0.14), ("Kind", 0.085), ("From / to", 0.145),
+            (f"Stiffness ({U.unit(u.STIFFNESS)})", 0.10, "RIGHT", True),
+            (f"Geometry: length × outer dia. / bore ({U.unit(u.LENGTH)})", 0.15, "LEFT", True, 6),
+            ("Material, mass model", 0.095), ("Speed ratio (output / input)", 0.07, "RIGHT"),
+            ("Damping as entered, limits", 0.21, "LEFT", True, 8)]
+    finite = [l.total_stiffness if not l.is_rigid else 0.0 for l in links]
+    k_col = U.column(finite, u.STIFFNESS)
+    rows = []
+    for n, l in enumerate(links):
+        if l.is_rigid:
+            k_text = "rigid"
+        else:
+            k_text = k_col[n] + ("\n(geometry)" if l.stiffness is None else "")
+        extras = damping_as_entered(raw.get(l.id, {}), l, U)
+        if l.stress_concentration != 1.0:
+            extras.append(f"SCF {l.stress_concentration:g}")
+        if l.permissible_torque is not None:
+            extras.append(f"perm. torque {U.text(l.permissible_torque, u.TORQUE)}")
+        if l.permissible_stress is not None:
+            extras.append(f"perm. stress {U.text(l.permissible_stress, u.STRESS)}")
+        label = f"{l.name} ({l.id})" if l.name and l.name != l.id else l.id
+        material = ", ".join(x for x in ((l.material.name if l.material else ""),
+                                         (l.mass if l.kind == "shaft" and l.has_geometry else "")) if x) or "—"
+        rows.append([label, KINDS[l.kind], f"{ctx.name(l.from_id)} to {ctx.name(l.to_id)}", k_text,
+                     segments_text(l, U), material, f"{l.speed_ratio:g}" if l.kind == "gear_mesh" else "—",
+                     "\n".join(extras) or "—"])
+    return table(ctx.cols(*spec), rows)
+
+
+def model_notes(ctx: Ctx) -> list:
+    st = styles()
+    U = ctx.units
+    out = []
+    mats = {l.material.name: l.material for l in ctx.train.links if l.material}
+    if mats:
+        txt = "; ".join(f"{escape(m.name)}: G = {U.text(m.shear_modulus, u.MODULUS)}, density "
+                        f"{U.text(m.density, u.DENSITY)}" for m in mats.values())
+        out.append(Paragraph(f"Materials — {txt}.", st["note"]))
+    out.append(Paragraph(
+        "Speed ratio (output / input) = speed of the 'to' disc (output) / speed of the 'from' disc (input) of a "
+        "gear mesh. SCF = stress concentration factor; perm. = permissible vibratory amplitude. Stiffness and inertia are as given for each element on its own shaft (not referred). "
+        "Damping as entered: psi = relative damping (coupling catalogues), M = dynamic magnifier, eta = loss "
+        "factor, with the equivalent in brackets (eta = psi / 2π = 1 / M); c = viscous damping. Mass model of a "
+        "shaft with geometry: none (massless spring), lumped or distributed.", st["note"]))
+    return out
+
+
+def model_block(ctx: Ctx):
+    st = styles()
+    train = ctx.train
+    out = [Paragraph(f"Model ({ctx.units.title} units)", st["h1"])]
+    n_d, n_l = len(train.discs), len(train.links)
+    if n_d <= BODY_ROWS and n_l <= BODY_ROWS:
+        out.append(disc_table(ctx, train.discs))
+        out.append(Spacer(1, 6))
+        if train.links:
+            out.append(link_table(ctx, train.links))
+        out += model_notes(ctx)
+        return out
+    out += model_summary(ctx)
+    ctx.appendix += [Paragraph("Appendix A — the full model", st["h1"]),
+                     Paragraph(f"Every disc ({n_d}) and every link ({n_l}) of the project, in file order "
+                               f"({ctx.units.title} units).", st["note"]),
+                     disc_table(ctx, train.discs), Spacer(1, 6)]
+    if train.links:
+        ctx.appendix.append(link_table(ctx, train.links))
+    ctx.appendix += model_notes(ctx)
+    return out
+
+
+def model_summary(ctx: Ctx) -> list:
+    """A long train in the body: counts and ranges per element kind, and the elements that matter."""
+    st = styles()
+    U = ctx.units
+    train = ctx.train
+    discs, links = train.discs, train.links
+    J = np.array([d.inertia for d in discs])
+    rows = [["Discs", str(len(discs)),
+             f"inertia {U.value(float(J.min()), u.INERTIA)} to {U.value(float(J.max()), u.INERTIA)} "
+             f"{U.unit(u.INERTIA)}", f"total {U.text(float(J.sum()), u.INERTIA)}; "
+             f"{sum(d.damping > 0 for d in discs)} with damping to ground"]]
+    for kind in ("shaft", "coupling", "gear_mesh"):
+        mine = [l for l in links if l.kind == kind]
+        if not mine:
+            continue
+        if kind == "gear_mesh":
+            ratios = [l.speed_ratio for l in mine]
+            rng = f"speed ratio (output / input) {min(ratios):g} to {max(ratios):g}"
+        else:
+            k = [l.total_stiffness for l in mine if not l.is_rigid]
+            rng = (f"stiffness {U.value(min(k), u.STIFFNESS)} to {U.value(max(k), u.STIFFNESS)} "
+                   f"{U.unit(u.STIFFNESS)}") if k else "—"
+        extra = []
+        if kind == "shaft":
+            n_seg = sum(len(l.segments) for l in mine)
+            masses = {m: sum(1 for l in mine if l.mass == m) for m in ("none", "lumped", "distributed")}
+            extra.append(f"{n_seg} geometry segments; mass model: " +
+                         ", ".join(f"{v} {k}" for k, v in masses.items() if v))
+        grounded = sum(1 for l in mine if l.grounded)
+        if grounded:
+            extra.append(f"{grounded} to ground")
+        damped = sum(1 for l in mine if l.damping or l.loss_factor)
+        if damped:
+            extra.append(f"{damped} damped")
+        rows.append([KINDS[kind].capitalize() + ("s" if len(mine) != 1 else ""), str(len(mine)), rng,
+                     "; ".join(extra) or "—"])
+    out = [Paragraph(f"The train has {len(discs)} discs and {len(links)} links: too many to list here. "
+                     "The elements are summarised below; every one is listed in Appendix A at the end "
+                     "of this sheet.", st["body"]),
+           table(ctx.cols(("Elements", 0.14), ("Count", 0.08, "RIGHT"), ("Range", 0.38), ("Notes", 0.40)),
+                 rows), Spacer(1, 6)]
+    # the elements a reviewer looks for first
+    why: dict[str, list[str]] = {}
+    op = train.operating
+    if op is not None:
+        why.setdefault(op.reference, []).append("reference shaft")
+        for e in op.excitations:
+            for at in [e.at or e.applied_at] + [c for c, _ in e.cylinders]:
+                if at:
+                    why.setdefault(at, []).append(f"excitation '{e.name}'")
+    for k in np.argsort(-J)[:5]:
+        why.setdefault(discs[int(k)].id, []).append("among the 5 largest inertias")
+    special = [l for l in links if l.kind != "shaft" or l.grounded]
+    for l in special[:30]:
+        why.setdefault(l.id, []).append("coupling" if l.kind == "coupling" else
+                                        "gear mesh" if l.kind == "gear_mesh" else "link to ground")
+    m = ctx.study.modes
+    if links:
+        link_ids = train.link_ids
+        for i in np.flatnonzero(m.elastic)[:12]:
+            dom = link_ids[int(np.argmax(m.strain_share[i]))]
+            why.setdefault(dom, []).append(f"largest strain energy of mode {int(m.number[i])}")
+    disc_by_id = {d.id: d for d in discs}
+    link_by_id = {l.id: l for l in links}
+    rows = []
+    for eid, reasons in why.items():
+        if eid in disc_by_id:
+            d = disc_by_id[eid]
+            rows.append([d.name or d.id, d.id, "disc", U.text(d.inertia, u.INERTIA), "; ".join(dict.fromkeys(reasons))])
+        elif eid in link_by_id:
+            l = link_by_id[eid]
+            value = "rigid" if l.is_rigid else U.text(l.total_stiffness, u.STIFFNESS)
+            if l.kind == "gear_mesh":
+                value += f", speed ratio (output / input) {l.speed_ratio:g}"
+            rows.append([l.label, l.id, KINDS[l.kind], value, "; ".join(dict.fromkeys(reasons))])
+    if rows:
+        out.append(Paragraph("Elements that carry the results", st["h2"]))
+        out.append(table(ctx.cols(("Name", 0.26), ("Id", 0.14), ("Kind", 0.08), ("Inertia or stiffness", 0.2),
+                                  ("Listed because", 0.32)), rows))
+    return out
+
+
+# ----------------------------------------------------------------- operating data and excitations
+def excitation_block(ctx: Ctx):
+    st = styles()
+    train = ctx.train
+    op = train.operating
+    if op is None:
+        return []
+    U = ctx.units
+    out = [Paragraph("Operating data and excitation inputs", st["h1"])]
+    rng = (f"{fmt.rpm(op.speed_min)} rpm" if op.speed_min == op.speed_max
+           else f"{fmt.rpm(op.speed_min)} to {fmt.rpm(op.speed_max)} rpm")
+    trip = f", trip speed {fmt.rpm(op.trip_speed)} rpm" if op.trip_speed else ""
+    out.append(Paragraph(
+        f"Reference shaft: '{escape(ctx.name(op.reference))}' (disc {escape(op.reference)}). "
+        f"{escape(op.range_name)}: {rng}{trip}. Required separation margin {fmt.percent(op.margin)}\u00a0%.",
+        st["body"]))
+    if not op.excitations:
+        out.append(Paragraph("No excitation is given.", st["body"]))
+        return out
+    tu = U.unit(u.TORQUE)
+    rows = []
+    for e in op.excitations:
+        if e.frequency is not None:
+            at = e.applied_at
+            rows.append([e.name, ctx.name(at) if at else "— (screening only)", "—",
+                         f"{e.frequency:g} Hz fixed", U.value(e.amplitude, u.TORQUE) if e.amplitude else "—",
+                         f"{e.phase_deg:g}" if e.amplitude else "—", "constant"])
+            continue
+        ratio = train.relative_speed(e.at, op.reference)
+        for k, o in enumerate(e.orders):
+            scaling = "constant"
+            if o.scaling == "speed_squared":
+                scaling = f"with speed², given at {fmt.rpm(o.at_speed)} rpm"
+            rows.append([e.name if k == 0 else "", ctx.name(e.at) if k == 0 else "",
+                         f"{ratio:.4g}" if k == 0 else "", f"order {fmt.order(o.order)}",
+                         U.value(o.amplitude, u.TORQUE) if o.amplitude is not None else "—",
+                         f"{o.phase_deg:g}" if o.amplitude is not None else "—", scaling])
+    out.append(table(ctx.cols(("Excitation", 0.22), ("Acts at", 0.18), ("Its shaft's speed / reference", 0.1, "RIGHT"),
+                              ("Order or frequency", 0.12), (f"Amplitude ({tu})", 0.11, "RIGHT"),
+                              ("Phase (deg)", 0.08, "RIGHT"), ("Amplitude scaling", 0.19)), rows))
+    cyl_rows = []
+    for e in op.excitations:
+        for k, (disc, firing) in enumerate(e.cylinders):
+            cyl_rows.append([e.name if k == 0 else "", str(k + 1), ctx.name(disc), f"{firing:g}"])
+    if cyl_rows:
+        out.append(Spacer(1, 4))
+        out.append(table(ctx.cols(("Excitation with cylinders", 0.34), ("Cylinder", 0.1, "RIGHT"),
+                                  ("Crank throw (disc)", 0.36), ("Firing angle (deg)", 0.2, "RIGHT")), cyl_rows))
+    out.append(Paragraph(
+        "An order's excitation frequency is the order × the speed of the shaft it acts on; its phase is in "
+        "degrees of that shaft. Where cylinders are given, each order's amplitude acts at every crank throw "
+        "with the phase minus order × firing angle (vector sum). Amplitudes enter the forced response only; "
+        "the screening uses the frequencies.", st["note"]))
+    return out
+
+
+# ----------------------------------------------------------------- results
+def frequency_block(ctx: Ctx):
+    st = styles()
+    m = ctx.study.modes
+    s = ctx.data.screening
+    above = ctx.study.above_screening_limit
+    out = [Paragraph("Natural frequencies", st["h1"])]
+    spec = [("Mode", 0.07, "RIGHT"), ("Hz", 0.11, "RIGHT"), ("cpm", 0.1, "RIGHT"),
+            ("Largest strain energy (link, share)", 0.28), ("Largest kinetic energy (disc, share)", 0.28)]
+    if s is not None:
+        spec.append(("Screened", 0.21))
+    rows, cells = [], {}
+    # dominant elements by one argmax per table (Modes.dominant_* rebuild the id lists per call)
+    link_ids, disc_ids = ctx.train.link_ids, ctx.train.disc_ids
+    has_links = bool(m.strain_share.size)
+    strain_arg = m.strain_share.argmax(axis=1) if has_links else np.zeros(len(m), int)
+    strain_max = m.strain_share.max(axis=1) if has_links else np.zeros(len(m))
+    kin_arg = m.kinetic_share.argmax(axis=1)
+    kin_max = m.kinetic_share.max(axis=1)
+    for i in range(len(m)):
+        f = float(m.frequency_hz[i])
+        if m.rigid_body[i]:
+            dom = "rigid-body mode"
+        else:
+            dom = fmt.share(ctx.name(link_ids[strain_arg[i]]), float(strain_max[i])) if has_links else "—"
+        r = [str(int(m.number[i])), fmt.hz(f), fmt.cpm(f), dom,
+             fmt.share(ctx.name(disc_ids[kin_arg[i]]), float(kin_max[i]))]
+        if s is not None:
+            if m.rigid_body[i]:
+                r.append("—")
+            elif above[i]:
+                r.append("no: above the screening limit")
+                cells[i] = marked_styles(len(r) - 1)
+            else:
+                r.append("yes")
+        rows.append(r)
+    out.append(table(ctx.cols(*spec), rows, cells))
+    req = m.requested
+    notes = [f"{req[:1].upper() + req[1:]}; dominant element by share of the mode's strain energy."]
+    if s is not None:
+        notes.append(f"Screening limit {fmt.hz(s.cap_hz)} Hz.")
+        above_txt = above_limit_text(ctx)
+        if above_txt:
+            notes.append(f"Modes above the screening limit, shown for completeness and not screened: {above_txt}.")
+    notes += list(m.notes)
+    out.append(Paragraph(escape(" ".join(notes)), st["note"]))
+    return out
+
+
+def mode_shape_block(ctx: Ctx):
+    st = styles()
+    m = ctx.study.modes
+    pl = ctx.placement
+    elastic = [i for i in range(len(m)) if m.elastic[i]][:N_SHAPE_PLOTS]
+    if not elastic:
+        return []
+    per_row = 3
+    cw = ctx.width / per_row
+    cells = [charts.mode_shape_drawing(m, i, pl, cw - 4, 150, ctx.train.links, name_of=ctx.name)
+             for i in elastic]
+    grid = [cells[k:k + per_row] for k in range(0, len(cells), per_row)]
+    grid[-1] += [""] * (per_row - len(grid[-1]))
+    t = Table(grid, colWidths=[cw] * per_row, hAlign="LEFT")
+    t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT),
+                           ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0),
+                           ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2)]))
+    note = ("Twist angle of each disc, normalised to the largest (+1), against its column in the schematic; "
+            "a branch is drawn in its own colour, a geared branch in the angle of its own shaft. "
+            "Under each title: the link with the largest share of the mode's strain energy. Angles are shown "
+            "at the discs; the inside of a shaft with distributed mass is not drawn.")
+    if pl.n_columns > 14:
+        note += " Disc names are left out on trains of more than 14 columns (the schematic names them)."
+    return [CondPageBreak(330),
+            KeepTogether([Paragraph(f"Mode shapes (first {len(elastic)} elastic modes)", st["h1"]), t,
+                          Paragraph(note, st["note"])])]
+
+
+def campbell_block(ctx: Ctx):
+    st = styles()
+    s = ctx.data.screening
+    if s is None:
+        return []
+    tops = campbell.panel_tops(s)
+    n = len(tops)
+    first_h = ctx.frame_h * (0.46 if n == 1 else 0.36)
+    dwg = campbell.campbell_drawing(s, ctx.width, first_h, tops[0])
+    note = ("Order labels stand where each excitation line leaves the chart, mode numbers at the left edge "
+            "(a thin leader where a label had to move; neighbouring labels merged as '3–5' only where there "
+            "is no room).")
+    if n > 1:
+        note += (" The detail panels below repeat the chart over lower frequency ranges, so that no "
+                 "natural frequency is squeezed against the axis.")
+    out = [CondPageBreak(first_h + 150),
+           KeepTogether([Paragraph("Interference (Campbell) diagram", st["h1"]),
+                         fit_frame(dwg, ctx.width, ctx.frame_h), Paragraph(note, st["note"])])]
+    for k, top in enumerate(tops[1:], start=2):
+        d = campbell.campbell_drawing(s, ctx.width, ctx.frame_h * 0.27, top,
+                                      title=f"Detail {k - 1}: 0 to {num(top, 3)} Hz (key as above)",
+                                      with_legend=False)
+        out.append(fit_frame(d, ctx.width, ctx.frame_h))
+    return out
+
+
+def coincidence_block(ctx: Ctx):
+    st = styles()
+    s = ctx.data.screening
+    if s is None:
+        return []
+    out = [Paragraph("Coincidences, worst first", st["h1"])]
+    if not s.coincidences:
+        out.append(Paragraph(f"No excitation comes within {fmt.percent(2 * s.margin)}\u00a0% of a natural "
+                             "frequency.", st["body"]))
+        return out
+    rows, cells = [], {}
+    for k, c in enumerate(s.coincidences):
+        if c.band is None:
+            band = "—"
+        elif c.line.fixed_hz is not None:
+            band = "all speeds"
+        else:
+            band = f"{fmt.rpm(c.band[0])}–{fmt.rpm(c.band[1])}"
+        status = c.status.upper()
+        rows.append([str(c.mode), fmt.hz(c.frequency_hz), c.source, fmt.order(c.order),
+                     ctx.name(c.line.at) if c.line.at else "—", fmt.rpm(c.crossing_speed),
+                     fmt.percent(c.separation), band, status])
+        cells[k] = status_styles(8, status)
+    spec = [("Mode", 0.06, "RIGHT"), ("Natural Hz", 0.09, "RIGHT"), ("Excitation source", 0.24),
+            ("Order", 0.06, "RIGHT"), ("Acts at", 0.14), ("Crossing rpm", 0.09, "RIGHT"),
+            ("Margin %", 0.08, "RIGHT"), ("Band inside the margin (rpm)", 0.14), ("Status", 0.07)]
+    out.append(table(ctx.cols(*spec), rows, cells))
+    out.append(Paragraph(
+        f"Listed: every pair with a smallest separation below twice the required margin "
+        f"({fmt.percent(2 * s.margin)}\u00a0%). Margin = smallest |f_n - f_e| / f_e over the operating range "
+        "(0 for a crossing inside it). Crossing rpm: reference speed where the excitation meets the natural "
+        "frequency, also when outside the range.", st["note"]))
+    return out
+
+
+def response_block(ctx: Ctx):
+    st = styles()
+    data = ctx.data
+    U = ctx.units
+    if data.response is None:
+        if data.study.response_error is not None:
+            return [Paragraph("Forced response", st["h1"]),
+                    Paragraph(escape(data.study.response_error.message), st["body"])]
+        return []
+    r = data.response
+    out = [Paragraph("Forced response: peak vibratory torque and stress", st["h1"])]
+    tu, su = U.unit(u.TORQUE), U.unit(u.STRESS)
+    peaks = data.response_summary
+    tq = U.column([p.peak_torque for p in peaks], u.TORQUE)
+    tq_perm = U.column([math.nan if p.permissible_torque is None else p.permissible_torque for p in peaks], u.TORQUE)
+    ss = U.column([math.nan if p.peak_stress is None else p.peak_stress for p in peaks], u.STRESS)
+    ss_perm = U.column([math.nan if p.permissible_stress is None else p.permissible_stress for p in peaks], u.STRESS)
+    rows, cells = [], {}
+    for k, p in enumerate(peaks):
+        status = "no limit" if p.passed is None else ("PASS" if p.passed else "FAIL")
+        stress_ok = p.peak_stress is not None and math.isfinite(p.peak_stress)
+        rows.append([ctx.name(p.link_id), str(p.kind).replace("_", " "), tq[k], fmt.rpm(p.speed_at_peak_torque),
+                     tq_perm[k], ss[k] if stress_ok else "—",
+                     fmt.rpm(p.speed_at_peak_stress) if stress_ok else "—", ss_perm[k], status])
+        cells[k] = status_styles(8, status)
+    spec = [("Link", 0.17), ("Kind", 0.09), (f"Peak torque ({tu})", 0.11, "RIGHT"), ("at rpm", 0.08, "RIGHT"),
+            (f"Permissible ({tu})", 0.11, "RIGHT"), (f"Peak stress ({su})", 0.11, "RIGHT"),
+            ("at rpm", 0.08, "RIGHT"), (f"Permissible ({su})", 0.11, "RIGHT"), ("Status", 0.08)]
+    out.append(table(ctx.cols(*spec), rows, cells))
+    out.append(Paragraph(
+        "Peak over the computed speed range of the combined amplitude (sum of the order amplitudes, "
+        "conservative); stress = torque × outer radius / polar moment × stress concentration factor, for "
+        f"shafts with geometry. Status only where a permissible value is given. Speeds computed: "
+        f"{fmt.rpm(float(np.min(r.speed)))}–{fmt.rpm(float(np.max(r.speed)))} rpm of the reference shaft.",
+        st["note"]))
+    speed_rpm = np.asarray(r.speed) * 60.0 / TWO_PI
+    index = {lid: k for k, lid in enumerate(r.link_ids)}
+    link_torque = np.asarray(r.link_torque)
+    scale = U.factor(u.TORQUE)
+
+    def utilisation(p):
+        return p.peak_torque / p.permissible_torque if p.permissible_torque else -1.0
+    ranked = sorted(peaks, key=lambda p: (utilisation(p), p.peak_torque or 0.0), reverse=True)
+    chosen = [p for p in ranked if p.link_id in index][:4]
+    curves = [(ctx.name(p.link_id), link_torque[index[p.link_id]] * scale,
+               None if p.permissible_torque is None else p.permissible_torque * scale) for p in chosen]
+    if curves and len(speed_rpm) > 1:
+        op = ctx.train.operating
+        cw = ctx.width / 2
+        cells_ = [charts.response_drawing(
+            speed_rpm, v, perm, cw - 4, 135, (fmt.rad_s_to_rpm(op.speed_min), fmt.rad_s_to_rpm(op.speed_max)),
+            title=f"{name}: peak {num(float(np.nanmax(v)))} {tu}", y_title=f"torque amplitude ({tu})",
+            x_title="reference speed (rpm)", colour=charts.PALETTE[k % len(charts.PALETTE)])
+            for k, (name, v, perm) in enumerate(curves)]
+        grid = [cells_[k:k + 2] for k in range(0, len(cells_), 2)]
+        grid[-1] += [""] * (2 - len(grid[-1]))
+        t = Table(grid, colWidths=[cw, cw], hAlign="LEFT")
+        t.setStyle(TableStyle([("FONTNAME", (0, 0), (-1, -1), FONT),
+                               ("LEFTPADDING", (0, 0), (-1, -1), 0), ("RIGHTPADDING", (0, 0), (-1, -1), 0)]))
+        out.append(KeepTogether([t, Paragraph(
+            f"Combined vibratory torque amplitude against the speed of the reference shaft "
+            f"'{escape(ctx.name(op.reference))}', for the links nearest their permissible value (else the "
+            "largest); operating range shaded, permissible value dashed.", st["note"])]))
+    return out
+
+
+# ----------------------------------------------------------------- method and sources
+SOURCES = {
+    "holzer": "H. Holzer, Die Berechnung der Drehschwingungen, Springer, Berlin, 1921",
+    "pestel": "E. C. Pestel and F. A. Leckie, Matrix Methods in Elastomechanics, McGraw-Hill, New York, 1963",
+    "ww": ("W. H. Wittrick and F. W. Williams, A general algorithm for computing natural frequencies of "
+           "elastic structures, Quarterly Journal of Mechanics and Applied Mathematics 24 (1971) 263–284"),
+    "api617": ("American Petroleum Institute, API Standard 617, Axial and Centrifugal Compressors and "
+               "Expander-compressors, API, Washington DC (torsional analysis and separation margin)"),
+    "api684": ("American Petroleum Institute, API Standard Paragraphs Rotordynamic Tutorial (API RP 684), "
+               "API, Washington DC"),
+    "nestorides": ("E. J. Nestorides (ed.), A Handbook on Torsional Vibration, B.I.C.E.R.A., Cambridge "
+                   "University Press, 1958"),
+    "din740": ("DIN 740-2, Flexible shaft couplings: parameters and design principles, Beuth, Berlin "
+               "(relative damping psi of couplings)"),
+    "roark": "W. C. Young and R. G. Budynas, Roark's Formulas for Stress and Strain, 7th ed., McGraw-Hill, 2002",
+}
+
+
+def method_block(ctx: Ctx):
+    st = styles()
+    train = ctx.train
+    masses = {m: [l.label for l in train.links if l.kind == "shaft" and l.mass == m]
+              for m in ("none", "lumped", "distributed")}
+
+    def listed(names):
+        return ", ".join(names[:12]) + (f" and {len(names) - 12} more" if len(names) > 12 else "")
+    mass_txt = []
+    if masses["distributed"]:
+        mass_txt.append(f"distributed (exact continuous shaft): {listed(masses['distributed'])}")
+    if masses["lumped"]:
+        mass_txt.append(f"lumped (half of the shaft's own inertia added to each end disc): "
+                        f"{listed(masses['lumped'])}")
+    if masses["none"]:
+        mass_txt.append(f"massless spring: {len(masses['none'])} shaft{'s' if len(masses['none']) != 1 else ''}")
+    paras = [
+        "<b>Natural frequencies.</b> Transfer matrices per element in the manner of Holzer [1]: springs for "
+        "couplings, meshes and massless shafts, the exact field matrix of a uniform shaft with distributed "
+        "inertia (cos/sin of omega L / c) where the shaft's mass is modelled, so no subdivision is needed [2]. "
+        "Geared branches are referred to one shaft by the square of the speed ratio. The count of natural "
+        "frequencies below any trial frequency comes from the Wittrick–Williams algorithm [3], so no mode is "
+        "missed or counted twice; each root is then polished to machine precision.",
+        "<b>Mass models used.</b> " + escape("; ".join(mass_txt) if mass_txt else "no shafts") + ".",
+    ]
+    s = ctx.data.screening
+    refs = ["holzer", "pestel", "ww"]
+    if s is not None:
+        paras.append(
+            "<b>Separation.</b> For a natural frequency f_n and an excitation f_e = order × speed of its "
+            "source shaft (or a fixed frequency), separation = |f_n - f_e| / f_e, the smallest over the "
+            f"operating range; a pair fails below the required {fmt.percent(s.margin)}\u00a0%. The 10\u00a0% "
+            "default is the separation margin of the API machinery standards for torsional analysis [4, 5]. "
+            f"Natural frequencies are screened up to the screening limit of {fmt.hz(s.cap_hz)}\u00a0Hz: the "
+            "highest excitation frequency reached in the operating range, raised by twice the margin and a "
+            "further 25\u00a0%. This limit is a setting of this program, not a requirement of a standard; modes "
+            "above it are listed and marked, not screened.")
+        refs += ["api617", "api684"]
+    if ctx.data.response is not None:
+        paras.append(
+            "<b>Forced response.</b> Steady-state harmonic response of the damped train, solved directly "
+            "with the complex dynamic stiffness at every speed and order (no modal truncation); viscous "
+            "damping to ground and between discs, hysteretic damping as a complex stiffness k (1 + i eta). "
+            "A coupling's relative damping psi and a dynamic magnifier M enter as eta = psi / 2π = 1 / M "
+            "[6, 7]; engine orders with cylinders are summed as vectors over the crank throws [6]. Shaft "
+            "stress = torque × outer radius / polar moment of area [8].")
+        refs += ["nestorides", "din740", "roark"]
+    paras.append(
+        "<b>Not modelled.</b> Damping does not enter the natural frequencies (undamped eigenvalues). Couplings "
+        "and meshes are linear springs at the stiffness given: the load, temperature and frequency dependence "
+        "of elastomeric couplings, gear backlash and other nonlinearities are not represented. Transient "
+        "events (motor start-up, short circuit, run-through of a resonance during acceleration) are not "
+        "analysed. Lateral and axial coupling, foundations and electrical stiffness of motors are outside "
+        "the model.")
+    ref_lines = [f"[{k}] {escape(SOURCES[key])}." for k, key in enumerate(refs, start=1)]
+    return [CondPageBreak(160),
+            KeepTogether([Paragraph("Method and assumptions", st["h1"])] +
+                         [Paragraph(p, st["body"]) for p in paras]),
+            KeepTogether([Paragraph("Sources", st["h2"]),
+                          Paragraph("The editions named are those the method was written against; standards "
+                                    "are revised, so confirm the edition and clause that apply to your project "
+                                    "and contract.", st["note"])] +
+                         [Paragraph(r, st["small"]) for r in ref_lines])]
+
+
+def appendix_block(ctx: Ctx):
+    """Whatever the sections above deferred to the back of the sheet."""
+    if not ctx.appendix:
+        return []
+    return [PageBreak()] + ctx.appendix
+
+
+#: the sections in print order; a new section goes in here (see the module docstring)
+SECTIONS = (title_block, verdict_block, schematic_block, model_block, excitation_block, frequency_block,
+            mode_shape_block, campbell_block, coincidence_block, response_block, method_block, appendix_block)
+
+
+def build_story(ctx: Ctx) -> list:
+    story = []
+    for section in SECTIONS:
+        story += section(ctx)
+    return story
+
+
