@@ -669,6 +669,36 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
             (strain / tot_str).T)
 
 
+def free_bodies(asm: Assembly) -> list[np.ndarray]:
+    """Node sets that can turn freely as rigid bodies (one rigid-body mode each).
+
+    Components of the node graph joined by members that have stiffness and not
+    tied to ground through one; a train without ground is one body, and a ring
+    joined to its housing by damping alone (a viscous damper) is one more.  The
+    body holding node 0 comes first.
+    """
+    mem = asm.members
+    n = asm.n_nodes
+    parent = np.arange(n)
+
+    def find(i):
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    stiff = mem.k > 0
+    for a, b in zip(mem.a[stiff & (mem.b >= 0)], mem.b[stiff & (mem.b >= 0)]):
+        parent[find(int(a))] = find(int(b))
+    roots = np.array([find(i) for i in range(n)])
+    tied = set(roots[mem.a[stiff & (mem.b < 0)]].tolist())
+    out = []
+    for r in dict.fromkeys(roots.tolist()):
+        if r not in tied:
+            out.append(np.flatnonzero(roots == r))
+    return out
+
+
 def natural_modes(train: Train, max_frequency_hz: float | None = None,
                   n_modes: int | None = None) -> Modes:
     """Natural frequencies and modes of ``train``.
@@ -679,7 +709,8 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
     """
     t0 = time.perf_counter()
     system = DynamicSystem(train)
-    rb = 0 if system.asm.grounded else 1
+    bodies = free_bodies(system.asm)
+    rb = len(bodies)
     notes = []
     if max_frequency_hz is not None:
         cap_w = TWO_PI * max_frequency_hz
@@ -701,15 +732,22 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         omega, phi = _find_roots(system, targets, hi, total)
     else:
         omega, phi = np.zeros(0), np.zeros((system.n_dof, 0))
+    for nodes in bodies[1:]:  # a body joined by damping alone: elastic modes leave it at rest
+        J = system.asm.node_inertia[nodes]
+        x = phi[nodes]
+        phi[nodes] = x - (J @ x) / max(J.sum(), 1e-300)
     if rb:
-        omega = np.r_[0.0, omega]
-        phi = np.c_[np.ones(system.n_dof), phi]
+        omega = np.r_[np.zeros(rb), omega]
+        rigid_phi = np.zeros((system.n_dof, rb))
+        for j, nodes in enumerate(bodies):
+            rigid_phi[nodes, j] = 1.0
+        phi = np.c_[rigid_phi, phi]
     theta, torque, kin, lkin, strain = _modal_quantities(system, omega, phi)
     rigid = np.zeros(len(omega), bool)
     if rb:
-        rigid[0] = True
-        torque[0] = 0.0
-        strain[0] = 0.0
-    numbers = np.arange(len(omega)) + (1 - rb)
+        rigid[:rb] = True
+        torque[:rb] = 0.0
+        strain[:rb] = 0.0
+    numbers = np.r_[np.zeros(rb, int), np.arange(1, len(omega) - rb + 1)]
     return Modes(train, omega / TWO_PI, rigid, numbers, theta, torque, kin, lkin, strain,
                  max_frequency_hz, requested, time.perf_counter() - t0, notes)
