@@ -322,30 +322,42 @@ def firing_angles_from_throws(tdc_deg, strokes: int, firing_order_positions) -> 
     """Firing angles from each cylinder's top-dead-centre crank angle and the firing order.
 
     ``tdc_deg[i]``: crank angle at which cylinder i's piston is at top dead centre (its
-    throw angle, plus the bank angle for the second bank of a V engine).  A four-stroke
-    cylinder can fire at either of its two top dead centres per cycle; each next cylinder
-    in the firing order takes the first of its candidates after the previous firing.
-    Returns None when the firing order does not close in one working cycle.
+    throw angle, plus the bank angle for the second bank of a V engine).  A two-stroke
+    cylinder fires at its top dead centre; a four-stroke cylinder at one of its two top
+    dead centres per cycle.  Of the choices that keep the firing order inside one working
+    cycle, the most even firing is taken (least sum of squared firing intervals, found
+    exactly by dynamic programming over the firing order; two choices per cylinder).
+    Returns None when no choice keeps the firing order in one cycle.
     """
-    cycle = 360.0 * strokes / 2.0
-    tdc = np.asarray(tdc_deg, float) % 360.0
+    cycle = 180.0 * strokes
     order = list(firing_order_positions)
-    first = order[0]
-    phi = np.empty(len(tdc))
-    phi[first] = tdc[first]
-    prev = phi[first]
-    advance = 0.0
-    for i in order[1:] + [first]:
-        cands = [tdc[i] + k * 360.0 for k in range(strokes // 2)]
-        steps = [((c - prev) % cycle) or cycle for c in cands]
-        step = min(steps)
-        advance += step
-        prev = (prev + step) % cycle
-        if i != first:
-            phi[i] = prev
-    if abs(advance - cycle) > 1e-6:
+    tdc = np.asarray(tdc_deg, float)
+    t = (tdc[order] - tdc[order[0]]) % 360.0
+    t = np.where(np.isclose(t, 360.0, rtol=0, atol=1e-9), 0.0, t)
+    opts = [np.array([0.0])] + [t[j] + 360.0 * np.arange(strokes // 2) for j in range(1, len(order))]
+    # cost[j][c]: least sum of squared intervals up to cylinder j fired at opts[j][c]
+    cost = [np.array([0.0])]
+    back = [None]
+    for j in range(1, len(order)):
+        prev, cur = opts[j - 1], opts[j]
+        step = cur[None, :] - prev[:, None]
+        total = np.where(step > 1e-9, cost[-1][:, None] + step ** 2, np.inf)
+        back.append(np.argmin(total, axis=0))
+        cost.append(total.min(axis=0))
+    last = opts[-1]
+    close = cycle - last
+    final = np.where(close > 1e-9, cost[-1] + close ** 2, np.inf)
+    if not np.isfinite(final.min()):
         return None
-    return (phi - phi[first]) % cycle
+    c = int(np.argmin(final))
+    phi_seq = np.empty(len(order))
+    for j in range(len(order) - 1, -1, -1):
+        phi_seq[j] = opts[j][c]
+        if j:
+            c = int(back[j][c])
+    phi = np.empty(len(order))
+    phi[order] = phi_seq
+    return phi
 
 
 # ----------------------------------------------------------------- project file
@@ -546,8 +558,8 @@ def _cylinders(eng: dict, where: str, disc_ids, strokes: int, layout: str, bank_
         if all(throws):
             phi = firing_angles_from_throws(tdc, strokes, pos)
             if phi is None:
-                raise ModelError("the firing order does not fit the throw and bank angles (it does not "
-                                 "close in one working cycle)", where, "engine.firing_order")
+                raise ModelError("the firing order does not fit the throw and bank angles (it cannot be "
+                                 "kept inside one working cycle)", where, "engine.firing_order")
         else:
             phi = firing_angles_even(len(names), strokes, pos)
     phi = phi - phi[0]  # firing angles after the first cylinder's

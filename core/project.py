@@ -30,6 +30,14 @@ class ProjectFileError(ModelError):
 
 
 # ---------------------------------------------------------------- file level
+class ProjectDocument(dict):
+    """The document dict as read from a file, remembering the file's folder (``base_dir``),
+    against which relative paths inside it (an engine's pressure-curve CSV) are read.
+    It is a plain dict to everything else; ``copy.deepcopy`` keeps the folder."""
+
+    base_dir: str | None = None
+
+
 def parse_document(text: str) -> dict:
     try:
         doc = json.loads(text)
@@ -58,7 +66,9 @@ def load_document(path: str | os.PathLike) -> dict:
         raise ProjectFileError("file not found", "file") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise ProjectFileError(f"cannot read the file ({exc})", "file") from None
-    return parse_document(text)
+    doc = ProjectDocument(parse_document(text))
+    doc.base_dir = str(path.resolve().parent)
+    return doc
 
 
 def dump_document(doc: dict) -> str:
@@ -393,7 +403,10 @@ def build_train(doc: dict, base_dir=None) -> Train:
     """Validate a project document and return the SI model (raises ModelError).
 
     ``base_dir``: the project file's folder, against which relative file paths in
-    the document (an engine's pressure-curve CSV) are read."""
+    the document (an engine's pressure-curve CSV) are read; by default the folder a
+    :class:`ProjectDocument` was loaded from."""
+    if base_dir is None:
+        base_dir = getattr(doc, "base_dir", None)
     if not isinstance(doc, dict):
         raise ProjectFileError("a project must be a JSON object", "file")
     raw_discs = doc.get("discs")

@@ -669,13 +669,15 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
             (strain / tot_str).T)
 
 
-def free_bodies(asm: Assembly) -> list[np.ndarray]:
-    """Node sets that can turn freely as rigid bodies (one rigid-body mode each).
+def free_bodies(asm: Assembly) -> tuple[np.ndarray | None, list[np.ndarray]]:
+    """The train's free body and the rings joined to it by damping alone.
 
-    Components of the node graph joined by members that have stiffness and not
-    tied to ground through one; a train without ground is one body, and a ring
-    joined to its housing by damping alone (a viscous damper) is one more.  The
-    body holding node 0 comes first.
+    Components of the node graph joined by members that have stiffness: the
+    largest (most nodes, then most inertia) is the train; it is free (a
+    rigid-body mode) unless a member with stiffness ties it to ground.  Every
+    other component not tied to ground is a ring: a body joined by damping alone
+    (a viscous damper's ring), free in the undamped problem.  Returns (train's
+    node set or None when grounded, list of ring node sets).
     """
     mem = asm.members
     n = asm.n_nodes
@@ -688,15 +690,16 @@ def free_bodies(asm: Assembly) -> list[np.ndarray]:
         return i
 
     stiff = mem.k > 0
-    for a, b in zip(mem.a[stiff & (mem.b >= 0)], mem.b[stiff & (mem.b >= 0)]):
+    tree = stiff & (mem.b >= 0)
+    for a, b in zip(mem.a[tree], mem.b[tree]):
         parent[find(int(a))] = find(int(b))
     roots = np.array([find(i) for i in range(n)])
     tied = set(roots[mem.a[stiff & (mem.b < 0)]].tolist())
-    out = []
-    for r in dict.fromkeys(roots.tolist()):
-        if r not in tied:
-            out.append(np.flatnonzero(roots == r))
-    return out
+    comps = [np.flatnonzero(roots == r) for r in dict.fromkeys(roots.tolist())]
+    main = max(range(len(comps)), key=lambda j: (len(comps[j]), asm.node_inertia[comps[j]].sum()))
+    free = [j for j in range(len(comps)) if roots[comps[j][0]] not in tied]
+    rings = [comps[j] for j in free if j != main]
+    return (comps[main] if main in free else None), rings
 
 
 def natural_modes(train: Train, max_frequency_hz: float | None = None,
@@ -709,45 +712,48 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
     """
     t0 = time.perf_counter()
     system = DynamicSystem(train)
-    bodies = free_bodies(system.asm)
-    rb = len(bodies)
+    train_body, rings = free_bodies(system.asm)
+    rb = 0 if train_body is None else 1
+    n_zero = rb + len(rings)  # zero roots: the train's rigid-body mode and each free ring
     notes = []
     if max_frequency_hz is not None:
         cap_w = TWO_PI * max_frequency_hz
         total = int(system.count(cap_w)[0])
-        targets = np.arange(rb, total)
+        targets = np.arange(n_zero, total)
         hi = cap_w
         requested = f"all modes up to {max_frequency_hz:.6g} Hz"
     else:
         N = 10 if n_modes is None else int(n_modes)
         finite = system.asm.n_finite_modes
-        want = N + rb
+        want = N + n_zero
         if finite is not None and want > finite:
-            notes.append(f"the lumped model has only {finite - rb} elastic modes")
+            notes.append(f"the lumped model has only {finite - n_zero} elastic modes")
             want = finite
-        hi, total = _upper_bound(system, want) if want > rb else (1.0, None)
-        targets = np.arange(rb, want)
+        hi, total = _upper_bound(system, want) if want > n_zero else (1.0, None)
+        targets = np.arange(n_zero, want)
         requested = f"lowest {N} elastic modes"
     if len(targets):
         omega, phi = _find_roots(system, targets, hi, total)
     else:
         omega, phi = np.zeros(0), np.zeros((system.n_dof, 0))
-    for nodes in bodies[1:]:  # a body joined by damping alone: elastic modes leave it at rest
+    for nodes in rings:  # a ring joined by damping alone stays at rest in the elastic modes
         J = system.asm.node_inertia[nodes]
         x = phi[nodes]
-        phi[nodes] = x - (J @ x) / max(J.sum(), 1e-300)
+        phi[nodes] = x - (J @ x)[None, :] / max(J.sum(), 1e-300)
+    if rings:
+        names = [train.disc_ids[i] for i in range(len(train.discs))
+                 if any(system.asm.disc_node[i] in set(r.tolist()) for r in rings)]
+        notes.append("joined by damping alone (damper free): " + ", ".join(f"'{d}'" for d in names)
+                     + " takes no part in the undamped modes; see the damper-locked and damped frequencies")
     if rb:
-        omega = np.r_[np.zeros(rb), omega]
-        rigid_phi = np.zeros((system.n_dof, rb))
-        for j, nodes in enumerate(bodies):
-            rigid_phi[nodes, j] = 1.0
-        phi = np.c_[rigid_phi, phi]
+        omega = np.r_[0.0, omega]
+        phi = np.c_[np.ones(system.n_dof), phi]
     theta, torque, kin, lkin, strain = _modal_quantities(system, omega, phi)
     rigid = np.zeros(len(omega), bool)
     if rb:
-        rigid[:rb] = True
-        torque[:rb] = 0.0
-        strain[:rb] = 0.0
-    numbers = np.r_[np.zeros(rb, int), np.arange(1, len(omega) - rb + 1)]
+        rigid[0] = True
+        torque[0] = 0.0
+        strain[0] = 0.0
+    numbers = np.arange(len(omega)) + (1 - rb)
     return Modes(train, omega / TWO_PI, rigid, numbers, theta, torque, kin, lkin, strain,
                  max_frequency_hz, requested, time.perf_counter() - t0, notes)
