@@ -57,6 +57,8 @@ from dataclasses import dataclass, field, replace
 
 import numpy as np
 import scipy.linalg
+import scipy.sparse
+import scipy.sparse.linalg
 
 from .assembly import assemble, effective_disc_inertia
 from .errors import ModelError
@@ -120,9 +122,15 @@ def lumped_matrices(train: Train) -> LumpedMatrices:
 
 
 def state_eigenvalues(M, K, C) -> np.ndarray:
-    """All finite eigenvalues of M q'' + C q' + K q = 0 from the first-order form (scipy.linalg.eig)."""
+    """All finite eigenvalues of M q'' + C q' + K q = 0 from the first-order form (scipy.linalg.eig):
+    [[0, I], [-M^-1 K, -M^-1 C]] for a diagonal M of positive inertias, else the generalised
+    pair ([[0, I], [-K, -C]], [[I, 0], [0, M]]) (massless junctions give infinite roots, dropped)."""
     n = M.shape[0]
     I, Z = np.eye(n), np.zeros((n, n))
+    d = np.diag(M)
+    if np.all(d > 0) and not np.any(M - np.diag(d)):  # lumped discs: the standard form is cheaper
+        A = np.block([[Z, I], [-K / d[:, None], -C / d[:, None]]])
+        return scipy.linalg.eig(A, right=False)
     A = np.block([[Z, I], [-K, -C]])
     B = np.block([[I, Z], [Z, M]])
     lam = scipy.linalg.eig(A, B, right=False)
@@ -166,6 +174,60 @@ def _split(lam: np.ndarray, w_scale: float):
     return lam[osc], np.sort(-lam[real].real)
 
 
+def _hysteretic_roots(m: LumpedMatrices, lam0: np.ndarray, w_scale: float, max_frequency_hz):
+    """Damped roots with loss factors as viscous H / omega at each root's own damped frequency.
+
+    For each mode, a fixed point of omega = Im(lambda) where lambda is the root of
+    lambda^2 M + lambda (C + H / omega) + K near it: inverse iteration on the quadratic
+    problem with the two-sided Rayleigh functional (x^T T(lambda) x = 0, T complex
+    symmetric) and omega refreshed every step, from the roots of the problem without H
+    (or the undamped ones).  One n x n complex solve per step.
+    """
+    n = m.M.shape[0]
+    start = lam0[(lam0.imag > 1e-9 * np.abs(lam0)) & (np.abs(lam0) > 1e-7 * w_scale)]
+    if max_frequency_hz is not None:
+        start = start[np.abs(start) <= 1.25 * TWO_PI * max_frequency_hz]
+    # eigenvectors of the undamped problem as start vectors (M may hold massless junctions)
+    Md = np.diag(m.M)
+    if np.all(Md > 0):
+        w2, V = scipy.linalg.eigh(m.K, m.M)
+    else:
+        w2, V = scipy.linalg.eig(m.K, m.M)
+        w2, V = w2.real, V.real
+    wu = np.sqrt(np.maximum(w2, 0.0))
+    Ms, Ks, Cs, Hs = (scipy.sparse.csc_matrix(a) for a in (m.M, m.K, m.C, m.H))  # tree-sparse
+    out, notes = [], []
+    for lam in start:
+        x = V[:, int(np.argmin(np.abs(wu - abs(lam))))].astype(complex)
+        for step in range(100):
+            w = max(lam.imag, 1e-12 * w_scale)
+            Ceq = Cs + Hs / w
+            a, b, c = x @ (Ms @ x), x @ (Ceq @ x), x @ (Ks @ x)
+            roots = np.roots([a, b, c]) if abs(a) > 0 else np.array([-c / b])
+            new = roots[np.argmin(np.abs(roots - lam))]
+            rhs = (2 * new) * (Ms @ x) + Ceq @ x
+            try:
+                y = scipy.sparse.linalg.splu((new * new * Ms + new * Ceq + Ks).tocsc()).solve(rhs)
+            except RuntimeError:  # exactly singular: on the root
+                y = x
+            if not np.all(np.isfinite(y)):
+                y = x
+            x = y / y[np.argmax(np.abs(y))]
+            done = abs(new - lam) <= 1e-13 * abs(new)
+            lam = new
+            if done and step:
+                break
+        else:
+            notes.append(f"hysteretic damping: the mode near {abs(lam) / TWO_PI:.4g} Hz did not settle")
+        out.append(lam)
+    osc = np.array(out, complex)
+    if len(osc):
+        osc = osc[np.argsort(osc.imag)]
+        keep = np.r_[True, np.abs(np.diff(osc)) > 1e-9 * np.abs(osc[1:])]
+        osc = osc[keep]
+    return osc, notes
+
+
 def damped_modes(train: Train, max_frequency_hz: float | None = None) -> DampedModes:
     """Damped natural frequencies and modal damping ratios of a lumped train (every
     oscillatory mode, or those up to ``max_frequency_hz``).  A train with a
@@ -180,33 +242,8 @@ def damped_modes(train: Train, max_frequency_hz: float | None = None) -> DampedM
     hyst = bool(np.any(m.H))
     notes = []
     if hyst:
-        # equivalent viscous H / omega at each mode's own frequency: start from the
-        # viscous-only root (or the undamped one) and iterate omega = Im(lambda)
-        start = scipy.linalg.eigh(m.K, m.M, eigvals_only=True) if np.all(np.diag(m.M) > 0) else None
-        seeds = osc if start is None else np.sqrt(np.maximum(start, 0.0)) + 0j
-        seeds = seeds[np.abs(seeds) > 1e-7 * w_scale]
-        found = []
-        for s0 in seeds:
-            lam = complex(s0.real if start is None else -1e-9, abs(s0))
-            for _ in range(60):
-                w = max(lam.imag, 1e-12 * w_scale)
-                cand = state_eigenvalues(m.M, m.K, m.C + m.H / w)
-                cand = cand[cand.imag > 0]
-                if not len(cand):
-                    break
-                new = cand[np.argmin(np.abs(cand - lam))]
-                done = abs(new - lam) <= 1e-12 * abs(new)
-                lam = new
-                if done:
-                    break
-            else:
-                notes.append(f"hysteretic damping: the mode near {abs(s0) / TWO_PI:.4g} Hz did not settle "
-                             "in 60 steps")
-            found.append(lam)
-        osc = np.array(found, complex)
-        osc = osc[np.argsort(osc.imag)]
-        keep = np.r_[True, np.abs(np.diff(osc)) > 1e-9 * np.abs(osc[1:])] if len(osc) else np.zeros(0, bool)
-        osc = osc[keep]
+        osc, more = _hysteretic_roots(m, lam0, w_scale, max_frequency_hz)
+        notes += more
         notes.append("loss factors taken as an equivalent viscous damping eta k / omega at each mode's "
                      "damped frequency")
     osc = osc[np.argsort(osc.imag)]
@@ -329,8 +366,8 @@ class DamperSuggestion:
 def damper_suggestion(train: Train, link_id: str, mode: int | None = None) -> DamperSuggestion:
     """Den Hartog's optimum for the damper ``link_id`` (a coupling whose one end is a disc
     joined to nothing else: the ring).  ``mode``: elastic mode number of the train with
-    the ring removed; default, of its lowest six elastic modes, the one in which the
-    housing holds the largest share of the kinetic energy (where the damper acts most)."""
+    the ring removed; default, of its lowest six elastic modes, the lowest in which the
+    housing holds at least 5 % of the kinetic energy (else the one where it holds most)."""
     from .solver import natural_modes
     try:
         link = next(l for l in train.links if l.id == link_id)
@@ -351,8 +388,12 @@ def damper_suggestion(train: Train, link_id: str, mode: int | None = None) -> Da
     modes = natural_modes(rest, n_modes=max(mode or 1, 6))
     h = rest.disc_ids.index(housing)
     elastic = [i for i in range(len(modes)) if modes.elastic[i]]
-    if mode is None:  # the mode the damper acts on most: the housing's largest share of kinetic energy
-        pick = max(elastic, key=lambda i: modes.kinetic_share[i, h]) if elastic else None
+    if mode is None:
+        # the lowest mode the housing takes a real part in (5 % of the kinetic energy: common
+        # practice, no source); a crankshaft damper is sized for it
+        pick = next((i for i in elastic if modes.kinetic_share[i, h] >= 0.05), None)
+        if pick is None and elastic:
+            pick = max(elastic, key=lambda i: modes.kinetic_share[i, h])
     else:
         pick = next((i for i in elastic if int(modes.number[i]) == mode), None)
     if pick is None:

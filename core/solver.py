@@ -672,11 +672,12 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
 def free_bodies(asm: Assembly) -> tuple[np.ndarray | None, list[np.ndarray]]:
     """The train's free body and the rings joined to it by damping alone.
 
-    Components of the node graph joined by members that have stiffness: the
-    largest (most nodes, then most inertia) is the train; it is free (a
-    rigid-body mode) unless a member with stiffness ties it to ground.  Every
-    other component not tied to ground is a ring: a body joined by damping alone
-    (a viscous damper's ring), free in the undamped problem.  Returns (train's
+    Components of the node graph joined by members that have stiffness.  When a
+    member with stiffness ties a component to ground the train is grounded and
+    every component not tied is a ring; otherwise the largest component (most
+    nodes, then most inertia) is the train, free as a rigid body, and the others
+    are rings: bodies joined by damping alone (a viscous damper's ring), free in
+    the undamped problem.  Returns (train's
     node set or None when grounded, list of ring node sets).
     """
     mem = asm.members
@@ -696,10 +697,11 @@ def free_bodies(asm: Assembly) -> tuple[np.ndarray | None, list[np.ndarray]]:
     roots = np.array([find(i) for i in range(n)])
     tied = set(roots[mem.a[stiff & (mem.b < 0)]].tolist())
     comps = [np.flatnonzero(roots == r) for r in dict.fromkeys(roots.tolist())]
-    main = max(range(len(comps)), key=lambda j: (len(comps[j]), asm.node_inertia[comps[j]].sum()))
     free = [j for j in range(len(comps)) if roots[comps[j][0]] not in tied]
-    rings = [comps[j] for j in free if j != main]
-    return (comps[main] if main in free else None), rings
+    if len(free) < len(comps):  # grounded: every free component is a ring
+        return None, [comps[j] for j in free]
+    main = max(free, key=lambda j: (len(comps[j]), asm.node_inertia[comps[j]].sum()))
+    return comps[main], [comps[j] for j in free if j != main]
 
 
 def natural_modes(train: Train, max_frequency_hz: float | None = None,
