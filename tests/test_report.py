@@ -246,8 +246,6 @@ def test_forced_response_section_when_amplitudes_are_given(tmp_path, capsys):
             link["permissible_torque"] = "50 kN*m"
     proj = tmp_path / "amp.json"
     proj.write_text(json.dumps(doc), encoding="utf-8")
-    for csv in SAMPLES[0].parent.glob("*.csv"):  # data files a sample reads (engine pressure curve)
-        (tmp_path / csv.name).write_bytes(csv.read_bytes())
     out = tmp_path / "r.pdf"
     code, _, err = run(["report", str(proj), "-o", str(out)], capsys)
     assert out.exists(), err
