@@ -170,8 +170,12 @@ def excitation_harmonics(train: Train) -> tuple[list[OrderGroup], list[Harmonic]
             if fl.amplitude is None:
                 continue
             mult, off = fl.signed_order * ratio, TWO_PI * fl.offset_hz
-            g = group_of(("line", float(f"{mult:.12g}"), float(f"{off:.12g}")), f"{e.name}: {fl.name}",
-                         mult, None, e.name, None, off)
+            if off == 0.0:  # b N alone: an order, superposed with the same order of other sources
+                g = group_of(("order", float(f"{mult:.12g}")), f"{e.name}: {fl.name}", mult, None, e.name,
+                             fl.order)
+            else:
+                g = group_of(("line", float(f"{mult:.12g}"), float(f"{off:.12g}")), f"{e.name}: {fl.name}",
+                             mult, None, e.name, None, off)
             harmonics.append(Harmonic(g, index[e.at], fl.amplitude, math.radians(fl.phase_deg), None, ratio))
         throws = e.cylinders or ((e.at, 0.0),)
         for o in e.orders:

@@ -82,8 +82,10 @@ def excitation_lines(train: Train, operating: Operating | None = None) -> list[E
             lines.append(ExcitationLine(e.name, o.order, o.order * ratio / TWO_PI, None, e.at,
                                         major=o.order in major))
         for fl in e.lines:  # electric drives: f = a + b N or |a - b N|, N of the `at` shaft
-            lines.append(ExcitationLine(f"{e.name}: {fl.name}", None, fl.signed_order * ratio / TWO_PI,
-                                        None, e.at, offset_hz=fl.offset_hz, formula=f"f = {fl.formula}"))
+            plain = fl.offset_hz == 0.0  # b N alone is an order line (e.g. 6 x the output frequency)
+            lines.append(ExcitationLine(f"{e.name}: {fl.name}", fl.order if plain else None,
+                                        fl.signed_order * ratio / TWO_PI, None, e.at, offset_hz=fl.offset_hz,
+                                        formula=f"f = {fl.formula}"))
     return lines
 
 

@@ -134,6 +134,7 @@ def test_electric_drive_lines_from_pole_pairs_slip_and_harmonics():
                                  (300.0, 6 * fout, "difference"), (600.0, 6 * fout, "sum")])
     s = screen(build_train(doc))
     assert [l.kind for l in s.lines] == ["order", "order", "order", "line", "line"]
+    assert s.lines[0].order == pytest.approx(6 * fout) and s.lines[3].order is None
     assert s.lines[3].source == "Inverter: |6 f_supply − 6 f_out|"
     assert s.cap_hz >= 600.0 + 6 * fout * 50  # the highest line reached at the top speed
 
