@@ -138,7 +138,7 @@ def parse_lines(raw, where: str) -> tuple[FrequencyLine, ...]:
             raise ModelError("must not be negative (use \"combination\": \"difference\")", lw, "order")
         if a == 0 and b == 0:
             raise ModelError("a line needs a frequency offset or an order", lw, "order")
-        comb = _combination(o, lw)
+        comb = _combination(o, lw) if a > 0 else "sum"  # |0 - b N| = b N: an order
         line = FrequencyLine("", a, b, comb, _opt_amplitude(o, lw), _phase(o, lw))
         name = str(o.get("name") or f"f = {line.formula}")
         out.append(FrequencyLine(name, a, b, comb, line.amplitude, line.phase_deg))

@@ -183,3 +183,12 @@ def test_lines_round_trip_through_the_document(tmp_path):
     again = load_document(tmp_path / "p.json")
     assert json.loads(json.dumps(again)) == doc
     assert build_train(again).operating.excitations[0].lines == build_train(doc).operating.excitations[0].lines
+
+
+def test_a_line_without_offset_is_an_order_line():
+    train = build_train(two_disc_doc([{"name": "Drive", "at": "motor", "lines": [
+        {"frequency_offset": "0 Hz", "order": 12, "combination": "difference", "amplitude": "10 N*m"}]}]))
+    line = screen(train).lines[0]
+    assert line.kind == "order" and line.order == 12 and line.slope > 0
+    groups, _ = excitation_harmonics(train)
+    assert groups[0].order == 12 and groups[0].multiplier == 12
