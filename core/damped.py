@@ -181,9 +181,8 @@ def _hysteretic_roots(m: LumpedMatrices, lam0: np.ndarray, w_scale: float, max_f
     lambda^2 M + lambda (C + H / omega) + K near it: inverse iteration on the quadratic
     problem with the two-sided Rayleigh functional (x^T T(lambda) x = 0, T complex
     symmetric) and omega refreshed every step, from the roots of the problem without H
-    (or the undamped ones).  One n x n complex solve per step.
+    (or the undamped ones).  One sparse n x n complex solve per step.
     """
-    n = m.M.shape[0]
     start = lam0[(lam0.imag > 1e-9 * np.abs(lam0)) & (np.abs(lam0) > 1e-7 * w_scale)]
     if max_frequency_hz is not None:
         start = start[np.abs(start) <= 1.25 * TWO_PI * max_frequency_hz]

@@ -34,7 +34,7 @@ from __future__ import annotations
 import math
 import os
 import re
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from functools import lru_cache
 from pathlib import Path
 
@@ -567,7 +567,28 @@ def _cylinders(eng: dict, where: str, disc_ids, strokes: int, layout: str, bank_
 
 
 def parse_engine(eng, name: str, where: str, disc_ids, base_dir=None) -> EngineSpec:
-    """Read the ``"engine": {...}`` of an excitation (see the module docstring for keys)."""
+    """Read the ``"engine": {...}`` of an excitation entry; the keys follow an engine data sheet::
+
+        "engine": {
+          "strokes": 4,                       2 or 4 (default 4)
+          "layout": "in-line" | "V",          default in-line
+          "bank_angle_deg": 60,               V engines given by throw angles
+          "bore": "160 mm", "stroke": "190 mm" (or "crank_radius"), "connecting_rod": "380 mm" (centres),
+          "reciprocating_mass": "6 kg",       per cylinder: piston, pin, rings, the rod's reciprocating part
+          "pressure_curve": {"points": [[crank_deg, p], ...] | "file": "curve.csv", "unit": "bar",
+                             "crankcase_pressure": "1 bar"},       crank angle after firing TDC, one cycle
+          or "tangential_pressure": {"mean_indicated_pressure": "20 bar",
+                                     "orders": [{"order": 0.5, "sin": "1.9 bar", "cos": "0.4 bar"}, ...]},
+          "cylinders": [{"name": "1", "at": "crank_1", "firing_deg": 0 | "throw_deg": 0, "bank": "A"}, ...],
+          "firing_order": ["1", "5", "3", "6", "2", "4"],  with throw_deg (from the crank star) or alone
+                                                           (evenly spaced firing)
+          "highest_order": 12,                orders generated up to this cap
+          "load_fraction": "100 %",           scales the gas torque (load cases)
+          "misfire": {"cylinder": "3", "gas_fraction": 0}
+        }
+
+    ``base_dir``: the folder a relative ``file`` is read from (the project's).
+    """
     if not isinstance(eng, dict):
         raise ModelError("engine must be a JSON object", where, "engine")
     strokes = eng.get("strokes", 4)
