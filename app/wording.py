@@ -12,7 +12,7 @@ def separation_verdict(s, nbsp: str = " ") -> str:
     n_fail = len(s.failures)
     worst = s.failures[0]
     return (f"FAIL — {n_fail} coincidence{'s' if n_fail > 1 else ''} inside the "
-            f"{fmt.percent(s.margin)}{nbsp}% margin (worst: mode {worst.mode} with {worst.source}, "
+            f"{fmt.percent(s.margin)}{nbsp}% margin (worst: mode {worst.mode} with {worst.line.label}, "
             f"{fmt.percent(worst.separation)}{nbsp}%).")
 
 

@@ -64,6 +64,7 @@ class Link:
     # acceptance data (core.ratings.LinkRatings): coupling ratings, fatigue and shafting
     # rule settings, transient permissible values; None when the project gives none
     ratings: object | None = None
+    teeth: tuple[int, int] | None = None  # gear mesh: (teeth on `from`, teeth on `to`)
 
     @property
     def label(self) -> str:
@@ -72,6 +73,11 @@ class Link:
     @property
     def is_rigid(self) -> bool:
         return self.kind == "gear_mesh" and self.stiffness is None
+
+    @property
+    def damping_only(self) -> bool:
+        """A link of damping alone, no stiffness (a viscous damper's ring on its housing)."""
+        return self.stiffness == 0.0 and not self.segments
 
     @property
     def has_geometry(self) -> bool:
@@ -122,6 +128,13 @@ class Excitation:
     # cylinder; each order's amplitude then acts on every throw, with phase
     # phase_deg - order * firing_deg (the vector-sum method of engine torsional analysis)
     cylinders: tuple[tuple[str, float], ...] = ()
+    # a reciprocating engine (core.engine.EngineSpec): its orders are generated from the
+    # cylinder pressure and the crank-slider geometry; the forced response takes the
+    # per-cylinder harmonics from it (core.engine.engine_harmonics)
+    engine: object | None = None
+    # speed-dependent lines f = offset + b N or |offset - b N| (core.electric.FrequencyLine),
+    # N the speed of the `at` shaft: electric drives
+    lines: tuple = ()
 
 
 @dataclass(frozen=True)

@@ -16,6 +16,9 @@ from pathlib import Path
 
 from . import units as u
 from .errors import ModelError
+from .electric import parse_electric_drive, parse_lines
+from .engine import parse_engine
+from .gears import gear_mesh_fields
 from .materials import LIBRARY, Material
 from .ratings import attach_ratings
 from .model import (LINK_KINDS, MASS_MODELS, Disc, Excitation, Link, Operating,
@@ -30,7 +33,6 @@ class ProjectFileError(ModelError):
 
 
 # ---------------------------------------------------------------- file level
-MIN_GEAR_RATIO = 1e-3  # one stage between 1:1000 and 1000:1 (real stages stay within 1:20)
 MAX_SPEED_FACTOR = 1e6  # any shaft's speed against the first disc's, over all stages
 MAX_FILE_BYTES = 256 * 1024 * 1024  # far above any real train (a 100 000-disc chain is ~15 MB)
 MAX_NESTING = 32  # a project nests a few levels deep; hostile files nest thousands
@@ -50,6 +52,14 @@ def _nesting_depth(obj) -> int:
             return d
         stack.extend((v, d + 1) for v in o if isinstance(v, (dict, list)))
     return depth
+
+
+class ProjectDocument(dict):
+    """The document dict as read from a file, remembering the file's folder (``base_dir``),
+    against which relative paths inside it (an engine's pressure-curve CSV) are read.
+    It is a plain dict to everything else; ``copy.deepcopy`` keeps the folder."""
+
+    base_dir: str | None = None
 
 
 def parse_document(text: str) -> dict:
@@ -94,7 +104,9 @@ def load_document(path: str | os.PathLike) -> dict:
         raise ProjectFileError("file not found", "file") from None
     except (OSError, UnicodeDecodeError) as exc:
         raise ProjectFileError(f"cannot read the file ({exc})", "file") from None
-    return parse_document(text)
+    doc = ProjectDocument(parse_document(text))
+    doc.base_dir = str(path.resolve().parent)
+    return doc
 
 
 def dump_document(doc: dict) -> str:
@@ -269,12 +281,13 @@ def _link(obj, index: int) -> Link:
             raise ModelError("missing disc id", where, key)
         ends.append(v)
     k = _opt(obj, "stiffness", u.STIFFNESS, where)
-    if k is not None:
-        _positive(k, where, "stiffness", unit="N*m/rad")
+    if k is not None:  # zero: a coupling of damping alone (a viscous damper's ring)
+        _positive(k, where, "stiffness", unit="N*m/rad", allow_zero=kind == "coupling")
     segments: tuple[Segment, ...] = ()
     material = None
     mass = obj.get("mass")
     ratio = 1.0
+    teeth = None
     if kind == "shaft":
         raw = obj.get("segments")
         if raw is not None:
@@ -314,18 +327,22 @@ def _link(obj, index: int) -> Link:
             raise ModelError("only shafts carry a mass model", where, "mass")
         mass = "none"
         if kind == "coupling" and k is None:
-            raise ModelError("a coupling needs a stiffness", where, "stiffness")
+            if obj.get("damping") is None:
+                raise ModelError("a coupling needs a stiffness (or, for a viscous damper's ring, "
+                                 "a damping alone)", where, "stiffness")
+            k = 0.0
         if kind == "gear_mesh":
-            if "speed_ratio" not in obj:
-                raise ModelError("a gear mesh needs a speed_ratio (speed of 'to' / speed of 'from')",
-                                 where, "speed_ratio")
-            ratio = u.parse_number(obj["speed_ratio"], where, "speed_ratio")
-            if not MIN_GEAR_RATIO <= ratio <= 1.0 / MIN_GEAR_RATIO:
-                raise ModelError(f"speed_ratio (speed of 'to' / speed of 'from') must lie between "
-                                 f"{MIN_GEAR_RATIO:g} and {1 / MIN_GEAR_RATIO:g} for one gear stage, "
-                                 f"got {ratio:g}", where, "speed_ratio")
+            ratio, teeth, k = gear_mesh_fields(obj, where, k)
     c = _opt(obj, "damping", u.DAMPING, where) or 0.0
     _positive(c, where, "damping", allow_zero=True)
+    eta = _loss_factor(obj, where)
+    if k == 0.0:  # a damper's ring: damping only
+        if c <= 0:
+            raise ModelError("a coupling without stiffness needs a damping above zero", where, "damping")
+        if eta:
+            raise ModelError("a loss factor needs a stiffness; a damper's ring takes a viscous damping",
+                             where, next(f for f in ("loss_factor", "relative_damping", "dynamic_magnifier")
+                                         if obj.get(f) is not None))
     scf = u.parse_number(obj.get("stress_concentration", 1.0), where, "stress_concentration")
     if scf < 1.0:
         raise ModelError(f"a stress concentration factor is at least 1, got {scf:g}", where,
@@ -338,7 +355,7 @@ def _link(obj, index: int) -> Link:
         _positive(ps, where, "permissible_stress")
     name = obj.get("name")
     return Link(lid, kind, ends[0], ends[1], k, segments, material, mass, ratio, c,
-                _loss_factor(obj, where), scf, pt, ps, str(name) if name else "")
+                eta, scf, pt, ps, str(name) if name else "", teeth=teeth)
 
 
 def _order(obj, where: str, index: int) -> Order:
@@ -386,7 +403,7 @@ def _cylinders(raw, where: str, disc_ids) -> tuple[tuple[str, float], ...]:
     return tuple(out)
 
 
-def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
+def _operating(doc: dict, disc_ids: set[str], base_dir=None) -> Operating | None:
     if "operating_speed" not in doc and "excitations" not in doc and "reference" not in doc:
         return None
     where = "operating data"
@@ -442,6 +459,12 @@ def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
                                           u.parse_number(e.get("phase_deg", 0.0), ew, "phase_deg"),
                                           applied_at))
             continue
+        if e.get("engine") is not None:
+            excitations.append(_engine_excitation(e, name, ew, disc_ids, base_dir))
+            continue
+        if e.get("lines") is not None or e.get("electric_drive") is not None:
+            excitations.append(_line_excitation(e, name, ew, disc_ids))
+            continue
         cylinders = _cylinders(e.get("cylinders"), ew, disc_ids)
         at = e.get("at")
         if at is None and cylinders:
@@ -457,11 +480,40 @@ def _operating(doc: dict, disc_ids: set[str]) -> Operating | None:
                      str(sp.get("name", "Operating range")))
 
 
-def build_train(doc: dict, base_dir: str | os.PathLike | None = None) -> Train:
+def _engine_excitation(e: dict, name: str, ew: str, disc_ids, base_dir) -> Excitation:
+    """An excitation entry with ``"engine": {...}`` (core.engine): its orders up to the cap."""
+    for key in ("orders", "cylinders", "at"):
+        if e.get(key) is not None:
+            raise ModelError(f"an engine excitation takes its {key} from the engine data", ew, key)
+    spec = parse_engine(e["engine"], name, ew, disc_ids, base_dir)
+    return Excitation(name, spec.cylinders[0].disc, tuple(Order(n) for n in spec.orders), engine=spec)
+
+
+def _line_excitation(e: dict, name: str, ew: str, disc_ids) -> Excitation:
+    """An excitation entry with ``"lines"`` and/or ``"electric_drive"`` (core.electric)."""
+    at = e.get("at")
+    if at not in disc_ids:
+        raise ModelError(f"unknown disc '{at}' (the shaft whose speed N the lines follow)", ew, "at")
+    lines = ()
+    if e.get("electric_drive") is not None:
+        lines += parse_electric_drive(e["electric_drive"], ew)
+    if e.get("lines") is not None:
+        lines += parse_lines(e["lines"], ew)
+    orders = e.get("orders")
+    parsed = tuple(_order(o, ew, j) for j, o in enumerate(orders)) if isinstance(orders, list) else ()
+    if orders is not None and not isinstance(orders, list):
+        raise ModelError("orders must be a list", ew, "orders")
+    return Excitation(name, at, parsed, lines=lines)
+
+
+def build_train(doc: dict, base_dir=None) -> Train:
     """Validate a project document and return the SI model (raises ModelError).
 
-    ``base_dir``: the project file's folder, for files the project names by a
-    relative path (a transient torque's CSV table); the working folder when None."""
+    ``base_dir``: the project file's folder, against which relative file paths in
+    the document (an engine's pressure-curve CSV) are read; by default the folder a
+    :class:`ProjectDocument` was loaded from."""
+    if base_dir is None:
+        base_dir = getattr(doc, "base_dir", None)
     if not isinstance(doc, dict):
         raise ProjectFileError("a project must be a JSON object", "file")
     raw_discs = doc.get("discs")
@@ -487,13 +539,18 @@ def build_train(doc: dict, base_dir: str | os.PathLike | None = None) -> Train:
                                  "(or model an adjoining shaft's mass)", f"disc '{d.id}'", "inertia")
     if sum(d.inertia for d in discs) + sum(l.own_inertia for l in links if l.mass != "none") <= 0:
         raise ModelError("the train has no inertia", "train", "discs")
-    operating = _operating(doc, set(speed))
+    operating = _operating(doc, set(speed), base_dir)
     for e in operating.excitations if operating else ():
         for i, (cid, _) in enumerate(e.cylinders):
             if not math.isclose(speed[cid], speed[e.at], rel_tol=1e-9):
                 raise ModelError(f"disc '{cid}' turns at a different speed from '{e.at}'; all cylinders "
                                  "of one excitation must be on the same shaft",
                                  f"excitation '{e.name}' cylinder {i + 1}", "at")
+        for i, c in enumerate(e.engine.cylinders if e.engine is not None else ()):
+            if not math.isclose(speed[c.disc], speed[e.at], rel_tol=1e-9):
+                raise ModelError(f"disc '{c.disc}' turns at a different speed from '{e.at}'; all cylinders "
+                                 "of one engine must be on the same shaft",
+                                 f"excitation '{e.name}' engine cylinder {i + 1}", "at")
     title = doc.get("title")
     transients, sn_curves = _transients(doc, speed, links, base_dir)
     train = Train(str(title) if title else "Untitled train", discs, links, operating, speed,

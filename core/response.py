@@ -95,11 +95,14 @@ class OrderGroup:
     multiplier: float  # rad/s of excitation per rad/s of reference speed (0 when fixed)
     fixed_omega: float | None  # rad/s, fixed-frequency sources
     sources: tuple[str, ...]
-    order: float | None  # order on the source shaft (first source), None if fixed
+    order: float | None  # order on the source shaft (first source), None if fixed or a line
+    offset_omega: float = 0.0  # rad/s: a line omega = |offset_omega + multiplier speed| (electric drives)
 
     def omega(self, speed: np.ndarray) -> np.ndarray:
         if self.fixed_omega is not None:
             return np.full(np.shape(speed), self.fixed_omega)
+        if self.offset_omega:
+            return np.abs(self.offset_omega + self.multiplier * np.asarray(speed, float))
         return self.multiplier * np.asarray(speed, float)
 
 
@@ -113,6 +116,8 @@ def has_amplitudes(train: Train) -> bool:
             if e.amplitude is not None:
                 return True
         elif any(o.amplitude is not None for o in e.orders):
+            return True
+        elif e.engine is not None or any(fl.amplitude is not None for fl in e.lines):
             return True
     return False
 
@@ -128,10 +133,10 @@ def excitation_harmonics(train: Train) -> tuple[list[OrderGroup], list[Harmonic]
     labels: list[list] = []
     harmonics: list[Harmonic] = []
 
-    def group_of(key, label, multiplier, fixed, source, order):
+    def group_of(key, label, multiplier, fixed, source, order, offset=0.0):
         if key not in keys:
             keys[key] = len(labels)
-            labels.append([label, multiplier, fixed, [source], order])
+            labels.append([label, multiplier, fixed, [source], order, offset])
         else:
             g = labels[keys[key]]
             if source not in g[3]:
@@ -152,6 +157,27 @@ def excitation_harmonics(train: Train) -> tuple[list[OrderGroup], list[Harmonic]
                                       None, 1.0))
             continue
         ratio = train.relative_speed(e.at, op.reference)
+        if e.engine is not None:  # per cylinder: gas torque (constant) + inertia torque (speed squared)
+            for h in e.engine.harmonics():
+                g = group_of(("order", float(f"{h.order * ratio:.12g}")), f"{e.name}, order {h.order:g}",
+                             h.order * ratio, None, e.name, h.order)
+                if h.gas != 0:
+                    harmonics.append(Harmonic(g, index[h.disc], abs(h.gas), float(np.angle(h.gas)), None, ratio))
+                if h.inertia != 0:  # amplitude at 1 rad/s of the crank shaft, times speed squared
+                    harmonics.append(Harmonic(g, index[h.disc], abs(h.inertia), float(np.angle(h.inertia)),
+                                              1.0, ratio))
+            continue
+        for fl in e.lines:  # omega = |2 pi a + b ratio speed|
+            if fl.amplitude is None:
+                continue
+            mult, off = fl.signed_order * ratio, TWO_PI * fl.offset_hz
+            if off == 0.0:  # b N alone: an order, superposed with the same order of other sources
+                g = group_of(("order", float(f"{mult:.12g}")), f"{e.name}: {fl.name}", mult, None, e.name,
+                             fl.order)
+            else:
+                g = group_of(("line", float(f"{mult:.12g}"), float(f"{off:.12g}")), f"{e.name}: {fl.name}",
+                             mult, None, e.name, None, off)
+            harmonics.append(Harmonic(g, index[e.at], fl.amplitude, math.radians(fl.phase_deg), None, ratio))
         throws = e.cylinders or ((e.at, 0.0),)
         for o in e.orders:
             if o.amplitude is None:
@@ -168,11 +194,11 @@ def excitation_harmonics(train: Train) -> tuple[list[OrderGroup], list[Harmonic]
                          "\"amplitude\": \"1.2 kN*m\"} for a forced response", "operating data",
                          "excitations")
     groups = []
-    for label, mult, fixed, sources, order in labels:
+    for label, mult, fixed, sources, order, offset in labels:
         if len(sources) > 1:
             label = " + ".join(sources) + (f" ({fixed / TWO_PI:g} Hz)" if fixed is not None
                                            else f", {mult:g} x reference speed")
-        groups.append(OrderGroup(label, mult, fixed, tuple(sources), order))
+        groups.append(OrderGroup(label, mult, fixed, tuple(sources), order, offset))
     return groups, harmonics
 
 
@@ -211,13 +237,20 @@ def default_speeds(train: Train, groups: list[OrderGroup] | None = None,
 
 def crossing_speeds(train: Train, groups: list[OrderGroup], lo: float, hi: float) -> np.ndarray:
     """Reference speeds (rad/s) in (lo, hi) where an order meets an undamped natural frequency."""
-    mults = np.array([g.multiplier for g in groups if g.fixed_omega is None and g.multiplier > 0])
-    if not mults.size or hi <= 0:
+    plain = [g for g in groups if g.fixed_omega is None and not g.offset_omega]
+    mults = np.array([g.multiplier for g in plain if g.multiplier > 0])
+    lines = [g for g in groups if g.fixed_omega is None and g.offset_omega]
+    if (not mults.size and not lines) or hi <= 0:
         return np.zeros(0)
     from .solver import natural_modes
-    modes = natural_modes(train, max_frequency_hz=float(mults.max() * hi / TWO_PI) * 1.05)
+    top = max([float(mults.max() * hi) if mults.size else 0.0] +
+              [max(abs(g.offset_omega), abs(g.offset_omega + g.multiplier * hi)) for g in lines])
+    modes = natural_modes(train, max_frequency_hz=top / TWO_PI * 1.05)
     wn = TWO_PI * modes.frequency_hz[modes.elastic]
-    cross = (wn[:, None] / mults[None, :]).ravel()
+    cross = (wn[:, None] / mults[None, :]).ravel() if mults.size else np.zeros(0)
+    for g in lines:  # |c + m N| = wn: N = (wn - c) / m or (-wn - c) / m (closed form)
+        if g.multiplier:
+            cross = np.r_[cross, (wn - g.offset_omega) / g.multiplier, (-wn - g.offset_omega) / g.multiplier]
     return np.sort(cross[(cross > lo) & (cross < hi)])
 
 
@@ -397,6 +430,8 @@ def _families(groups: list[OrderGroup]):
         for j in range(i + 1, n):
             if (groups[i].fixed_omega is None) != (groups[j].fixed_omega is None):
                 continue  # a fixed frequency drifts against speed-proportional orders
+            if groups[i].offset_omega or groups[j].offset_omega:
+                continue  # a line a + b N drifts against everything else
             if value(groups[i]) <= 0 or value(groups[j]) <= 0:
                 continue
             if ratio(i, j) is not None:
@@ -557,15 +592,20 @@ class _Setup:
         self.member_to_link = sp.csr_matrix((np.ones(n_mem), (mem.link, np.arange(n_mem))),
                                             shape=(len(train.links), n_mem))
         self.eta = np.array([l.loss_factor for l in train.links])[mem.link]
-        self.c_over_k = np.array([l.damping / l.total_stiffness if not l.is_rigid and l.damping else 0.0
+        self.c_over_k = np.array([l.damping / l.total_stiffness
+                                  if not l.is_rigid and l.damping and not l.damping_only else 0.0
                                   for l in train.links])[mem.link]
-        self.damped = bool(np.any(self.eta) or np.any(self.c_over_k))
+        # links of damping alone (a viscous damper's ring): referred dashpot i omega c s^2
+        self.c_pure = np.array([l.damping if l.damping_only else 0.0 for l in train.links])[mem.link] \
+            * mem.scale ** 2
+        self.pure = np.flatnonzero(self.c_pure > 0)
+        self.damped = bool(np.any(self.eta) or np.any(self.c_over_k) or len(self.pure))
         node_c = np.zeros(asm.n_nodes)
         np.add.at(node_c, asm.disc_node, np.array([d.damping for d in train.discs]) * asm.disc_scale ** 2)
         self.node_c = node_c
         self.node_c_e = node_c[self.schedule.order][:, None]
         # springs without viscous link damping: the complex stiffness is the same at every omega
-        self.constant_stiffness = not (np.any(mem.L_over_c > 0) or np.any(self.c_over_k))
+        self.constant_stiffness = not (np.any(mem.L_over_c > 0) or np.any(self.c_over_k) or len(self.pure))
         if self.constant_stiffness:
             self.mu_static = (1.0 + 1j * self.eta)[:, None]
             self.kmu_static = mem.k[:, None] * self.mu_static
@@ -605,6 +645,10 @@ def _solve_chunk(train, st: _Setup, w, forcing, forced):
     else:
         mu = 1.0 + 1j * (st.eta[:, None] + st.c_over_k[:, None] * w[None, :])
         kaa, kab, x_dist = _complex_members(mem, mu, w)
+        if len(st.pure):
+            z = 1j * st.c_pure[st.pure][:, None] * w[None, :]
+            kaa[st.pure] += z
+            kab[st.pure] -= z
         D = st.incidence_e @ kaa  # diagonal, already in elimination order
         D -= st.inertia_e * (w * w)[None, :]
     if st.node_c.any():
@@ -616,7 +660,7 @@ def _solve_chunk(train, st: _Setup, w, forcing, forced):
     rhs = np.asarray(st.disc_to_node_e[:, forced] @ forcing, complex)
     _, _, factors = factor(sch, D, W, st.tiny, logdet=False, keep=True)
     phi = solve_factored(sch, factors, rhs)[st.position]  # back to node order
-    Tst = _station_torques(mem, mu, x_dist, phi, st)
+    Tst = _station_torques(mem, mu, x_dist, phi, st, w)
     if st.rigid:
         full = np.zeros((len(train.discs), m), complex)
         full[forced] = forcing
@@ -642,7 +686,7 @@ def _member_power(st: _Setup, w, phi, kaa, kab):
     return out
 
 
-def _station_torques(members, mu, x_dist, phi, st: _Setup):
+def _station_torques(members, mu, x_dist, phi, st: _Setup, w=None):
     """Torque phasors at every station, in the member's own shaft (n_stations, m).
 
     A spring carries k* (theta_a - theta_b) throughout; a distributed member
@@ -657,6 +701,9 @@ def _station_torques(members, mu, x_dist, phi, st: _Setup):
         twist[~grounded] -= phi[members.b[springs[~grounded]]]
     gain = (members.k[springs] / members.scale[springs])[:, None]
     out = [twist * (gain * mu[springs]) if st.damped else twist * gain]
+    if len(st.pure):  # a damper's ring: T = i omega c twist (actual = referred / scale)
+        j = np.searchsorted(springs, st.pure)
+        out[0][j] += twist[j] * (1j * (st.c_pure[st.pure] / members.scale[st.pure])[:, None] * w[None, :])
     if st.dist.any():
         pa = phi[members.a]
         pb = np.where(st.tree[:, None], phi[np.maximum(members.b, 0)], 0.0)
@@ -747,6 +794,7 @@ def forced_response(train: Train, speeds=None, chunk_columns: int = 4096,
     geom_st = np.flatnonzero(np.isfinite(st.st_factor))  # stations that carry a stress
     springs = np.flatnonzero(~st.dist)  # spring members are the first stations
     ks = (mem.k / mem.scale ** 2)[springs][:, None]
+    ks = np.where(ks > 0, ks, 1.0)  # a damper's ring (k = 0) has its own power formula
     damped_discs = np.flatnonzero([d.damping > 0 for d in train.discs])
     disc_c = np.array([d.damping for d in train.discs])[damped_discs][:, None]
     Tst_all = np.empty((n_st, ng, ns), complex)  # kept for the phase-aware synthesis
@@ -803,6 +851,10 @@ def forced_response(train: Train, speeds=None, chunk_columns: int = 4096,
                 loss = st.eta[springs][:, None] + st.c_over_k[springs][:, None] * w[None, :]
                 p_sp *= loss / (ks * (1.0 + loss ** 2))
             p_sp *= 0.5 * w[None, :]
+            if len(st.pure):  # dashpot alone: omega/2 Im(k*) / |k*|^2 |T|^2 = |T|^2 / (2 c)
+                j = np.searchsorted(springs, st.pure)
+                c_act = (st.c_pure[st.pure] / mem.scale[st.pure] ** 2)[:, None]
+                p_sp[j] = absT[j] ** 2 / (2.0 * c_act)
             p_mem[springs] = p_sp
             power[:, s0:s1] = (st.member_to_link @ p_mem).reshape(nl, ng, cs).sum(1)
 

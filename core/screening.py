@@ -20,6 +20,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from .electric import line_band, line_crossings
 from .model import Operating, Train
 from .solver import Modes, natural_modes
 
@@ -29,26 +30,41 @@ DEFAULT_MARGIN = 0.10  # API 617 / API 684 separation margin (from memory)
 
 @dataclass(frozen=True)
 class ExcitationLine:
-    """One order of one source (or a fixed frequency) on the interference diagram."""
+    """One order of one source, a fixed frequency, or a speed-dependent line
+    f = |offset_hz + slope N| (electric drives) on the interference diagram."""
 
     source: str
-    order: float | None  # None for a fixed-frequency source
-    slope: float  # Hz per rad/s of reference speed (0 for fixed)
+    order: float | None  # None for a fixed-frequency source or a line with an offset
+    slope: float  # Hz per rad/s of reference speed (0 for fixed; negative: |a - b N|)
     fixed_hz: float | None
     at: str | None
+    offset_hz: float = 0.0  # Hz at zero speed of a line f = |offset_hz + slope N|
+    major: bool = False  # a major order of an engine (all cylinders in phase)
+    formula: str | None = None  # "f = |300 Hz − 12·N|" for a line with an offset
+
+    @property
+    def kind(self) -> str:
+        """"fixed", "order" or "line" (a + b N or |a - b N|)."""
+        if self.fixed_hz is not None:
+            return "fixed"
+        return "order" if self.offset_hz == 0.0 and self.slope >= 0 else "line"
 
     def frequency(self, speed):
         """Excitation frequency in Hz at reference speed(s) in rad/s."""
         speed = np.asarray(speed, float)
         if self.fixed_hz is not None:
             return np.full(speed.shape, self.fixed_hz)
-        return self.slope * speed
+        if self.offset_hz == 0.0 and self.slope >= 0:
+            return self.slope * speed
+        return np.abs(self.offset_hz + self.slope * speed)
 
     @property
     def label(self) -> str:
-        if self.order is None:
+        if self.fixed_hz is not None:
             return f"{self.source} ({self.fixed_hz:g} Hz)"
-        return f"{self.source}, order {self.order:g}"
+        if self.order is None:
+            return f"{self.source} ({self.formula})" if self.formula else self.source
+        return f"{self.source}, order {self.order:g}" + (" (major)" if self.major else "")
 
 
 def excitation_lines(train: Train, operating: Operating | None = None) -> list[ExcitationLine]:
@@ -61,15 +77,24 @@ def excitation_lines(train: Train, operating: Operating | None = None) -> list[E
             lines.append(ExcitationLine(e.name, None, 0.0, e.frequency, None))
             continue
         ratio = train.relative_speed(e.at, op.reference)
+        major = set(e.engine.major_orders) if e.engine is not None else set()
         for o in e.orders:
-            lines.append(ExcitationLine(e.name, o.order, o.order * ratio / TWO_PI, None, e.at))
+            lines.append(ExcitationLine(e.name, o.order, o.order * ratio / TWO_PI, None, e.at,
+                                        major=o.order in major))
+        for fl in e.lines:  # electric drives: f = a + b N or |a - b N|, N of the `at` shaft
+            plain = fl.offset_hz == 0.0  # b N alone is an order line (e.g. 6 x the output frequency)
+            lines.append(ExcitationLine(f"{e.name}: {fl.name}", fl.order if plain else None,
+                                        fl.signed_order * ratio / TWO_PI, None, e.at, offset_hz=fl.offset_hz,
+                                        formula=f"f = {fl.formula}"))
     return lines
 
 
 def highest_excitation_hz(lines, speed_max: float) -> float:
+    """Highest excitation frequency reachable from standstill to ``speed_max`` (a line
+    |a + b N| is largest at one end of the span)."""
     if not lines:
         return 0.0
-    return max(float(l.frequency(speed_max)) for l in lines)
+    return max(max(float(l.frequency(speed_max)), float(l.frequency(0.0))) for l in lines)
 
 
 def screening_cap_hz(lines, speed_max: float, margin: float) -> float:
@@ -107,6 +132,8 @@ class Coincidence:
 def pair_separation(f_n: float, line: ExcitationLine, speed_min: float, speed_max: float,
                     margin: float):
     """(smallest separation, speed where it occurs, crossing speed, band) for one pair."""
+    if line.kind == "line":
+        return _line_separation(f_n, line, speed_min, speed_max, margin)
     if line.fixed_hz is not None:
         f_e = line.fixed_hz
         sep = abs(f_n - f_e) / f_e
@@ -122,6 +149,39 @@ def pair_separation(f_n: float, line: ExcitationLine, speed_min: float, speed_ma
         sep, worst = (s_lo, speed_min) if s_lo < s_hi else (s_hi, speed_max)
     hi = f_n / (a * (1.0 - margin)) if margin < 1 else np.inf
     band = (f_n / (a * (1.0 + margin)), hi) if margin > 0 else None
+    return sep, worst, crossing, band
+
+
+def _line_separation(f_n: float, line: ExcitationLine, speed_min: float, speed_max: float,
+                     margin: float):
+    """pair_separation for a line f_e = |a + s N| (closed form).
+
+    Crossings solve |a + s N| = f_n exactly (two at most, one each side of the
+    vertex).  Without a crossing in the range f_e - f_n keeps its sign there, so
+    the separation |f_n - f_e| / f_e is smallest at one end of the range.  The
+    band is the interval of speeds within the margin that holds the worst speed
+    (or the nearest one: a difference line can have one each side of its vertex).
+    """
+    a, s = line.offset_hz, line.slope
+    cross = line_crossings(a, s, f_n)
+    inside = cross[(cross >= speed_min) & (cross <= speed_max)]
+    if len(inside):
+        sep, worst = 0.0, float(inside[0])
+        crossing = worst
+    else:
+        seps = []
+        for n in (speed_min, speed_max):
+            fe = float(line.frequency(n))
+            seps.append((abs(f_n - fe) / fe if fe > 0 else np.inf, n))
+        sep, worst = min(seps)
+        crossing = None
+        if len(cross):
+            crossing = float(cross[np.argmin(np.minimum(abs(cross - speed_min), abs(cross - speed_max)))])
+    bands = line_band(a, s, f_n, margin)
+    band = None
+    if bands:
+        band = min(bands, key=lambda b: 0.0 if b[0] <= worst <= b[1] else min(abs(b[0] - worst),
+                                                                             abs(b[1] - worst)))
     return sep, worst, crossing, band
 
 

@@ -722,6 +722,41 @@ class ModeLimitError(ModelError):
                          "mode shapes fit in memory)", "option", "--modes")
 
 
+def free_bodies(asm: Assembly) -> tuple[np.ndarray | None, list[np.ndarray]]:
+    """The train's free body and the rings joined to it by damping alone.
+
+    Components of the node graph joined by members that have stiffness.  When a
+    member with stiffness ties a component to ground the train is grounded and
+    every component not tied is a ring; otherwise the largest component (most
+    nodes, then most inertia) is the train, free as a rigid body, and the others
+    are rings: bodies joined by damping alone (a viscous damper's ring), free in
+    the undamped problem.  Returns (train's
+    node set or None when grounded, list of ring node sets).
+    """
+    mem = asm.members
+    n = asm.n_nodes
+    parent = np.arange(n)
+
+    def find(i):
+        while parent[i] != i:
+            parent[i] = parent[parent[i]]
+            i = parent[i]
+        return i
+
+    stiff = mem.k > 0
+    tree = stiff & (mem.b >= 0)
+    for a, b in zip(mem.a[tree], mem.b[tree]):
+        parent[find(int(a))] = find(int(b))
+    roots = np.array([find(i) for i in range(n)])
+    tied = set(roots[mem.a[stiff & (mem.b < 0)]].tolist())
+    comps = [np.flatnonzero(roots == r) for r in dict.fromkeys(roots.tolist())]
+    free = [j for j in range(len(comps)) if roots[comps[j][0]] not in tied]
+    if len(free) < len(comps):  # grounded: every free component is a ring
+        return None, [comps[j] for j in free]
+    main = max(free, key=lambda j: (len(comps[j]), asm.node_inertia[comps[j]].sum()))
+    return comps[main], [comps[j] for j in free if j != main]
+
+
 def natural_modes(train: Train, max_frequency_hz: float | None = None,
                   n_modes: int | None = None) -> Modes:
     """Natural frequencies and modes of ``train``.
@@ -734,7 +769,9 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
     """
     t0 = time.perf_counter()
     system = dynamic_system(train)
-    rb = 0 if system.asm.grounded else 1
+    train_body, rings = free_bodies(system.asm)
+    rb = 0 if train_body is None else 1
+    n_zero = rb + len(rings)  # zero roots: the train's rigid-body mode and each free ring
     notes = []
     limit = mode_limit(system.n_dof)
     if n_modes is not None and int(n_modes) > limit:
@@ -742,25 +779,34 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
     if max_frequency_hz is not None:
         cap_w = TWO_PI * max_frequency_hz
         total = int(system.count(cap_w)[0])
-        if total - rb > limit:
-            raise ModeLimitError(total - rb, limit, max_frequency_hz)
-        targets = np.arange(rb, total)
+        if total - n_zero > limit:
+            raise ModeLimitError(total - n_zero, limit, max_frequency_hz)
+        targets = np.arange(n_zero, total)
         hi = cap_w
         requested = f"all modes up to {max_frequency_hz:.6g} Hz"
     else:
         N = 10 if n_modes is None else int(n_modes)
         finite = system.asm.n_finite_modes
-        want = N + rb
+        want = N + n_zero
         if finite is not None and want > finite:
-            notes.append(f"the lumped model has only {finite - rb} elastic modes")
+            notes.append(f"the lumped model has only {finite - n_zero} elastic modes")
             want = finite
-        hi, total = _upper_bound(system, want) if want > rb else (1.0, None)
-        targets = np.arange(rb, want)
+        hi, total = _upper_bound(system, want) if want > n_zero else (1.0, None)
+        targets = np.arange(n_zero, want)
         requested = f"lowest {N} elastic modes"
     if len(targets):
         omega, phi = _find_roots(system, targets, hi, total)
     else:
         omega, phi = np.zeros(0), np.zeros((system.n_dof, 0))
+    for nodes in rings:  # a ring joined by damping alone stays at rest in the elastic modes
+        J = system.asm.node_inertia[nodes]
+        x = phi[nodes]
+        phi[nodes] = x - (J @ x)[None, :] / max(J.sum(), 1e-300)
+    if rings:
+        names = [train.disc_ids[i] for i in range(len(train.discs))
+                 if any(system.asm.disc_node[i] in set(r.tolist()) for r in rings)]
+        notes.append("joined by damping alone (damper free): " + ", ".join(f"'{d}'" for d in names)
+                     + " takes no part in the undamped modes; see the damper-locked and damped frequencies")
     if rb:
         omega = np.r_[0.0, omega]
         phi = np.c_[np.ones(system.n_dof), phi]
@@ -771,7 +817,7 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         torque[0] = 0.0
         strain[0] = 0.0
     numbers = np.arange(len(omega)) + (1 - rb)
-    if system.asm.n_finite_modes is not None and len(omega) >= system.asm.n_finite_modes:
+    if system.asm.n_finite_modes is not None and len(omega) + len(rings) >= system.asm.n_finite_modes:
         complete = float("inf")
     elif max_frequency_hz is not None:
         complete = float(max_frequency_hz)

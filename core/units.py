@@ -829,3 +829,13 @@ UNIT_SYSTEMS = {
 
 def display_unit(kind: Kind, system: str = "SI") -> str:
     return UNIT_SYSTEMS[system][kind.name]
+
+
+# Kinds for engine, electric-drive and gear data (core.engine, core.electric, core.gears).
+PRESSURE = Kind("pressure", "Pa", "18 bar")
+MASS = Kind("mass", "kg", "4.2 kg")
+MESH_STIFFNESS = Kind("mesh stiffness per face width", "N/m^2", "20 N/(mm*um)")
+for _k in (PRESSURE, MASS, MESH_STIFFNESS):
+    KINDS[_k.name] = _k
+UNIT_SYSTEMS["SI"].update({"pressure": "bar", "mass": "kg", "mesh stiffness per face width": "N/(mm*um)"})
+UNIT_SYSTEMS["US"].update({"pressure": "psi", "mass": "lb", "mesh stiffness per face width": "lbf/(in*thou)"})

@@ -239,7 +239,8 @@ def test_us_units_and_letter_paper(tmp_path, capsys):
 def test_forced_response_section_when_amplitudes_are_given(tmp_path, capsys):
     response = pytest.importorskip("core.response")
     doc = load_document(next(p for p in SAMPLES if p.stem == "engine_genset"))
-    doc["excitations"][0]["orders"] = [{"order": 3, "amplitude": "2.1 kN*m"}, {"order": 6, "amplitude": "0.9 kN*m"}]
+    doc["excitations"].insert(0, {"name": "Firing, major orders", "at": "crank_1", "orders": [
+        {"order": 3, "amplitude": "2.1 kN*m"}, {"order": 6, "amplitude": "0.9 kN*m"}]})
     for link in doc["links"]:
         if link["id"] == "flex_coupling":
             link["permissible_torque"] = "50 kN*m"

@@ -214,6 +214,34 @@ def _rescale_shares(items: list) -> None:
         i["share"] = f"{100.0 * v / total:.6g} %"
 
 
+def _drop_engine_cylinder(engine: dict, gone: str) -> bool:
+    """Remove the engine cylinder at disc ``gone``, keeping every other cylinder's firing angle
+    (an even firing order becomes explicit angles).  False where that cannot be done (crank
+    throw angles, a V engine, the last cylinder): the caller removes the excitation."""
+    cyl = [c for c in engine.get("cylinders") if isinstance(c, dict)]
+    left = [c for c in cyl if c.get("at") != gone]
+    if not left or any("throw_deg" in c for c in cyl) or engine.get("layout", "in-line") != "in-line":
+        return False
+    order = engine.get("firing_order")
+    if order is not None:
+        if not isinstance(order, list) or any("firing_deg" in c for c in cyl):
+            return False
+        cycle = 720.0 if engine.get("strokes", 4) in (4, "4") else 360.0
+        step = cycle / len(cyl)
+        names = [str(c.get("name", i + 1)) for i, c in enumerate(cyl)]
+        angle = {str(n): j * step for j, n in enumerate(order)}
+        for c, n in zip(cyl, names):
+            if n not in angle:
+                return False
+            c["firing_deg"] = angle[n]
+        engine.pop("firing_order")
+    engine["cylinders"] = left
+    mis = engine.get("misfire")
+    if isinstance(mis, dict) and all(str(c.get("name")) != str(mis.get("cylinder")) for c in left):
+        engine.pop("misfire")
+    return True
+
+
 def _fix_references(doc: dict, gone: str, names: dict | None = None) -> list[str]:
     """Everything that named the deleted disc ``gone``; returns what changed, in words.
 
@@ -253,8 +281,11 @@ def _fix_references(doc: dict, gone: str, names: dict | None = None) -> list[str
             if isinstance(engine, dict):
                 ecyl = engine.get("cylinders")
                 if isinstance(ecyl, list) and any(isinstance(c, dict) and c.get("at") == gone for c in ecyl):
-                    changes.append(f"removed {label} (its engine has a cylinder at {who})")
-                    continue
+                    if not _drop_engine_cylinder(engine, gone):
+                        changes.append(f"removed {label} (its engine has a cylinder at {who})")
+                        continue
+                    changes.append(f"removed the cylinder at {who} from {label}; the others keep their "
+                                   "firing angles")
             if gone in (e.get("at"), e.get("applied_at")):
                 cyl = e.get("cylinders")
                 first = next((c.get("at") for c in cyl or [] if isinstance(c, dict) and c.get("at") in ids),

@@ -526,6 +526,13 @@ def excitation_block(ctx: Ctx):
                          f"{e.phase_deg:g}" if e.amplitude else "—", "constant"])
             continue
         ratio = train.relative_speed(e.at, op.reference)
+        engine = getattr(e, "engine", None)
+        if engine is not None:  # amplitudes come from the engine data, per cylinder and speed
+            orders = [o.order for o in e.orders]
+            rows.append([e.name, "the crank throws below", f"{ratio:.4g}",
+                         f"orders {fmt.order(min(orders))}–{fmt.order(max(orders))}",
+                         "from the engine data", "per cylinder", "gas constant, inertia with speed²"])
+            continue
         for k, o in enumerate(e.orders):
             scaling = "constant"
             if o.scaling == "speed_squared":
@@ -539,7 +546,9 @@ def excitation_block(ctx: Ctx):
                               ("Phase (deg)", 0.08, "RIGHT"), ("Amplitude scaling", 0.19)), rows))
     cyl_rows = []
     for e in op.excitations:
-        for k, (disc, firing) in enumerate(e.cylinders):
+        engine = getattr(e, "engine", None)
+        throws = [(c.disc, c.firing_deg) for c in engine.cylinders] if engine is not None else e.cylinders
+        for k, (disc, firing) in enumerate(throws):
             cyl_rows.append([e.name if k == 0 else "", str(k + 1), ctx.name(disc), f"{firing:g}"])
     if cyl_rows:
         out.append(Spacer(1, 4))
