@@ -43,3 +43,58 @@ def criterion(code: str) -> str:
 
 def speed_band(code: str) -> str:
     return SPEED_BANDS.get(code, code)
+
+
+def _modes(ms) -> str:
+    nums = [str(m.mode) for m in ms]
+    return ("mode " if len(nums) == 1 else "modes ") + ", ".join(nums)
+
+
+def headline(study, nbsp: str = " ") -> tuple[str, bool | None]:
+    """The verdict the review states, and its colour (True pass, False fail, None open).
+
+    Where every mode clears the margin it is the separation verdict.  Where some cannot —
+    a variable-speed drive crossing its modes, the crowded half orders of an engine — it
+    is the acceptance argument of the trade: separation for the modes kept clear, the
+    forced response against the limits for the rest, each named (core.acceptance)."""
+    if getattr(study, "screening_error", None) is not None:
+        return f"No verdict — {study.screening_error.message}", None
+    s = study.screening
+    if s is None:
+        return "Not screened — the project has no operating data.", None
+    arg = study.argument
+    pct = f"{fmt.percent(s.margin)}{nbsp}%"
+    if s.passed or arg is None:
+        text = separation_verdict(s, nbsp)
+        if s.passed and study.acceptance_failed:
+            worst = study.acceptance.failures[0]
+            text += (f" The forced response fails: {study.train.name_of(worst.link)} {criterion(worst.criterion)} at "
+                     f"{fmt.percent(worst.utilisation)}{nbsp}% of its limit.")
+            return "FAIL — " + text.split("— ", 1)[1], False
+        return text, s.passed
+    clear, accepted = arg.separation, arg.forced_response
+    failed = [m for m in arg.modes if m.basis == "fail"]
+    open_ = [m for m in arg.modes if m.basis == "open"]
+    parts = []
+    def are(ms, one, many):
+        return f"{_modes(ms)} {one if len(ms) == 1 else many}"
+    if clear:
+        parts.append(f"{are(clear, 'clears', 'clear')} the {pct} margin")
+    if accepted:
+        parts.append(f"{are(accepted, 'lies', 'lie')} within it ({accepted[0].reason}) and "
+                     f"{'is' if len(accepted) == 1 else 'are'} accepted on the forced response: every "
+                     "limit of the operating range holds")
+    if failed:
+        first = failed[0]
+        worst = first.checks[0] if first.checks else None
+        what = (f" ({study.train.name_of(worst.link)}: {criterion(worst.criterion)} at "
+                f"{fmt.percent(worst.utilisation)}{nbsp}% of its limit)") if worst is not None else ""
+        parts.append(f"{are(failed, 'lies', 'lie')} within it and the forced response exceeds a limit{what}")
+    if open_:
+        parts.append(f"{are(open_, 'lies', 'lie')} within it and {'is' if len(open_) == 1 else 'are'} not "
+                     f"yet accepted: {open_[0].reason}")
+    if arg.verdict == "pass":
+        return "PASS — " + "; ".join(parts) + ".", True
+    if arg.verdict == "fail":
+        return "FAIL — " + "; ".join(parts) + ".", False
+    return "OPEN — " + "; ".join(parts) + ".", None

@@ -811,13 +811,16 @@ def acceptance_argument(screening, acceptance: Acceptance | None) -> Argument:
     m = sc.margin
     forbidden, clear = _zones(sc.lines, sc.speed_min, sc.speed_max, m, sc.cap_hz)
     crowded = [z for z in forbidden if z[2] >= 2 and z[1] - z[0] > 0]
-    amplitude = set()
+    amplitude = set()  # (source, order) of every line the forced response carries
     for e in op.excitations:
         if e.frequency is not None and e.amplitude is not None:
             amplitude.add((e.name, None))
         for o in e.orders:
-            if o.amplitude is not None:
+            if o.amplitude is not None or getattr(e, "engine", None) is not None:  # an engine gives them all
                 amplitude.add((e.name, o.order))
+        for fl in getattr(e, "lines", ()):
+            if fl.amplitude is not None:
+                amplitude.add((f"{e.name}: {fl.name}", fl.order if fl.offset_hz == 0.0 else None))
     by_mode: dict[int, list] = {}
     freq = {}
     for c in sc.all_pairs:
