@@ -28,8 +28,32 @@ from collections import OrderedDict
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.sparse as sp
-from scipy.sparse.csgraph import depth_first_order
+
+
+class RowSum:
+    """Sum of columns into rows, ``S @ X`` for the 0/1 matrix with a one at each
+    (rows[j], cols[j]): out[rows[j]] += X[cols[j]].  A small numpy stand-in for a
+    sparse incidence matrix (sorted once; one ``np.add.reduceat`` per product), so the
+    solver needs no scipy.sparse on its way (the command line starts faster)."""
+
+    def __init__(self, rows, cols, shape):
+        rows = np.asarray(rows, np.int64)
+        cols = np.asarray(cols, np.int64)
+        order = np.argsort(rows, kind="stable")
+        self.rows, self.cols = rows[order], cols[order]
+        self.shape = shape
+        if len(self.rows):
+            self.starts = np.flatnonzero(np.r_[True, self.rows[1:] != self.rows[:-1]])
+        else:
+            self.starts = np.zeros(0, np.int64)
+        self.targets = self.rows[self.starts]
+
+    def __matmul__(self, x):
+        x = np.asarray(x)
+        out = np.zeros((self.shape[0],) + x.shape[1:], dtype=np.result_type(x.dtype, np.float64))
+        if len(self.cols):
+            out[self.targets] = np.add.reduceat(x[self.cols], self.starts, axis=0)
+        return out
 
 
 @dataclass
@@ -43,7 +67,7 @@ class Round:
     new: np.ndarray | None = None  # compress: slot of the new edge n1 - n2
     # n1 targets repeat (several leaves / chain nodes on one node): summation plan
     n1_unique: np.ndarray | None = None
-    n1_sum: sp.csr_matrix | None = None
+    n1_sum: RowSum | None = None
 
 
 @dataclass
@@ -63,14 +87,45 @@ class Schedule:
         return pos
 
 
+PYTHON_DFS_MAX = 40_000  # above this many edges the compiled traversal of scipy pays for its import
+
+
 def _preorder(n_nodes, ea, eb, start: int = 0):
-    """Depth-first preorder rank of the nodes reachable from ``start`` (others: -1)."""
+    """Depth-first preorder rank of the nodes reachable from ``start`` (others: -1).
+
+    Small trees are walked here (an iterative depth-first search over adjacency lists
+    built with numpy); large ones by scipy.sparse.csgraph, imported only then."""
     if n_nodes <= 1 or not len(ea):
         return np.arange(n_nodes)
-    g = sp.coo_matrix((np.ones(len(ea)), (ea, eb)), shape=(n_nodes, n_nodes)).tocsr()
-    order = depth_first_order(g, start, directed=False, return_predecessors=False)
     pre = np.full(n_nodes, -1, np.int64)
-    pre[order] = np.arange(len(order))
+    if len(ea) > PYTHON_DFS_MAX:
+        import scipy.sparse as sp
+        from scipy.sparse.csgraph import depth_first_order
+        g = sp.coo_matrix((np.ones(len(ea)), (ea, eb)), shape=(n_nodes, n_nodes)).tocsr()
+        order = depth_first_order(g, start, directed=False, return_predecessors=False)
+        pre[order] = np.arange(len(order))
+        return pre
+    # adjacency in CSR form, neighbours in ascending order (as csgraph visits them)
+    src = np.r_[ea, eb]
+    dst = np.r_[eb, ea]
+    o = np.lexsort((dst, src))
+    src, dst = src[o], dst[o]
+    ptr = np.searchsorted(src, np.arange(n_nodes + 1)).tolist()
+    nbr = dst.tolist()
+    seen = [False] * n_nodes
+    out = []
+    stack = [start]
+    while stack:
+        v = stack.pop()
+        if seen[v]:
+            continue
+        seen[v] = True
+        out.append(v)
+        # push in reverse so the lowest neighbour is visited first
+        for w in reversed(nbr[ptr[v]:ptr[v + 1]]):
+            if not seen[w]:
+                stack.append(w)
+    pre[np.array(out, np.int64)] = np.arange(len(out))
     return pre
 
 
@@ -166,7 +221,7 @@ def build_schedule(n_nodes: int, edges_a: np.ndarray, edges_b: np.ndarray) -> Sc
         u, inv = np.unique(r.n1, return_inverse=True)
         if len(u) < k:
             r.n1_unique = u
-            r.n1_sum = sp.csr_matrix((np.ones(k), (inv.ravel(), np.arange(k))), shape=(len(u), k))
+            r.n1_sum = RowSum(inv.ravel(), np.arange(k), (len(u), k))
         rounds.append(r)
     return Schedule(n_nodes, rounds, root, order, slot_pos[:n_edges], next_slot)
 

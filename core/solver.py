@@ -30,11 +30,10 @@ from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
-import scipy.sparse as sp
 
 from .assembly import (Assembly, assemble, clamped_count, effective_disc_inertia, member_stiffness,
                        peel_rigid_meshes)
-from .elimination import cached_schedule, factor, factor_solve, solve_factored
+from .elimination import RowSum, cached_schedule, factor, factor_solve, solve_factored
 from .errors import ModelError
 from .model import Train
 
@@ -82,8 +81,7 @@ class DynamicSystem:
         rows = np.r_[pa, pb[t]]
         cols = np.r_[np.arange(len(mem.a)), np.flatnonzero(t)]
         # diagonal = incidence @ K_aa (K_aa = K_bb for a uniform member)
-        self._incidence = sp.csr_matrix((np.ones(len(rows)), (rows, cols)),
-                                        shape=(a.n_nodes, len(mem.a)))
+        self._incidence = RowSum(rows, cols, (a.n_nodes, len(mem.a)))
         self._free_end, far_is_a = self._condensable(a)
         if len(self._free_end):
             # counting: a member with a free massless end is condensed exactly, so
@@ -95,8 +93,7 @@ class DynamicSystem:
             drop_b = np.zeros(len(mem.a), bool)
             drop_b[fe[~far_is_a]] = True
             keep = ~np.r_[drop_a, drop_b[t]]
-            self._incidence_count = sp.csr_matrix(
-                (np.ones(int(keep.sum())), (rows[keep], cols[keep])), shape=(a.n_nodes, len(mem.a)))
+            self._incidence_count = RowSum(rows[keep], cols[keep], (a.n_nodes, len(mem.a)))
             self._free_far_pos = np.where(far_is_a, pa[fe], pb[fe])
             self._free_slot = sch.slot_of_edge[a.member_edge[fe]]
         self._slot = sch.slot_of_edge[a.member_edge[t]]
@@ -678,8 +675,7 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
         strain = U  # one member per link, in link order (no rigid mesh, no segments)
         link_kin = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0) if a.distributed else np.zeros_like(U)
     else:
-        per_link = sp.csr_matrix((np.ones(len(mem.link)), (mem.link, np.arange(len(mem.link)))),
-                                 shape=(nl, len(mem.link)))
+        per_link = RowSum(mem.link, np.arange(len(mem.link)), (nl, len(mem.link)))
         strain = per_link @ U
         link_kin = per_link @ np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
     torque, t_from, t_to = _link_torques(mem, nl, Ta, Tb, Tm)
