@@ -249,6 +249,22 @@ def _link_ratings(obj, link) -> tuple[object, LinkRatings | None]:
     return link, r
 
 
+#: the link keys this module reads (besides a custom material's strengths and a
+#: segment's design_feature); a link with none of them carries no ratings
+LINK_KEYS = frozenset({"permissible_torque_transient", "permissible_stress_transient", "nominal_torque",
+                       "maximum_torque", "permissible_power", "permissible_torque_frequency",
+                       "temperature_factor", "fatigue", "propulsion_shaft"})
+
+
+def _has_ratings(obj) -> bool:
+    if not isinstance(obj, dict):
+        return False
+    if not LINK_KEYS.isdisjoint(obj) or isinstance(obj.get("material"), dict):
+        return True
+    segs = obj.get("segments")
+    return isinstance(segs, list) and any(isinstance(sg, dict) and "design_feature" in sg for sg in segs)
+
+
 def attach_ratings(doc: dict, train: Train) -> Train:
     """``train`` with each link's acceptance data and the project's load cases
     (raises ModelError naming the element and the field)."""
@@ -256,6 +272,9 @@ def attach_ratings(doc: dict, train: Train) -> Train:
     links = []
     changed = False
     for obj, link in zip(raw_links, train.links):
+        if not _has_ratings(obj):  # the common case: nothing to read (a long train stays fast)
+            links.append(link)
+            continue
         new, ratings = _link_ratings(obj, link)
         if ratings is not None:
             new = replace(new, ratings=ratings)

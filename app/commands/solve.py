@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import io
 import json
+import math
 import operator
 import sys
 
@@ -23,24 +24,33 @@ def add_parser(sub):
     return s
 
 
-def _keyed(prefixes: list[str], values) -> str:
-    """A JSON object from pre-escaped ``'"id": '`` prefixes and a float array, built
-    from the array in one pass (a 100 000-disc train has millions of values)."""
-    import numpy as np
-    vals = np.asarray(values, float)
-    texts = list(map(float.__repr__, vals.tolist()))
-    if not np.isfinite(vals).all():  # JSON has no NaN: null
-        for j in np.flatnonzero(~np.isfinite(vals)):
-            texts[j] = "null"
-    return "{" + ", ".join(map(operator.add, prefixes, texts)) + "}"
+DIGITS = 12  # significant digits of every per-element value (frequencies keep all of theirs)
+
+
+class _Keyed:
+    """JSON objects ``{"id": value, ...}`` over one list of ids, built from float arrays:
+    a format template made once per id list and filled per mode in one C-level pass (a
+    100 000-disc train has millions of values)."""
+
+    def __init__(self, ids):
+        self.prefixes = [json.dumps(i) + ": " for i in ids]
+        self.template = "{" + ", ".join(p + f"%.{DIGITS}g" for p in self.prefixes) + "}"
+
+    def __call__(self, values) -> str:
+        import numpy as np
+        vals = np.asarray(values, float)
+        if np.isfinite(vals).all():
+            return self.template % tuple(vals.tolist())
+        # JSON has no NaN: null where a value is not finite
+        texts = [f"{v:.{DIGITS}g}" if math.isfinite(v) else "null" for v in vals.tolist()]
+        return "{" + ", ".join(map(operator.add, self.prefixes, texts)) + "}"
 
 
 def _mode_texts(study):
     """Each mode as JSON text, one at a time (the whole output never sits in memory)."""
     modes = study.modes
     above = study.above_screening_limit
-    discs = [json.dumps(d) + ": " for d in modes.disc_ids]
-    links = [json.dumps(l) + ": " for l in modes.link_ids]
+    discs, links = _Keyed(modes.disc_ids), _Keyed(modes.link_ids)
     for i in range(len(modes)):
         head = json.dumps({
             "number": int(modes.number[i]),
@@ -50,10 +60,10 @@ def _mode_texts(study):
             "above_screening_limit": bool(above[i]),
             "dominant_link": modes.dominant_link(i),
         })
-        yield (head[:-1] + ', "shape": ' + _keyed(discs, modes.shape[i])
-               + ', "link_torque_nm": ' + _keyed(links, modes.link_torque[i])
-               + ', "kinetic_energy_share": ' + _keyed(discs, modes.kinetic_share[i])
-               + ', "strain_energy_share": ' + _keyed(links, modes.strain_share[i]) + "}")
+        yield (head[:-1] + ', "shape": ' + discs(modes.shape[i])
+               + ', "link_torque_nm": ' + links(modes.link_torque[i])
+               + ', "kinetic_energy_share": ' + discs(modes.kinetic_share[i])
+               + ', "strain_energy_share": ' + links(modes.strain_share[i]) + "}")
 
 
 def write_modes_json(study, stream=None) -> None:
