@@ -252,6 +252,9 @@ class Modes:
     requested: str
     solve_time_s: float = 0.0
     notes: list = field(default_factory=list)
+    # (n_modes, n_nodes): angles of the referred nodes of core.assembly (junctions of
+    # distributed shafts included), any scale per mode; None when not kept
+    node_shape: np.ndarray | None = None
 
     def __len__(self):
         return len(self.frequency_hz)
@@ -712,4 +715,4 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         strain[0] = 0.0
     numbers = np.arange(len(omega)) + (1 - rb)
     return Modes(train, omega / TWO_PI, rigid, numbers, theta, torque, kin, lkin, strain,
-                 max_frequency_hz, requested, time.perf_counter() - t0, notes)
+                 max_frequency_hz, requested, time.perf_counter() - t0, notes, phi.T)
