@@ -45,7 +45,8 @@ Units: SI inside (N*m/rad, kg*m^2, rad/s); frequencies reported in Hz.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+import time
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -445,7 +446,6 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
     Raises ModelError naming the element and field for an unknown element, a rigid
     mesh, a bad range or a train without operating data.
     """
-    import time
     t0 = time.perf_counter()
     op = train.operating
     if op is None or not op.excitations:
@@ -477,7 +477,6 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
 
     def at_base(t: Train) -> Train:  # the element at a positive base value (a zero-inertia disc)
         if kind == "disc" and current <= 0:
-            from dataclasses import replace
             return replace(t, discs=tuple(replace(x, inertia=base) if x.id == element_id else x
                                           for x in t.discs))
         return t
@@ -497,12 +496,15 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
 
     # count functions: (family role, omega); role 0 low corner at the upper edges, 1 high at the lower
     keys = [(0, hi) for _, _, hi in lines] + [(1, lo) for _, lo, _ in lines]
+    key_role = np.array([k[0] for k in keys], np.int64)
+    # a lower edge at 0 Hz (an order line from standstill) is never counted: every
+    # elastic mode lies above it; a positive stand-in keeps the arrays finite
+    key_omega = np.array([k[1] if k[1] > 0 else 1.0 for k in keys], float)
 
     def evaluate(k_idx, r):
         out = np.empty(len(r), np.int64)
         kk = np.asarray(k_idx)
-        roles = np.array([keys[k][0] for k in range(len(keys))])[kk]
-        om = np.array([keys[k][1] for k in range(len(keys))], float)[kk]
+        roles, om = key_role[kk], key_omega[kk]
         v = np.exp(d * np.asarray(r, float))
         for role in (0, 1):
             sel = roles == role

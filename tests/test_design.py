@@ -146,6 +146,24 @@ def test_pair_inertia_window():
     assert w.admissible[0][1] == pytest.approx(1.0 / ((TWO_PI * 33.0) ** 2 / K - 1 / 1.6), rel=1e-9)
 
 
+def test_window_of_an_order_line_from_standstill():
+    # 0-1500 rpm: the order line sweeps 0-25 Hz, so every mode below 25 x 1.1 Hz crosses it;
+    # with the coupling's own -10 % the band's low edge must clear 27.5 Hz: k (1 - 0.1) >= k(27.5 Hz)
+    w = element_window(build_train(pair_doc(["-10 %", "+10 %"], nmin="0 rpm")), "c")
+    assert len(w.admissible) == 1
+    assert w.admissible[0][0] == pytest.approx(k_for(27.5) / 0.9, rel=1e-9)
+    assert w.admissible[0][1] == K * 100
+    assert not w.current_clears
+
+
+def test_sensitivities_without_kept_node_shapes():
+    from dataclasses import replace
+    modes = natural_modes(build_train(_engine_doc()))
+    a, b = sensitivities(modes), sensitivities(replace(modes, node_shape=None))  # by inverse iteration
+    np.testing.assert_allclose(a.stiffness, b.stiffness, atol=1e-10)
+    np.testing.assert_allclose(a.inertia, b.inertia, atol=1e-10)
+
+
 def test_fixed_frequency_line_window():
     d = pair_doc()
     d["excitations"] = [{"name": "hum", "frequency": "40 Hz", "applied_at": "b"}]
@@ -646,6 +664,15 @@ def test_analyse_design_windows_every_coupling_and_design_options():
     assert res.bands is None
     assert res.window("fly").unit == "kg*m^2"
     assert set(res.sensitivities.link_ids) == {"s12", "s23", "s3f", "cpl"}
+    d["links"][-1]["stiffness_tolerance"] = "20 %"
+    t = build_train(d)
+    s = screen(t)
+    res = analyse_design(t, s.modes, s, elements=["cpl"], chart_points=3)
+    assert res.bands is s.bands and res.elements == ("cpl",)
+    ch = res.windows[0].chart
+    assert res.windows[0].tolerance == (0.2, 0.2) and ch.band_low_hz.shape == ch.frequency_hz.shape
+    assert np.all(ch.band_low_hz <= ch.frequency_hz * (1 + 1e-6))
+    assert np.all(ch.band_high_hz >= ch.frequency_hz * (1 - 1e-6))
 
 
 # ------------------------------------------------------------------ bad input
