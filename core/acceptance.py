@@ -767,10 +767,9 @@ def _zones(lines, speed_min, speed_max, margin, cap_hz):
     Returns (forbidden [(lo, hi, n)], clear [(lo, hi)] up to cap_hz)."""
     iv = []
     for l in lines:
-        if l.fixed_hz is not None:
-            iv.append((l.fixed_hz * (1 - margin), l.fixed_hz * (1 + margin)))
-        elif l.slope > 0:
-            iv.append((l.slope * speed_min * (1 - margin), l.slope * speed_max * (1 + margin)))
+        lo, hi = l.frequency_range(speed_min, speed_max)
+        if hi > 0:
+            iv.append((lo * (1 - margin), hi * (1 + margin)))
     iv.sort()
     merged = []
     for lo, hi in iv:

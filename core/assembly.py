@@ -155,8 +155,12 @@ def member_stiffness(members: Members, omega):
     Returned shapes: (n_members, n_omega).
     """
     w = np.atleast_1d(np.asarray(omega, float))
-    x = members.L_over_c[:, None] * w[None, :]
-    k = members.k[:, None]
+    return end_stiffness(members.k[:, None], members.L_over_c[:, None] * w[None, :])
+
+
+def end_stiffness(k, x):
+    """(K_aa, K_ab) of uniform members of static stiffness k at x = omega L / c
+    (arrays broadcast; x = 0 for a spring)."""
     sinc = np.sinc(x / np.pi)  # sin(x)/x, 1 at x = 0
     sinc = np.where(sinc == 0.0, 1e-300, sinc)  # exactly at a clamped frequency
     kab = -k / sinc
@@ -169,7 +173,11 @@ def clamped_count(members: Members, omega) -> np.ndarray:
     with both ends clamped lying below omega; a uniform member has them at
     x = n pi (Wittrick & Williams, Q. J. Mech. Appl. Math. 24 (1971) 263-284)."""
     w = np.atleast_1d(np.asarray(omega, float))
-    x = members.L_over_c[:, None] * w[None, :]
+    return clamped_count_x(members.L_over_c[:, None] * w[None, :])
+
+
+def clamped_count_x(x) -> np.ndarray:
+    """J0 summed over the first axis of x = omega L / c (members, trial points)."""
     n = np.floor(x / np.pi)
     # keep J0 consistent with the computed sign of sin(x) next to x = n pi, where
     # rounding can put x/pi and sin(x) on different sides of the pole

@@ -24,6 +24,8 @@ class Disc:
     name: str
     inertia: float  # kg*m^2
     damping: float = 0.0  # N*m*s/rad, absolute (to ground)
+    # (minus, plus) fractions: the inertia lies in [J (1 - minus), J (1 + plus)]; None: not given
+    inertia_tolerance: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -65,6 +67,9 @@ class Link:
     # rule settings, transient permissible values; None when the project gives none
     ratings: object | None = None
     teeth: tuple[int, int] | None = None  # gear mesh: (teeth on `from`, teeth on `to`)
+    # (minus, plus) fractions: the stiffness lies in [k (1 - minus), k (1 + plus)]; None: not
+    # given.  A shaft given by geometry varies its shear modulus (own inertia held).
+    stiffness_tolerance: tuple[float, float] | None = None
 
     @property
     def label(self) -> str:
@@ -146,6 +151,8 @@ class Operating:
     excitations: tuple[Excitation, ...] = ()
     trip_speed: float | None = None
     range_name: str = "Operating range"
+    # participation (fraction, 0..1) below which a coincidence counts as weakly excited
+    weak_excitation_below: float | None = None
 
 
 @dataclass(frozen=True)
@@ -160,6 +167,8 @@ class Train:
     # ((link id, core.fatigue.SNCurve) pairs), both from the project file
     transients: tuple = ()
     sn_curves: tuple = ()
+    # elements (disc or link ids) whose window the design options list besides every coupling
+    design_options: tuple[str, ...] = ()
 
     def disc(self, disc_id: str) -> Disc:
         for d in self.discs:
@@ -198,6 +207,12 @@ class Train:
     @property
     def grounded(self) -> bool:
         return any(l.grounded for l in self.links)
+
+    @property
+    def has_tolerances(self) -> bool:
+        """True when any link gives a stiffness tolerance or any disc an inertia tolerance."""
+        return (any(l.stiffness_tolerance is not None for l in self.links)
+                or any(d.inertia_tolerance is not None for d in self.discs))
 
     def relative_speed(self, disc_id: str, reference: str) -> float:
         """Speed of ``disc_id``'s shaft per unit speed of ``reference``'s shaft."""

@@ -232,6 +232,42 @@ def _material(spec, where: str) -> Material:
                      where, "material")
 
 
+def _fraction(value, where: str, key: str) -> float:
+    """A fraction given as a bare number (0.2) or as percent text ("20 %", "+25 %", "-10 %")."""
+    try:
+        return u.parse_fraction(value, where, key)
+    except ModelError as exc:
+        raise ModelError(f"{exc.message}; give a percentage such as '20 %' or a fraction such as 0.2",
+                         where, key) from None
+
+
+def _tolerance(obj: dict, key: str, where: str) -> tuple[float, float] | None:
+    """``"20 %"`` / ``0.2`` (symmetric) or ``["-10 %", "+25 %"]`` (minus first) as (minus, plus)
+    fractions, both >= 0 and the minus side below 100 %; None when the key is absent."""
+    raw = obj.get(key)
+    if raw is None:
+        return None
+    if isinstance(raw, list):
+        if len(raw) != 2:
+            raise ModelError(f"give one value ('20 %') or a pair ['-10 %', '+25 %'], got a list of "
+                             f"{len(raw)}", where, key)
+        minus, plus = _fraction(raw[0], where, key), _fraction(raw[1], where, key)
+        if minus > 0:
+            raise ModelError(f"the first value of the pair is the minus side (such as '-10 %'), got "
+                             f"{raw[0]!r}", where, key)
+        if plus < 0:
+            raise ModelError(f"the second value of the pair is the plus side (such as '+25 %'), got "
+                             f"{raw[1]!r}", where, key)
+        minus = -minus
+    else:
+        minus = plus = _fraction(raw, where, key)
+        if minus < 0:
+            raise ModelError(f"a symmetric tolerance must not be negative, got {raw!r}", where, key)
+    if minus >= 1.0:
+        raise ModelError(f"the minus side must be below 100 %, got {minus * 100:g} %", where, key)
+    return (minus, plus)
+
+
 def _element_id(obj, index: int, what: str) -> tuple[str, str]:
     """The id of the index-th disc or link, and how messages name it."""
     if not isinstance(obj, dict):
@@ -251,7 +287,7 @@ def _disc(obj, index: int) -> Disc:
         raise ModelError(f"inertia must not be negative, got {J:g} kg*m^2", where, "inertia")
     c = _opt(obj, "damping", u.DAMPING, where) or 0.0
     _positive(c, where, "damping", allow_zero=True)
-    return Disc(did, str(obj.get("name", did)), J, c)
+    return Disc(did, str(obj.get("name", did)), J, c, _tolerance(obj, "inertia_tolerance", where))
 
 
 def _loss_factor(obj, where: str) -> float:
@@ -353,9 +389,13 @@ def _link(obj, index: int) -> Link:
     ps = _opt(obj, "permissible_stress", u.STRESS, where)
     if ps is not None:
         _positive(ps, where, "permissible_stress")
+    tol = _tolerance(obj, "stiffness_tolerance", where)
+    if tol is not None and kind == "gear_mesh" and k is None:
+        raise ModelError("a rigid gear mesh has no stiffness to vary; give it a stiffness or drop "
+                         "the tolerance", where, "stiffness_tolerance")
     name = obj.get("name")
     return Link(lid, kind, ends[0], ends[1], k, segments, material, mass, ratio, c,
-                eta, scf, pt, ps, str(name) if name else "", teeth=teeth)
+                eta, scf, pt, ps, str(name) if name else "", teeth=teeth, stiffness_tolerance=tol)
 
 
 def _order(obj, where: str, index: int) -> Order:
@@ -476,8 +516,14 @@ def _operating(doc: dict, disc_ids: set[str], base_dir=None) -> Operating | None
             raise ModelError("give a non-empty list of orders (or a fixed frequency)", ew, "orders")
         excitations.append(Excitation(name, at, tuple(_order(o, ew, j) for j, o in enumerate(orders)),
                                       cylinders=cylinders))
+    weak = None
+    if doc.get("weak_excitation_below") is not None:
+        weak = _fraction(doc["weak_excitation_below"], where, "weak_excitation_below")
+        if not 0.0 <= weak <= 1.0:
+            raise ModelError(f"a participation threshold lies between 0 and 100 %, got {weak * 100:g} %",
+                             where, "weak_excitation_below")
     return Operating(ref, nmin, nmax, margin_pct / 100.0, tuple(excitations), trip,
-                     str(sp.get("name", "Operating range")))
+                     str(sp.get("name", "Operating range")), weak)
 
 
 def _engine_excitation(e: dict, name: str, ew: str, disc_ids, base_dir) -> Excitation:
@@ -554,7 +600,8 @@ def build_train(doc: dict, base_dir=None) -> Train:
     title = doc.get("title")
     transients, sn_curves = _transients(doc, speed, links, base_dir)
     train = Train(str(title) if title else "Untitled train", discs, links, operating, speed,
-                  transients=transients, sn_curves=sn_curves)
+                  transients=transients, sn_curves=sn_curves,
+                  design_options=_design_options(doc, discs, links))
     return attach_ratings(doc, train)  # acceptance data and load cases (core.ratings)
 
 
@@ -564,3 +611,26 @@ def _transients(doc: dict, disc_ids, links, base_dir):
     link_ids = {l.id for l in links}
     return (parse_transients(doc, set(disc_ids), link_ids, base_dir),
             parse_sn_curves(doc, link_ids))
+
+
+def _design_options(doc: dict, discs, links) -> tuple[str, ...]:
+    """Optional top-level ``"design_options": [ID, ...]``: discs or links (not rigid meshes)
+    whose window the design options show besides every coupling's."""
+    raw = doc.get("design_options")
+    if raw is None:
+        return ()
+    if not isinstance(raw, list):
+        raise ModelError("design_options must be a list of disc or link ids", "train", "design_options")
+    disc_ids = {d.id for d in discs}
+    rigid = {l.id for l in links if l.is_rigid}
+    link_ids = {l.id for l in links}
+    out = []
+    for i, eid in enumerate(raw):
+        if not isinstance(eid, str) or not (eid in disc_ids or eid in link_ids):
+            raise ModelError(f"entry {i + 1} ({eid!r}) is not a disc or link id", "train", "design_options")
+        if eid in rigid and eid not in disc_ids:
+            raise ModelError(f"'{eid}' is a rigid gear mesh: it has no stiffness to choose", "train",
+                             "design_options")
+        if eid not in out:
+            out.append(eid)
+    return tuple(out)

@@ -12,17 +12,28 @@ separation over the range is below the required margin; a crossing inside the
 range has separation 0.  The interference band is the reference-speed interval
 where sep < margin: f_n / (a (1 + m)) < N < f_n / (a (1 - m)).
 
+With tolerance bands (:mod:`core.tolerance`) a mode occupies [f_low, f_high];
+its separation from an excitation is then measured from the nearest band edge
+(zero when the excitation frequency enters the band) and the verdict follows
+that band separation; the nominal separation stays beside it.
+
+Each pair also carries the mode's participation at the point where the
+excitation acts: |twist there| / max |twist| in the mode (0..1).  An
+operating ``weak_excitation_below`` threshold marks pairs below it as weakly
+excited; they stay listed but are not counted as failures.
+
 All speeds here are rad/s of the reference shaft; frequencies in Hz.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
 from .electric import line_band, line_crossings
 from .model import Operating, Train
-from .solver import Modes, natural_modes
+from .solver import DynamicSystem, Modes, natural_modes
+from .tolerance import corner_trains, frequency_bands
 
 TWO_PI = 2.0 * np.pi
 DEFAULT_MARGIN = 0.10  # API 617 / API 684 separation margin (from memory)
@@ -38,6 +49,9 @@ class ExcitationLine:
     slope: float  # Hz per rad/s of reference speed (0 for fixed; negative: |a - b N|)
     fixed_hz: float | None
     at: str | None
+    # discs the excitation torque acts on (an engine's cylinders, a fixed source's
+    # applied_at, else `at`); empty when unknown
+    acts_at: tuple[str, ...] = ()
     offset_hz: float = 0.0  # Hz at zero speed of a line f = |offset_hz + slope N|
     major: bool = False  # a major order of an engine (all cylinders in phase)
     formula: str | None = None  # "f = |300 Hz − 12·N|" for a line with an offset
@@ -58,6 +72,18 @@ class ExcitationLine:
             return self.slope * speed
         return np.abs(self.offset_hz + self.slope * speed)
 
+    def frequency_range(self, speed_min: float, speed_max: float) -> tuple[float, float]:
+        """Lowest and highest excitation frequency (Hz) over reference speeds in
+        [speed_min, speed_max] rad/s: a line |a + s N| at its ends, down to 0 where a
+        difference line's vertex falls inside."""
+        if self.fixed_hz is not None:
+            return self.fixed_hz, self.fixed_hz
+        ends = self.frequency(np.array([speed_min, speed_max], float))
+        lo, hi = float(ends.min()), float(ends.max())
+        if self.slope != 0 and speed_min < -self.offset_hz / self.slope < speed_max:
+            lo = 0.0
+        return lo, hi
+
     @property
     def label(self) -> str:
         if self.fixed_hz is not None:
@@ -74,18 +100,26 @@ def excitation_lines(train: Train, operating: Operating | None = None) -> list[E
         return lines
     for e in op.excitations:
         if e.frequency is not None:
-            lines.append(ExcitationLine(e.name, None, 0.0, e.frequency, None))
+            acts = (e.applied_at,) if e.applied_at else ()
+            lines.append(ExcitationLine(e.name, None, 0.0, e.frequency, None, acts))
             continue
         ratio = train.relative_speed(e.at, op.reference)
-        major = set(e.engine.major_orders) if e.engine is not None else set()
+        engine = getattr(e, "engine", None)
+        major = set(engine.major_orders) if engine is not None else set()
+        if engine is not None:
+            acts = tuple(dict.fromkeys(c.disc for c in engine.cylinders))
+        elif e.cylinders:
+            acts = tuple(dict.fromkeys(c for c, _ in e.cylinders))
+        else:
+            acts = (e.at,)
         for o in e.orders:
-            lines.append(ExcitationLine(e.name, o.order, o.order * ratio / TWO_PI, None, e.at,
+            lines.append(ExcitationLine(e.name, o.order, o.order * ratio / TWO_PI, None, e.at, acts,
                                         major=o.order in major))
         for fl in e.lines:  # electric drives: f = a + b N or |a - b N|, N of the `at` shaft
             plain = fl.offset_hz == 0.0  # b N alone is an order line (e.g. 6 x the output frequency)
             lines.append(ExcitationLine(f"{e.name}: {fl.name}", fl.order if plain else None,
-                                        fl.signed_order * ratio / TWO_PI, None, e.at, offset_hz=fl.offset_hz,
-                                        formula=f"f = {fl.formula}"))
+                                        fl.signed_order * ratio / TWO_PI, None, e.at, (e.at,),
+                                        offset_hz=fl.offset_hz, formula=f"f = {fl.formula}"))
     return lines
 
 
@@ -113,8 +147,15 @@ class Coincidence:
     separation: float  # smallest over the range, fraction (0 for a crossing in range)
     crossing_speed: float | None  # rad/s of the reference shaft, None if no crossing
     band: tuple[float, float] | None  # reference speed interval inside the margin, rad/s
-    passed: bool
+    passed: bool  # the governing separation (band when tolerances are given) >= margin
     worst_speed: float  # reference speed of the smallest separation, rad/s
+    # |twist at the excitation point| / max |twist| of the mode, 0..1; None when the
+    # source names no disc (a fixed frequency without applied_at)
+    participation: float | None = None
+    # smallest separation measured from the nearest edge of the mode's tolerance band
+    # (0 when the excitation enters the band); None when no tolerance is given
+    separation_band: float | None = None
+    weak: bool = False  # participation below the operating weak_excitation_below
 
     @property
     def source(self) -> str:
@@ -125,8 +166,20 @@ class Coincidence:
         return self.line.order
 
     @property
+    def governing_separation(self) -> float:
+        """The separation the verdict is judged on: the band's when given, else the nominal."""
+        return self.separation if self.separation_band is None else self.separation_band
+
+    @property
+    def counts_as_failure(self) -> bool:
+        return not self.passed and not self.weak
+
+    @property
     def status(self) -> str:
-        return "pass" if self.passed else "fail"
+        """'pass', 'fail', or 'weak' (inside the margin but weakly excited, not a failure)."""
+        if self.passed:
+            return "pass"
+        return "weak" if self.weak else "fail"
 
 
 def pair_separation(f_n: float, line: ExcitationLine, speed_min: float, speed_max: float,
@@ -185,6 +238,36 @@ def _line_separation(f_n: float, line: ExcitationLine, speed_min: float, speed_m
     return sep, worst, crossing, band
 
 
+def band_separation(f_low: float, f_high: float, line: ExcitationLine, speed_min: float,
+                    speed_max: float) -> float:
+    """Smallest separation over the range between an excitation and a frequency band.
+
+    Measured from the band edge nearest the excitation frequency, relative to the
+    excitation frequency as :func:`pair_separation` does; 0 when any excitation
+    frequency of the range falls inside [f_low, f_high].  For f_low = f_high it
+    equals the nominal separation.
+    """
+    e_lo, e_hi = line.frequency_range(speed_min, speed_max)
+    if f_high < e_lo:
+        return (e_lo - f_high) / e_lo
+    if f_low > e_hi:
+        return (f_low - e_hi) / e_hi
+    return 0.0
+
+
+def participation(modes: Modes, i: int, line: ExcitationLine) -> float | None:
+    """|twist at the disc(s) the excitation acts on| / max |twist| in mode row i (the
+    largest over an engine's cylinders); None when the line names no disc."""
+    if not line.acts_at:
+        return None
+    ids = modes.disc_ids
+    shape = np.abs(modes.shape[i])
+    big = shape.max()
+    if big <= 0:
+        return 0.0
+    return float(max(shape[ids.index(d)] for d in line.acts_at) / big)
+
+
 @dataclass
 class Screening:
     train: Train
@@ -196,10 +279,18 @@ class Screening:
     cap_hz: float
     coincidences: list = field(default_factory=list)  # worst first, separation < 2 margin
     all_pairs: list = field(default_factory=list)
+    # [f_low, f_high] Hz per row of `modes` when any tolerance is given, else None
+    bands: np.ndarray | None = None
+    weak_below: float | None = None  # participation threshold (fraction), None: not given
+
+    @property
+    def tolerances(self) -> bool:
+        return self.bands is not None
 
     @property
     def failures(self) -> list:
-        return [c for c in self.coincidences if not c.passed]
+        """Pairs inside the margin that count: weakly excited ones are listed but do not."""
+        return [c for c in self.coincidences if c.counts_as_failure]
 
     @property
     def verdict(self) -> str:
@@ -211,7 +302,12 @@ class Screening:
 
 
 def screen(train: Train, modes: Modes | None = None, margin: float | None = None) -> Screening:
-    """Screen every elastic mode up to the cap against every excitation line."""
+    """Screen every elastic mode up to the cap against every excitation line.
+
+    With tolerances, every mode whose band reaches below the cap is screened
+    (the nominal modes are solved far enough for that), and the verdict of a
+    pair follows its band separation.
+    """
     op = train.operating
     if op is None:
         raise ValueError("the project has no operating data (reference, operating_speed, excitations)")
@@ -220,19 +316,39 @@ def screen(train: Train, modes: Modes | None = None, margin: float | None = None
     cap = screening_cap_hz(lines, op.speed_max, m)
     if modes is None or modes.complete_to_hz < cap:
         modes = natural_modes(train, max_frequency_hz=max(cap, 1e-9))
+    tol = train.has_tolerances
+    bands = None
+    if tol:
+        # every mode whose low edge lies below the cap: the low corner's count there
+        low_system = DynamicSystem(corner_trains(train)[0])
+        rb = 0 if low_system.asm.grounded else 1
+        need = int(low_system.count(TWO_PI * max(cap, 1e-9))[0]) - rb
+        if int(np.count_nonzero(modes.elastic)) < need:
+            modes = natural_modes(train, n_modes=need)
+            f_top = float(modes.frequency_hz[-1]) if len(modes) else 0.0
+            modes = replace(modes, cap_hz=max(cap, f_top))
+        bands = frequency_bands(train, modes)
+    weak_below = op.weak_excitation_below
     pairs = []
     for i in np.flatnonzero(modes.elastic):
         f_n = float(modes.frequency_hz[i])
-        if f_n > cap:
+        f_lo, f_hi = (float(bands[i, 0]), float(bands[i, 1])) if tol else (f_n, f_n)
+        if f_lo > cap:
             continue
         for line in lines:
             sep, worst, crossing, band = pair_separation(f_n, line, op.speed_min, op.speed_max, m)
             cross = crossing if crossing is not None and crossing > 0 else None
+            sep_band = band_separation(f_lo, f_hi, line, op.speed_min, op.speed_max) if tol else None
+            part = participation(modes, i, line)
+            weak = part is not None and weak_below is not None and part < weak_below
+            governing = sep if sep_band is None else sep_band
             pairs.append(Coincidence(int(modes.number[i]), f_n, line, float(sep), cross, band,
-                                     bool(sep >= m), float(worst)))
-    pairs.sort(key=lambda c: (c.separation, c.mode))
-    listed = [c for c in pairs if c.separation < 2 * m]
-    return Screening(train, modes, lines, m, op.speed_min, op.speed_max, cap, listed, pairs)
+                                     bool(governing >= m), float(worst), part,
+                                     None if sep_band is None else float(sep_band), bool(weak)))
+    pairs.sort(key=lambda c: (c.governing_separation, c.mode))
+    listed = [c for c in pairs if c.governing_separation < 2 * m]
+    return Screening(train, modes, lines, m, op.speed_min, op.speed_max, cap, listed, pairs,
+                     bands, weak_below)
 
 
 def nearest_at_speed(screening: Screening, speed: float):

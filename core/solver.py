@@ -270,6 +270,9 @@ class Modes:
     # frequency request, the highest mode of a count request, inf when a lumped
     # model's every finite mode was found
     complete_to_hz: float = 0.0
+    # (n_modes, n_nodes): angles of the referred nodes of core.assembly (junctions of
+    # distributed shafts included), any scale per mode; None when not kept
+    node_shape: np.ndarray | None = None
 
     def __len__(self):
         return len(self.frequency_hz)
@@ -820,4 +823,5 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
     else:
         complete = float(omega[-1] / TWO_PI) if len(omega) else 0.0
     return Modes(train, omega / TWO_PI, rigid, numbers, theta, torque, kin, lkin, strain,
-                 max_frequency_hz, requested, time.perf_counter() - t0, notes, complete)
+                 max_frequency_hz, requested, time.perf_counter() - t0, notes, complete,
+                 phi.T)

