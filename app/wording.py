@@ -13,7 +13,8 @@ def separation_verdict(s, nbsp: str = " ") -> str:
     worst = s.failures[0]
     return (f"FAIL — {n_fail} coincidence{'s' if n_fail > 1 else ''} inside the "
             f"{fmt.percent(s.margin)}{nbsp}% margin (worst: mode {worst.mode} with {worst.line.label}, "
-            f"{fmt.percent(worst.separation)}{nbsp}%).")
+            f"{fmt.percent(worst.governing_separation)}{nbsp}%"
+            + (" from its tolerance band" if s.tolerances else "") + ").")
 
 
 #: each acceptance criterion (core.acceptance.Check.criterion) in words

@@ -722,7 +722,8 @@ class DesignResult:
 def design_elements(train: Train) -> list[tuple[str, str]]:
     """(element id, quantity) windowed by default: every coupling, then every element
     named in the project's ``design_options``."""
-    out = [(l.id, "stiffness") for l in train.links if l.kind == "coupling"]
+    # a damper's ring joined by damping alone has no stiffness to choose
+    out = [(l.id, "stiffness") for l in train.links if l.kind == "coupling" and l.stiffness]
     for eid in train.design_options:
         q = "stiffness" if eid in train.link_ids else "inertia"
         if (eid, q) not in out:

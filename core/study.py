@@ -29,7 +29,7 @@ from .model import Train
 MIN_ELASTIC_MODES = 6
 
 #: the analyses a study can hold, in the order they are computed
-PARTS = ("screening", "response", "design", "acceptance", "damped", "transients")
+PARTS = ("screening", "sensitivities", "design", "response", "acceptance", "damped", "transients")
 ALL_PARTS = frozenset(PARTS)
 #: what the desktop program recomputes after every edit (transients run on request)
 LIVE_PARTS = ALL_PARTS - {"transients"}
@@ -42,8 +42,9 @@ class StudyOptions:
     ``margin``: required separation as a fraction (overrides the project's).
     ``speeds``: reference-shaft speeds in rad/s for the forced response.
     ``parts``: which analyses to run besides the modes (all by default; the
-    command line's ``solve`` asks for fewer).  ``events``: the transient events to
-    integrate (all by default).
+    command line's ``solve`` asks for fewer).  "sensitivities" gives the design
+    part without the windows (their cost is the search over an element's value).
+    ``events``: the transient events to integrate (all by default).
     """
 
     max_frequency_hz: float | None = None
@@ -52,6 +53,9 @@ class StudyOptions:
     speeds: tuple[float, ...] | None = None
     parts: frozenset = ALL_PARTS
     events: tuple[str, ...] | None = None  # transient events to run (None: every one)
+    # one element's window on request (`twistwise window`): (element id, "stiffness" |
+    # "inertia" | None, (low, high) SI or None for the current value / 100 to x 100)
+    window_of: tuple | None = None
 
     def __post_init__(self):
         if self.max_frequency_hz is not None and self.n_modes is not None:
@@ -133,6 +137,7 @@ class Study:
     response_error: ModelError | None = None
     screening_error: ModelError | None = None
     design: object | None = None
+    window: object | None = None  # core.design.WindowResult asked for by StudyOptions.window_of
     acceptance: object | None = None
     damped: object | None = None
     transients: object | None = None
@@ -269,6 +274,17 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
         else:
             if options.max_frequency_hz is None and options.n_modes is None:
                 modes = screening.modes  # the same set, or more when the margin option raised the limit
+    design = None
+    if ("design" in parts or "sensitivities" in parts) and screening_error is None:
+        from .design import analyse_design
+        design = _timed(timings, "design", analyse_design, train, modes, screening,
+                        elements=None if "design" in parts else [])
+    window = None
+    if options.window_of is not None:
+        from .design import element_window
+        eid, quantity, value_range = options.window_of
+        window = _timed(timings, "window", element_window, train, eid, quantity, value_range,
+                        None if screening is None else screening.margin)
     response, response_error = None, None
     if "response" in parts and op is not None:
         from . import response as core_response
@@ -293,4 +309,5 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
         transients = _timed(timings, "transients", run_transients, train, options.events,
                             peak_limits=transient_peak_limits(train), load_case_torque=load_case_torque)
     return Study(train, options, modes, screening, response, response_error, screening_error,
-                 acceptance=acceptance, transients=transients, notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)
+                 design=design, window=window, acceptance=acceptance, transients=transients,
+                 notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)

@@ -7,6 +7,7 @@ and format it; they never choose modes or solve anything themselves."""
 COMMANDS = {
     "solve": "solve",
     "check": "check",
+    "window": "window",
     "response": "response",
     "transient": "transient",
     "report": "report",

@@ -34,7 +34,10 @@ def screening_to_json(study) -> dict:
             "interference_band_rpm": None if c.band is None else [
                 fmt.rad_s_to_rpm(c.band[0]), finite(fmt.rad_s_to_rpm(c.band[1]))],
             "status": c.status,
+            "participation": None if c.participation is None else float(c.participation),
         })
+        if s.tolerances:
+            rows[-1]["margin_percent_band"] = 100.0 * c.separation_band
     op = s.train.operating
     return {
         "title": s.train.title,
@@ -47,8 +50,17 @@ def screening_to_json(study) -> dict:
                              for i in range(len(s.modes)) if s.modes.elastic[i]
                              and s.modes.frequency_hz[i] <= s.cap_hz],
         "coincidences": rows,
+        "tolerance_bands": s.tolerances,
+        "weak_excitation_below_percent": None if s.weak_below is None else 100.0 * s.weak_below,
         "caution": CAUTION,
     }
+
+
+def _order(c) -> str:
+    """The order column: the order, 'fixed', or the formula of a line f = |a + b N|."""
+    if c.line.kind == "line":
+        return "line"
+    return fmt.order(c.order)
 
 
 def print_table(study, path: str) -> None:
@@ -62,11 +74,22 @@ def print_table(study, path: str) -> None:
     print(f"Modes considered: {n_el} elastic modes up to {fmt.hz(s.cap_hz)} Hz "
           f"(the screening limit, above the highest excitation frequency in range)")
     if s.coincidences:
-        w = max(6, min(60, max(len(c.source) for c in s.coincidences)))
-        print(f"{'mode':>4} {'Hz':>9}  {'source':<{w}} {'order':>6} {'crossing rpm':>12} {'margin %':>9}  status")
+        w = max(6, min(50, max(len(c.source) for c in s.coincidences)))
+        band = " band %" if s.tolerances else ""
+        print(f"{'mode':>4} {'Hz':>9}  {'source':<{w}} {'order':>6} {'crossing rpm':>12} {'margin %':>9}"
+              f"{band:>8} {'twist at source':>15}  status")
         for c in s.coincidences:
-            print(f"{c.mode:>4} {fmt.hz(c.frequency_hz):>9}  {c.source[:w]:<{w}} {fmt.order(c.order):>6} "
-                  f"{fmt.rpm(c.crossing_speed):>12} {fmt.percent(c.separation):>9}  {c.status.upper()}")
+            part = "—" if c.participation is None else fmt.percent(c.participation)
+            extra = f"{fmt.percent(c.separation_band):>8}" if s.tolerances else ""
+            print(f"{c.mode:>4} {fmt.hz(c.frequency_hz):>9}  {c.source[:w]:<{w}} {_order(c):>6} "
+                  f"{fmt.rpm(c.crossing_speed):>12} {fmt.percent(c.separation):>9}{extra} {part + ' %':>15}  "
+                  f"{c.status.upper()}")
+        if s.tolerances:
+            print("With the stiffness and inertia tolerances each natural frequency is a band; the verdict "
+                  "follows the band margin (from the band edge nearest the excitation).")
+        if s.weak_below is not None:
+            print(f"Pairs whose mode twists at the excitation point by less than {fmt.percent(s.weak_below)} % "
+                  "of its largest twist are weakly excited (WEAK): listed, not counted as failures.")
     else:
         print(f"No excitation comes within {fmt.percent(2 * s.margin)} % of a natural frequency.")
     print("Verdict: " + wording.separation_verdict(s))
@@ -87,7 +110,7 @@ def run(args) -> int:
     if not train.operating.excitations:
         raise ModelError("the project names no excitations to screen against", "operating data",
                          "excitations")
-    study = run_study(train, StudyOptions(margin=margin, parts=frozenset({"screening", "design"})))
+    study = run_study(train, StudyOptions(margin=margin, parts=frozenset({"screening"})))
     if study.screening_error is not None:
         raise study.screening_error
     if args.json:

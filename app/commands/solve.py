@@ -51,19 +51,35 @@ def _mode_texts(study):
     modes = study.modes
     above = study.above_screening_limit
     discs, links = _Keyed(modes.disc_ids), _Keyed(modes.link_ids)
+    design = study.design
+    sens = design.sensitivities if design is not None else None
+    if sens is not None:
+        s_links = links if tuple(sens.link_ids) == tuple(modes.link_ids) else _Keyed(sens.link_ids)
+        s_discs = discs if tuple(sens.disc_ids) == tuple(modes.disc_ids) else _Keyed(sens.disc_ids)
+        s_shafts = _Keyed(sens.shaft_ids) if sens.shaft_ids else None
+    bands = design.bands if design is not None else None
     for i in range(len(modes)):
-        head = json.dumps({
-            "number": int(modes.number[i]),
+        number = int(modes.number[i])
+        head = {
+            "number": number,
             "frequency_hz": float(modes.frequency_hz[i]),
             "frequency_cpm": float(modes.frequency_hz[i] * 60.0),
             "rigid_body": bool(modes.rigid_body[i]),
             "above_screening_limit": bool(above[i]),
             "dominant_link": modes.dominant_link(i),
-        })
-        yield (head[:-1] + ', "shape": ' + discs(modes.shape[i])
-               + ', "link_torque_nm": ' + links(modes.link_torque[i])
-               + ', "kinetic_energy_share": ' + discs(modes.kinetic_share[i])
-               + ', "strain_energy_share": ' + links(modes.strain_share[i]) + "}")
+        }
+        if bands is not None:
+            head["frequency_band_hz"] = [float(bands[i, 0]), float(bands[i, 1])]
+        text = (json.dumps(head)[:-1] + ', "shape": ' + discs(modes.shape[i])
+                + ', "link_torque_nm": ' + links(modes.link_torque[i])
+                + ', "kinetic_energy_share": ' + discs(modes.kinetic_share[i])
+                + ', "strain_energy_share": ' + links(modes.strain_share[i]))
+        if sens is not None and not modes.rigid_body[i]:
+            r = sens.row(number)
+            text += (', "sensitivity": {"stiffness": ' + s_links(sens.stiffness[r])
+                     + ', "inertia": ' + s_discs(sens.inertia[r])
+                     + (', "diameter": ' + s_shafts(sens.diameter[r]) if s_shafts else "") + "}")
+        yield text + "}"
 
 
 def write_modes_json(study, stream=None) -> None:
@@ -118,7 +134,7 @@ def run(args) -> int:
     from core.study import StudyOptions, run_study
     train = load_train(args.file)
     options = StudyOptions(max_frequency_hz=parse_frequency_option(args.max_frequency),
-                           n_modes=args.modes, parts=frozenset({"screening", "design", "damped"}))
+                           n_modes=args.modes, parts=frozenset({"screening", "sensitivities", "damped"}))
     study = run_study(train, options)
     if args.json:
         write_modes_json(study)
