@@ -734,6 +734,8 @@ def free_bodies(asm: Assembly) -> tuple[np.ndarray | None, list[np.ndarray]]:
     """
     mem = asm.members
     n = asm.n_nodes
+    if np.all(mem.k > 0):  # every member has stiffness: the tree is one body (the common case)
+        return (None if asm.grounded else np.arange(n)), []
     parent = np.arange(n)
 
     def find(i):
