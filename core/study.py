@@ -27,6 +27,9 @@ from .errors import ModelError
 from .model import Train
 
 MIN_ELASTIC_MODES = 6
+#: damped natural frequencies come from a dense eigenproblem of twice the discs' size: above this
+#: many discs the study leaves them out with a note (a solve would take seconds to minutes)
+DAMPED_MAX_DISCS = 200
 
 #: the analyses a study can hold, in the order they are computed
 PARTS = ("screening", "response", "design", "acceptance", "damped", "transients")
@@ -134,7 +137,8 @@ class Study:
     screening_error: ModelError | None = None
     design: object | None = None
     acceptance: object | None = None
-    damped: object | None = None
+    damped: object | None = None  # core.damped.DampedModes
+    damper: object | None = None  # core.damped.DamperBounds (trains with a viscous damper's ring)
     transients: object | None = None
     notes: tuple[str, ...] = ()
     solve_time_s: float = 0.0
@@ -282,6 +286,20 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
     if "acceptance" in parts and response is not None:
         from .acceptance import analyse_acceptance
         acceptance = _timed(timings, "acceptance", analyse_acceptance, train, response)
+    damped, damper = None, None
+    if "damped" in parts:
+        from .damped import DampedModes, damped_modes, damper_bounds, has_damping
+        if has_damping(train):
+            shown = float(np.max(modes.frequency_hz)) if len(modes) else 0.0
+            cap = max(screening.cap_hz if screening is not None else 0.0, shown)
+            if len(train.discs) > DAMPED_MAX_DISCS:
+                damped = DampedModes(train, [], [], [
+                    f"damped natural frequencies are computed for trains of up to {DAMPED_MAX_DISCS} discs; "
+                    f"this one has {len(train.discs)}"])
+            elif cap > 0:
+                damped = _timed(timings, "damped", damped_modes, train, max_frequency_hz=cap)
+            if cap > 0:
+                damper = _timed(timings, "damper", damper_bounds, train, cap)
     transients = None
     if "transients" in parts and train.transients:
         from .loads import load_torque_table
@@ -293,4 +311,4 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
         transients = _timed(timings, "transients", run_transients, train, options.events,
                             peak_limits=transient_peak_limits(train), load_case_torque=load_case_torque)
     return Study(train, options, modes, screening, response, response_error, screening_error,
-                 acceptance=acceptance, transients=transients, notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)
+                 acceptance=acceptance, damped=damped, damper=damper, transients=transients, notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)
