@@ -29,7 +29,8 @@ from .. import formatting as fmt
 from .. import wording
 from . import campbell, charts
 from .schematic import legend_drawing, schematic_drawings
-from .styles import FAIL_FILL, FAIL_INK, FONT, GREY, INK, NEUTRAL_FILL, PASS_FILL, PASS_INK, escape, styles
+from .styles import FAIL_FILL, FAIL_INK, FONT, GREY, INK, NEUTRAL_FILL, OPEN_FILL, OPEN_INK, PASS_FILL, \
+    PASS_INK, escape, styles
 from .base import TWO_PI, Ctx, P, Units, clip, entered_number, fit_frame, num, table  # noqa: F401
 from .tables import LongTable, marked_styles, status_styles
 
@@ -98,8 +99,12 @@ def above_limit_text(ctx: Ctx, limit: int = 12) -> str:
 
 
 def verdict_block(ctx: Ctx):
+    """The headline verdict (:func:`app.wording.headline`: separation where every mode clears, the
+    acceptance argument where some cannot), the separation screening beside it exactly as
+    ``twistwise check`` words it, and one line per analysis that judged something."""
     st = styles()
     data = ctx.data
+    study = ctx.study
     s = data.screening
     train = ctx.train
     out = [Paragraph("Verdict", st["h1"])]
@@ -110,8 +115,13 @@ def verdict_block(ctx: Ctx):
         lines.append("Only the natural frequencies and mode shapes are reported.")
     else:
         op = train.operating
-        head = "Separation: " + clip(wording.separation_verdict(s, nbsp="\u00a0"), 600)
-        fill, ink = (PASS_FILL, PASS_INK) if s.passed else (FAIL_FILL, FAIL_INK)
+        head, ok = wording.headline(study, nbsp="\u00a0")
+        head = clip(head, 900)
+        fill, ink = {True: (PASS_FILL, PASS_INK), False: (FAIL_FILL, FAIL_INK)}.get(ok, (OPEN_FILL, OPEN_INK))
+        sep = wording.separation_verdict(s, nbsp="\u00a0")
+        colour = (PASS_INK if s.passed else FAIL_INK).hexval()
+        word, rest = sep.split(" — ", 1)
+        lines.append(f"<b>Separation screening:</b> <font color='{colour}'>{word}</font> — {escape(clip(rest, 600))}")
         rng = (f"{fmt.rpm(op.speed_min)} rpm" if op.speed_min == op.speed_max
                else f"{fmt.rpm(op.speed_min)}–{fmt.rpm(op.speed_max)} rpm")
         trip = f"; trip speed {fmt.rpm(op.trip_speed)} rpm" if op.trip_speed else ""
@@ -142,12 +152,15 @@ def verdict_block(ctx: Ctx):
         else:
             lines.append("<b>Forced response:</b> computed, but no link gives a permissible vibratory "
                          "torque or stress, so nothing was judged.")
-        if s is not None and not s.passed and not n_ex and checked:
-            lines.append("The separation margin is not met, but the damped forced response stays within the "
-                         "permissible values. API Standard 617 accepts a torsional response analysis showing "
-                         "that such a resonance does no harm (confirm the clause in the edition that applies); "
-                         "the reviewing engineer decides.")
-    body = [[Paragraph(f'<font color="{ink.hexval()}">{escape(head)}</font>', st["verdict"])]]
+    lines += acceptance_lines(ctx)
+    lines += transient_lines(ctx)
+    arg = study.argument
+    if s is not None and not s.passed and arg is not None and arg.forced_response:
+        lines.append("Modes within the margin are accepted on the damped forced response: API Standard 617 "
+                     "accepts a torsional response analysis showing that such a resonance does no harm "
+                     "(confirm the clause in the edition that applies); the reviewing engineer decides.")
+    style = st["verdict"] if len(head) <= 260 else st["verdict_long"]
+    body = [[Paragraph(f'<font color="{ink.hexval()}">{escape(head)}</font>', style)]]
     body += [[Paragraph(l, st["body"])] for l in lines]
     body.append([Paragraph(f"<i>{escape(CAUTION)}</i>", st["small"])])
     t = Table(body, colWidths=[ctx.width], hAlign="LEFT")
@@ -158,6 +171,58 @@ def verdict_block(ctx: Ctx):
                            ("LEFTPADDING", (0, 0), (-1, -1), 5)]))
     out.append(t)
     return out
+
+
+def acceptance_lines(ctx: Ctx) -> list[str]:
+    """One verdict line for the acceptance checks (None when no check was made)."""
+    acc = ctx.study.acceptance
+    if acc is None or not acc.checks:
+        return []
+    n = len(acc.checks)
+    cases = [lc.name for lc in acc.load_cases]
+    where = (f"load case{'s' if len(cases) != 1 else ''} " + ", ".join(f"'{escape(clip(c, 120))}'" for c in cases)
+             if cases else "no load case (vibratory limits only)")
+    fails = acc.failures
+    if fails:
+        w = fails[0]
+        text = (f"<b>Acceptance checks:</b> <font color='{FAIL_INK.hexval()}'>FAIL</font> — {len(fails)} of {n} "
+                f"checks over {where} fail (worst: {escape(clip(ctx.name(w.link), 200))}, "
+                f"{escape(wording.criterion(w.criterion))} at {fmt.percent(w.utilisation)}\u00a0% of its limit, "
+                f"{fmt.rpm(w.at)} rpm, {wording.speed_band(w.speed_band)}).")
+    else:
+        w = acc.worst_first()[0]
+        text = (f"<b>Acceptance checks:</b> PASS — all {n} checks over {where} hold (highest: "
+                f"{escape(clip(ctx.name(w.link), 200))}, {escape(wording.criterion(w.criterion))} at "
+                f"{fmt.percent(w.utilisation)}\u00a0% of its limit).")
+    extra = []
+    if acc.barred_ranges:
+        extra.append(f"{len(acc.barred_ranges)} barred speed range{'s' if len(acc.barred_ranges) != 1 else ''}")
+    if acc.hammer_ranges:
+        extra.append(f"{len(acc.hammer_ranges)} speed range{'s' if len(acc.hammer_ranges) != 1 else ''} of gear "
+                     "hammer")
+    if extra:
+        text += " " + " and ".join(extra).capitalize() + " (listed under Acceptance)."
+    return [text]
+
+
+def transient_lines(ctx: Ctx) -> list[str]:
+    """One verdict line for the transient events (none when the project has none)."""
+    tr = ctx.study.transients
+    if tr is None or not tr.events:
+        return []
+    names = ", ".join(f"'{escape(clip(e.name, 120))}'" for e in tr.events)
+    n = len(tr.events)
+    failing = [(e, l) for e in tr.events for l in e.links if l.passed is False]
+    if failing:
+        e, l = failing[0]
+        return [f"<b>Transient events</b> ({names}): <font color='{FAIL_INK.hexval()}'>FAIL</font> — "
+                f"{len(failing)} link{'s' if len(failing) != 1 else ''} exceed a peak limit or take fewer events "
+                f"than required (first: {escape(clip(ctx.name(l.link_id), 200))} in '{escape(clip(e.name, 120))}')."]
+    if tr.passed:
+        return [f"<b>Transient events</b> ({names}): PASS — every peak torque within its limit and every shaft "
+                f"with a fatigue curve takes the events required."]
+    return [f"<b>Transient event{'s' if n != 1 else ''}</b> ({names}): computed; no link gives a peak limit or a "
+            "required number of events, so nothing was judged."]
 
 
 # ----------------------------------------------------------------- schematic and model

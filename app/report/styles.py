@@ -29,6 +29,8 @@ PASS_FILL = colors.HexColor("#e6f2e8")
 FAIL_INK = colors.HexColor("#a11d1d")
 FAIL_FILL = colors.HexColor("#f8e4e2")
 NEUTRAL_FILL = colors.HexColor("#eeeeee")
+OPEN_INK = colors.HexColor("#7a4f00")  # a verdict still open: amber, neither pass nor fail
+OPEN_FILL = colors.HexColor("#fbf0d9")
 # line colours of the plots: distinguishable in print and for common colour blindness
 PALETTE = [colors.HexColor(c) for c in
            ("#0b5394", "#d9730d", "#2e8b57", "#9b2d86", "#8c6d1f", "#1b9aaa", "#c2185b", "#555555")]
@@ -66,6 +68,8 @@ def styles() -> dict[str, ParagraphStyle]:
                              spaceAfter=3, keepWithNext=1),
         "verdict": ParagraphStyle("verdict", parent=base, fontName=BOLD, fontSize=11, leading=14,
                                   spaceAfter=2),
+        "verdict_long": ParagraphStyle("verdict_long", parent=base, fontName=BOLD, fontSize=9.5, leading=12,
+                                       spaceAfter=2),
     }
 
 
