@@ -156,12 +156,94 @@ def merged_intervals(intervals):
     return out
 
 
-def source_colours(lines) -> dict:
+def excitation_groups(lines, operating) -> dict:
+    """Line source -> the excitation it comes from: an electric drive's lines
+    ('Inverter: |6 f_supply − 6 f_out|') belong to their drive ('Inverter'), so that one
+    excitation keeps one colour however many lines it gives."""
+    group = {}
+    for e in (operating.excitations if operating is not None else ()):
+        group[e.name] = e.name
+        for fl in getattr(e, "lines", ()):
+            group[f"{e.name}: {fl.name}"] = e.name
+    return {l.source: group.get(l.source, l.source) for l in lines}
+
+
+def source_colours(lines, operating=None) -> dict:
+    """A colour per line source, shared by the sources of one excitation."""
+    group = excitation_groups(lines, operating)
     names = []
     for l in lines:
-        if l.source not in names:
-            names.append(l.source)
-    return {n: PALETTE[i % len(PALETTE)] for i, n in enumerate(names)}
+        g = group[l.source]
+        if g not in names:
+            names.append(g)
+    colour = {n: PALETTE[i % len(PALETTE)] for i, n in enumerate(names)}
+    return {src: colour[g] for src, g in group.items()}
+
+
+#: dash pattern of an excitation line that does not pass through the origin (f = |a + b N|)
+OFFSET_DASH = (5, 1.5, 1, 1.5)
+
+
+def line_segments(line, x_max_rpm: float, y_max_hz: float) -> list[tuple[float, float, float, float]]:
+    """The parts of an excitation line f(N) inside [0, x_max] x [0, y_max] as straight
+    segments (x0, y0, x1, y1) in rpm and Hz.  f = |a + s N| is linear on each side of its
+    vertex, so each side is cut exactly where it meets the top of the chart."""
+    rad = fmt.TWO_PI / 60.0  # rad/s per rpm
+    knots = [0.0, x_max_rpm]
+    if line.kind == "line" and line.slope != 0:
+        v = -line.offset_hz / (line.slope * rad)  # |a + s N| = 0
+        if 0.0 < v < x_max_rpm:
+            knots.insert(1, v)
+    out = []
+    for xa, xb in zip(knots, knots[1:]):
+        ya, yb = (float(line.frequency(x * rad)) for x in (xa, xb))
+        if ya > y_max_hz and yb > y_max_hz:
+            continue
+        if ya > y_max_hz:
+            xa, ya = xa + (xb - xa) * (ya - y_max_hz) / (ya - yb), y_max_hz
+        elif yb > y_max_hz:
+            xb, yb = xa + (xb - xa) * (y_max_hz - ya) / (yb - ya), y_max_hz
+        out.append((xa, ya, xb, yb))
+    return out
+
+
+# ----------------------------------------------------------------- speed bands and barred ranges
+BAND_COLOURS = {"transient": colors.HexColor("#b9b9b9"), "operating": colors.HexColor("#4f7fc9"),
+                "overspeed": colors.HexColor("#e0922f")}
+BARRED_FILL = colors.Color(0.75, 0.1, 0.1, alpha=0.16)
+BARRED_EDGE = colors.Color(0.63, 0.11, 0.11, alpha=0.9)
+STRIP_H = 4.0  # points: the speed-band strip along the foot of a chart
+
+
+def band_strip(p: "Plot", bands) -> None:
+    """The speed bands (core.bands) as a coloured strip along the foot of the plot."""
+    for b in bands:
+        lo, hi = fmt.rad_s_to_rpm(b.low), fmt.rad_s_to_rpm(b.high)
+        lo, hi = max(lo, p.x_range[0]), min(hi, p.x_range[1])
+        if hi < lo:
+            continue
+        x0, x1 = p.sx(lo), p.sx(hi)
+        if x1 - x0 < 1.2:  # a fixed speed: a short bar of its own
+            x0, x1 = 0.5 * (x0 + x1) - 0.8, 0.5 * (x0 + x1) + 0.8
+        p.d.add(Rect(x0, p.y0 + 0.4, x1 - x0, STRIP_H, fillColor=BAND_COLOURS.get(b.name, GREY),
+                     strokeColor=None, strokeWidth=0))
+
+
+def barred_bands(p: "Plot", ranges) -> None:
+    """Barred speed ranges (rpm of the reference shaft) as red bands across the plot."""
+    for r in ranges:
+        p.vband(r.low_rpm, r.high_rpm, BARRED_FILL, BARRED_EDGE)
+
+
+def bands_text(bands) -> str:
+    """'start-up / run-down 0–900 rpm (grey), ...' for a legend."""
+    from .. import wording
+    names = {"transient": "grey", "operating": "blue", "overspeed": "orange"}
+    parts = []
+    for b in bands:
+        rng = (f"{fmt.rpm(b.low)} rpm" if b.low == b.high else f"{fmt.rpm(b.low)}–{fmt.rpm(b.high)} rpm")
+        parts.append(f"{wording.speed_band(b.name)} {rng} ({names.get(b.name, 'grey')})")
+    return "speed bands along the foot: " + ", ".join(parts)
 
 
 # ----------------------------------------------------------------- mode shapes

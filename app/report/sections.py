@@ -27,7 +27,7 @@ from core.about import CAUTION, program_line
 
 from .. import formatting as fmt
 from .. import wording
-from . import campbell, charts
+from . import campbell, charts, physics
 from .schematic import legend_drawing, schematic_drawings
 from .styles import FAIL_FILL, FAIL_INK, FONT, GREY, INK, NEUTRAL_FILL, OPEN_FILL, OPEN_INK, PASS_FILL, \
     PASS_INK, escape, styles
@@ -459,9 +459,12 @@ def excitation_block(ctx: Ctx):
         engine = getattr(e, "engine", None)
         if engine is not None:  # amplitudes come from the engine data, per cylinder and speed
             orders = [o.order for o in e.orders]
-            rows.append([e.name, "the crank throws below", f"{ratio:.4g}",
+            rows.append([e.name, f"{len(engine.cylinders)} crank throws (see the engine below)", f"{ratio:.4g}",
                          f"orders {fmt.order(min(orders))}–{fmt.order(max(orders))}",
-                         "from the engine data", "per cylinder", "gas constant, inertia with speed²"])
+                         "from the engine data", "per cylinder", "gas with load, inertia with speed²"])
+            continue
+        if getattr(e, "lines", ()):
+            rows += physics.electric_rows(ctx, e, ratio)
             continue
         for k, o in enumerate(e.orders):
             scaling = "constant"
@@ -471,14 +474,16 @@ def excitation_block(ctx: Ctx):
                          f"{ratio:.4g}" if k == 0 else "", f"order {fmt.order(o.order)}",
                          U.value(o.amplitude, u.TORQUE) if o.amplitude is not None else "—",
                          f"{o.phase_deg:g}" if o.amplitude is not None else "—", scaling])
-    out.append(table(ctx.cols(("Excitation", 0.22), ("Acts at", 0.18), ("Its shaft's speed / reference", 0.1, "RIGHT"),
-                              ("Order or frequency", 0.12), (f"Amplitude ({tu})", 0.11, "RIGHT"),
-                              ("Phase (deg)", 0.08, "RIGHT"), ("Amplitude scaling", 0.19)), rows))
+    out.append(table(ctx.cols(("Excitation", 0.2), ("Acts at", 0.17), ("Its shaft's speed / reference", 0.1, "RIGHT"),
+                              ("Order, frequency or line", 0.18, "LEFT", True, 4),
+                              (f"Amplitude ({tu})", 0.1, "RIGHT", True),
+                              ("Phase (deg)", 0.08, "RIGHT", True), ("Amplitude scaling", 0.17)), rows))
+    out += physics.electric_notes(ctx)
     cyl_rows = []
     for e in op.excitations:
-        engine = getattr(e, "engine", None)
-        throws = [(c.disc, c.firing_deg) for c in engine.cylinders] if engine is not None else e.cylinders
-        for k, (disc, firing) in enumerate(throws):
+        if getattr(e, "engine", None) is not None:
+            continue  # listed with the engine's own inputs
+        for k, (disc, firing) in enumerate(e.cylinders):
             cyl_rows.append([e.name if k == 0 else "", str(k + 1), ctx.name(disc), f"{firing:g}"])
     if cyl_rows:
         out.append(Spacer(1, 4))
@@ -577,10 +582,16 @@ def campbell_block(ctx: Ctx):
     tops = campbell.panel_tops(s)
     n = len(tops)
     first_h = ctx.frame_h * (0.46 if n == 1 else 0.36)
-    dwg = campbell.campbell_drawing(s, ctx.width, first_h, tops[0])
+    acc = ctx.study.acceptance
+    dwg = campbell.campbell_drawing(s, ctx.width, first_h, tops[0], acceptance=acc)
     note = ("Order labels stand where each excitation line leaves the chart, mode numbers at the left edge "
             "(a thin leader where a label had to move; neighbouring labels merged as '3–5' only where there "
             "is no room).")
+    if any(l.kind == "line" for l in s.lines):
+        note += (" Lines of an electric drive that do not pass through the origin, f = |a + b·N|, are drawn "
+                 "dash-dotted as the lines they are and labelled with their formula.")
+    note += (" The strip along the foot marks the speed bands the acceptance judges apart: start-up / run-down, "
+             "the operating range and overspeed to trip.")
     if n > 1:
         note += (" The detail panels below repeat the chart over lower frequency ranges, so that no "
                  "natural frequency is squeezed against the axis.")
@@ -590,7 +601,7 @@ def campbell_block(ctx: Ctx):
     for k, top in enumerate(tops[1:], start=2):
         d = campbell.campbell_drawing(s, ctx.width, ctx.frame_h * 0.27, top,
                                       title=f"Detail {k - 1}: 0 to {num(top, 3)} Hz (key as above)",
-                                      with_legend=False)
+                                      with_legend=False, acceptance=acc)
         out.append(fit_frame(d, ctx.width, ctx.frame_h))
     return out
 
@@ -614,20 +625,33 @@ def coincidence_block(ctx: Ctx):
         else:
             band = f"{fmt.rpm(c.band[0])}–{fmt.rpm(c.band[1])}"
         status = c.status.upper()
-        rows.append([str(c.mode), fmt.hz(c.frequency_hz), c.source, fmt.order(c.order),
+        rows.append([str(c.mode), fmt.hz(c.frequency_hz), c.source, order_or_line(c.line),
                      ctx.name(c.line.at) if c.line.at else "—", fmt.rpm(c.crossing_speed),
                      fmt.percent(c.separation), band, status])
         cells[k] = status_styles(8, status)
-    spec = [("Mode", 0.06, "RIGHT"), ("Natural Hz", 0.09, "RIGHT"), ("Excitation source", 0.24),
-            ("Order", 0.06, "RIGHT"), ("Acts at", 0.14), ("Crossing rpm", 0.09, "RIGHT"),
+    any_line = any(c.line.kind == "line" for c in s.coincidences)
+    spec = [("Mode", 0.06, "RIGHT"), ("Natural Hz", 0.09, "RIGHT"), ("Excitation source", 0.21),
+            ("Order or line" if any_line else "Order", 0.11 if any_line else 0.06, "RIGHT", True),
+            ("Acts at", 0.13), ("Crossing rpm", 0.09, "RIGHT"),
             ("Margin %", 0.08, "RIGHT"), ("Band inside the margin (rpm)", 0.14), ("Status", 0.07)]
     out.append(table(ctx.cols(*spec), rows, cells))
-    out.append(Paragraph(
-        f"Listed: every pair with a smallest separation below twice the required margin "
-        f"({fmt.percent(2 * s.margin)}\u00a0%). Margin = smallest |f_n - f_e| / f_e over the operating range "
-        "(0 for a crossing inside it). Crossing rpm: reference speed where the excitation meets the natural "
-        "frequency, also when outside the range.", st["note"]))
+    text = (f"Listed: every pair with a smallest separation below twice the required margin "
+            f"({fmt.percent(2 * s.margin)}\u00a0%). Margin = smallest |f_n - f_e| / f_e over the operating range "
+            "(0 for a crossing inside it). Crossing rpm: reference speed where the excitation meets the natural "
+            "frequency, also when outside the range.")
+    if any_line:
+        text += (" A line that does not pass through the origin is listed by its formula f = |a + b·N| "
+                 "(a in Hz, N the speed of the shaft it acts at in rev/s); a V-shaped line |a − b·N| may cross "
+                 "a natural frequency twice, the first crossing is listed.")
+    out.append(Paragraph(text, st["note"]))
     return out
+
+
+def order_or_line(line) -> str:
+    """The coincidence table's words for an excitation line: its order, 'fixed', or its formula."""
+    if line.kind == "line":
+        return line.formula or "line"
+    return fmt.order(line.order)
 
 
 def response_block(ctx: Ctx):
@@ -787,8 +811,8 @@ def appendix_block(ctx: Ctx):
 
 
 #: the sections in print order; a new section goes in here (see the module docstring)
-SECTIONS = (title_block, verdict_block, schematic_block, model_block, excitation_block, frequency_block,
-            mode_shape_block, campbell_block, coincidence_block, response_block, method_block, appendix_block)
+SECTIONS = (title_block, verdict_block, schematic_block, model_block, excitation_block, physics.engine_block,
+            physics.gear_block, frequency_block, physics.damped_block, mode_shape_block, campbell_block, coincidence_block, response_block, method_block, appendix_block)
 
 
 def build_story(ctx: Ctx) -> list:
