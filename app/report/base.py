@@ -6,7 +6,7 @@ import math
 from dataclasses import dataclass, field
 
 import numpy as np
-from reportlab.platypus import KeepInFrame, Paragraph
+from reportlab.platypus import CondPageBreak, KeepInFrame, Paragraph
 
 from core import units as u
 
@@ -147,3 +147,10 @@ def entered_number(raw, fallback: float) -> float:
         return float(str(raw).strip())
     except ValueError:
         return fallback
+
+
+def heading(text: str, level: int = 1, room: float = 90.0) -> list:
+    """A heading over a long table: a page break unless ``room`` points are left (so the heading
+    keeps a few rows under it), then the heading itself, free to be followed by a table that
+    splits (a keep-with-next heading would drag a long table to the next page whole)."""
+    return [CondPageBreak(room), Paragraph(text, styles()["h1_flow" if level == 1 else "h2_flow"])]

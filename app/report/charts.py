@@ -212,6 +212,7 @@ BAND_COLOURS = {"transient": colors.HexColor("#b9b9b9"), "operating": colors.Hex
                 "overspeed": colors.HexColor("#e0922f")}
 BARRED_FILL = colors.Color(0.75, 0.1, 0.1, alpha=0.16)
 BARRED_EDGE = colors.Color(0.63, 0.11, 0.11, alpha=0.9)
+HAMMER_FILL = colors.Color(0.35, 0.35, 0.35, alpha=0.16)
 STRIP_H = 4.0  # points: the speed-band strip along the foot of a chart
 
 
@@ -338,9 +339,12 @@ def mode_shape_drawing(modes, i: int, placement, width: float, height: float, li
 
 # ----------------------------------------------------------------- forced response
 def response_drawing(speed_rpm, values, permissible, width: float, height: float, op_rpm, title: str,
-                     y_title: str, x_title: str, colour=None) -> Drawing:
-    """One link's vibratory amplitude against speed, its permissible value dashed
-    and the operating range shaded (one small plot per link, each on its own scale)."""
+                     y_title: str, x_title: str, colour=None, bands=(), barred=(), trip_rpm=None,
+                     hammer=()) -> Drawing:
+    """One link's vibratory amplitude against speed, its permissible value dashed, the
+    operating range shaded, the speed bands along the foot (core.bands), barred speed
+    ranges in red, gear-hammer ranges hatched grey and the trip speed dotted (one small
+    plot per link, each on its own scale)."""
     colour = colour or PALETTE[0]
     left, right, bottom, top = 40, 8, 26, 14
     d = drawing(width, height)
@@ -354,7 +358,14 @@ def response_drawing(speed_rpm, values, permissible, width: float, height: float
              (float(speed_rpm.min()), float(speed_rpm.max())), (0.0, y_top), x_title=x_title, y_title=y_title,
              font_size=6)
     p.vband(op_rpm[0], op_rpm[1], RANGE_FILL, None)
+    barred_bands(p, barred)
+    for r in hammer:
+        p.vband(r.low_rpm, r.high_rpm, HAMMER_FILL, None)
     p.draw_axes()
+    band_strip(p, bands)
+    if trip_rpm is not None and p.x_range[0] <= trip_rpm <= p.x_range[1]:
+        d.add(Line(p.sx(trip_rpm), p.y0, p.sx(trip_rpm), p.y0 + p.h, strokeColor=RANGE_EDGE, strokeWidth=0.7,
+                   strokeDashArray=(1.5, 1.5)))
     p.polyline(speed_rpm, v, colour, 0.9)
     if permissible is not None:
         p.hline(permissible, FAIL_INK, 0.8, dash=(3, 2))

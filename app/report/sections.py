@@ -27,11 +27,11 @@ from core.about import CAUTION, program_line
 
 from .. import formatting as fmt
 from .. import wording
-from . import campbell, charts, physics
+from . import acceptance, campbell, charts, physics, transients
 from .schematic import legend_drawing, schematic_drawings
 from .styles import FAIL_FILL, FAIL_INK, FONT, GREY, INK, NEUTRAL_FILL, OPEN_FILL, OPEN_INK, PASS_FILL, \
     PASS_INK, escape, styles
-from .base import TWO_PI, Ctx, P, Units, clip, entered_number, fit_frame, num, table  # noqa: F401
+from .base import TWO_PI, Ctx, P, Units, clip, entered_number, fit_frame, heading, num, table  # noqa: F401
 from .tables import LongTable, marked_styles, status_styles
 
 #: a train with more discs or links than this gets a summary in the body, the full tables in Appendix A
@@ -503,7 +503,7 @@ def frequency_block(ctx: Ctx):
     m = ctx.study.modes
     s = ctx.data.screening
     above = ctx.study.above_screening_limit
-    out = [Paragraph("Natural frequencies", st["h1"])]
+    out = heading("Natural frequencies")
     spec = [("Mode", 0.07, "RIGHT"), ("Hz", 0.11, "RIGHT"), ("cpm", 0.1, "RIGHT"),
             ("Largest strain energy (link, share)", 0.28), ("Largest kinetic energy (disc, share)", 0.28)]
     if s is not None:
@@ -611,7 +611,7 @@ def coincidence_block(ctx: Ctx):
     s = ctx.data.screening
     if s is None:
         return []
-    out = [Paragraph("Coincidences, worst first", st["h1"])]
+    out = heading("Coincidences, worst first")
     if not s.coincidences:
         out.append(Paragraph(f"No excitation comes within {fmt.percent(2 * s.margin)}\u00a0% of a natural "
                              "frequency.", st["body"]))
@@ -664,7 +664,7 @@ def response_block(ctx: Ctx):
                     Paragraph(escape(data.study.response_error.message), st["body"])]
         return []
     r = data.response
-    out = [Paragraph("Forced response: peak vibratory torque and stress", st["h1"])]
+    out = heading("Forced response: peak vibratory torque and stress")
     tu, su = U.unit(u.TORQUE), U.unit(u.STRESS)
     peaks = data.response_summary
     tq = U.column([p.peak_torque for p in peaks], u.TORQUE)
@@ -683,12 +683,15 @@ def response_block(ctx: Ctx):
             (f"Permissible ({tu})", 0.11, "RIGHT"), (f"Peak stress ({su})", 0.11, "RIGHT"),
             ("at rpm", 0.08, "RIGHT"), (f"Permissible ({su})", 0.11, "RIGHT"), ("Status", 0.08)]
     out.append(table(ctx.cols(*spec), rows, cells))
+    band = peaks[0].band if peaks else ""
+    where = (f"over the {wording.speed_band(band)}" if band else "over the computed speed range")
     out.append(Paragraph(
-        "Peak over the computed speed range of the combined amplitude (sum of the order amplitudes, "
+        f"Peak {where} of the combined amplitude (sum of the order amplitudes, "
         "conservative); stress = torque × outer radius / polar moment × stress concentration factor, for "
         f"shafts with geometry. Status only where a permissible value is given. Speeds computed: "
         f"{fmt.rpm(float(np.min(r.speed)))}–{fmt.rpm(float(np.max(r.speed)))} rpm of the reference shaft.",
         st["note"]))
+    out += acceptance.band_peaks_block(ctx)
     speed_rpm = np.asarray(r.speed) * 60.0 / TWO_PI
     index = {lid: k for k, lid in enumerate(r.link_ids)}
     link_torque = np.asarray(r.link_torque)
@@ -699,15 +702,24 @@ def response_block(ctx: Ctx):
     ranked = sorted(peaks, key=lambda p: (utilisation(p), p.peak_torque or 0.0), reverse=True)
     chosen = [p for p in ranked if p.link_id in index][:4]
     curves = [(ctx.name(p.link_id), link_torque[index[p.link_id]] * scale,
-               None if p.permissible_torque is None else p.permissible_torque * scale) for p in chosen]
+               None if p.permissible_torque is None else p.permissible_torque * scale, p.link_id) for p in chosen]
     if curves and len(speed_rpm) > 1:
         op = ctx.train.operating
         cw = ctx.width / 2
+        acc = ctx.study.acceptance
+        from core.bands import speed_bands
+        bands = speed_bands(op, lowest=min(float(speed_rpm.min()) * TWO_PI / 60.0, op.speed_min))
+        barred = campbell.barred_ranges(acc)
+        trip = fmt.rad_s_to_rpm(op.trip_speed) if op.trip_speed else None
+
+        def hammer(link_id):
+            return [h for h in (acc.hammer_ranges if acc is not None else ()) if h.link == link_id]
         cells_ = [charts.response_drawing(
             speed_rpm, v, perm, cw - 4, 135, (fmt.rad_s_to_rpm(op.speed_min), fmt.rad_s_to_rpm(op.speed_max)),
             title=f"{name}: peak {num(float(np.nanmax(v)))} {tu}", y_title=f"torque amplitude ({tu})",
-            x_title="reference speed (rpm)", colour=charts.PALETTE[k % len(charts.PALETTE)])
-            for k, (name, v, perm) in enumerate(curves)]
+            x_title="reference speed (rpm)", colour=charts.PALETTE[k % len(charts.PALETTE)], bands=bands,
+            barred=barred, trip_rpm=trip, hammer=hammer(lid))
+            for k, (name, v, perm, lid) in enumerate(curves)]
         grid = [cells_[k:k + 2] for k in range(0, len(cells_), 2)]
         grid[-1] += [""] * (2 - len(grid[-1]))
         t = Table(grid, colWidths=[cw, cw], hAlign="LEFT")
@@ -716,7 +728,12 @@ def response_block(ctx: Ctx):
         out.append(KeepTogether([t, Paragraph(
             f"Combined vibratory torque amplitude against the speed of the reference shaft "
             f"'{escape(ctx.name(op.reference))}', for the links nearest their permissible value (else the "
-            "largest); operating range shaded, permissible value dashed.", st["note"])]))
+            "largest); operating range shaded, permissible value dashed"
+            + (", trip speed dotted" if trip is not None else "")
+            + (", barred speed ranges red" if barred else "")
+            + (", gear-hammer ranges grey" if any(hammer(c[3]) for c in curves) else "")
+            + ". " + escape(charts.bands_text(bands)[:1].upper() + charts.bands_text(bands)[1:]) + ".",
+            st["note"])]))
     return out
 
 
@@ -735,14 +752,43 @@ SOURCES = {
     "din740": ("DIN 740-2, Flexible shaft couplings: parameters and design principles, Beuth, Berlin "
                "(relative damping psi of couplings)"),
     "roark": "W. C. Young and R. G. Budynas, Roark's Formulas for Stress and Strain, 7th ed., McGraw-Hill, 2002",
+    "shigley": ("R. G. Budynas and J. K. Nisbett, Shigley's Mechanical Engineering Design, 9th ed., McGraw-Hill, "
+                "New York, 2011 (ch. 6, fatigue failure resulting from variable loading)"),
+    "iacs_m68": ("International Association of Classification Societies, Unified Requirement M68, Dimensions of "
+                 "propulsion shafts and their permissible torsional vibration stresses, IACS, London"),
+    "taylor": ("C. F. Taylor, The Internal-Combustion Engine in Theory and Practice, vol. 2, MIT Press, "
+               "Cambridge MA (engine balance and torque)"),
+    "iso6336": ("ISO 6336-1, Calculation of load capacity of spur and helical gears — Part 1: Basic principles, "
+                "introduction and general influence factors, ISO, Geneva (mesh stiffness)"),
+    "inman": "D. J. Inman, Engineering Vibration, Prentice Hall (state-space form of damped free vibration)",
+    "denhartog": ("J. P. Den Hartog, Mechanical Vibrations, 4th ed., McGraw-Hill, New York, 1956 (ch. 3, the "
+                  "damped vibration absorber)"),
+    "newmark": ("N. M. Newmark, A method of computation for structural dynamics, Journal of the Engineering "
+                "Mechanics Division, ASCE 85 (1959) 67–94"),
+    "astm1049": ("ASTM E1049, Standard Practices for Cycle Counting in Fatigue Analysis, ASTM International, "
+                 "West Conshohocken PA (rainflow counting)"),
+    "miner": "M. A. Miner, Cumulative damage in fatigue, Journal of Applied Mechanics 12 (1945) A159–A164",
+    "fkm": ("FKM guideline, Analytical Strength Assessment of Components, VDMA Verlag, Frankfurt am Main "
+            "(S–N curves in shear)"),
+    "concordia": ("C. Concordia, Synchronous Machines: Theory and Performance, Wiley, New York, 1951 "
+                  "(short-circuit torque)"),
 }
 
 
 def method_block(ctx: Ctx):
     st = styles()
     train = ctx.train
+    study = ctx.study
     masses = {m: [l.label for l in train.links if l.kind == "shaft" and l.mass == m]
               for m in ("none", "lumped", "distributed")}
+    refs: list[str] = []
+
+    def cite(*keys) -> str:
+        """'[4, 5]': the numbers of the sources, in the order they are first cited."""
+        for k in keys:
+            if k not in refs:
+                refs.append(k)
+        return "[" + ", ".join(str(refs.index(k) + 1) for k in keys) + "]"
 
     def listed(names):
         return ", ".join(names[:12]) + (f" and {len(names) - 12} more" if len(names) > 12 else "")
@@ -755,47 +801,115 @@ def method_block(ctx: Ctx):
     if masses["none"]:
         mass_txt.append(f"massless spring: {len(masses['none'])} shaft{'s' if len(masses['none']) != 1 else ''}")
     paras = [
-        "<b>Natural frequencies.</b> Transfer matrices per element in the manner of Holzer [1]: springs for "
-        "couplings, meshes and massless shafts, the exact field matrix of a uniform shaft with distributed "
-        "inertia (cos/sin of omega L / c) where the shaft's mass is modelled, so no subdivision is needed [2]. "
-        "Geared branches are referred to one shaft by the square of the speed ratio. The count of natural "
-        "frequencies below any trial frequency comes from the Wittrick–Williams algorithm [3], so no mode is "
-        "missed or counted twice; each root is then polished to machine precision.",
+        f"<b>Natural frequencies.</b> Transfer matrices per element in the manner of Holzer {cite('holzer')}: "
+        "springs for couplings, meshes and massless shafts, the exact field matrix of a uniform shaft with "
+        "distributed inertia (cos/sin of omega L / c) where the shaft's mass is modelled, so no subdivision is "
+        f"needed {cite('pestel')}. Geared branches are referred to one shaft by the square of the speed ratio. The "
+        "count of natural frequencies below any trial frequency comes from the Wittrick–Williams algorithm "
+        f"{cite('ww')}, so no mode is missed or counted twice; each root is then polished to machine precision.",
         "<b>Mass models used.</b> " + escape("; ".join(mass_txt) if mass_txt else "no shafts") + ".",
     ]
     s = ctx.data.screening
-    refs = ["holzer", "pestel", "ww"]
     if s is not None:
         paras.append(
             "<b>Separation.</b> For a natural frequency f_n and an excitation f_e = order × speed of its "
             "source shaft (or a fixed frequency), separation = |f_n - f_e| / f_e, the smallest over the "
             f"operating range; a pair fails below the required {fmt.percent(s.margin)}\u00a0%. The 10\u00a0% "
-            "default is the separation margin of the API machinery standards for torsional analysis [4, 5]. "
+            f"default is the separation margin of the API machinery standards for torsional analysis "
+            f"{cite('api617', 'api684')}. "
             f"Natural frequencies are screened up to the screening limit of {fmt.hz(s.cap_hz)}\u00a0Hz: the "
             "highest excitation frequency reached in the operating range, raised by twice the margin and a "
             "further 25\u00a0%. This limit is a setting of this program, not a requirement of a standard; modes "
             "above it are listed and marked, not screened.")
-        refs += ["api617", "api684"]
+        if any(l.kind == "line" for l in s.lines):
+            paras.append(
+                "<b>Electric-drive lines.</b> An inverter-fed motor excites at multiples of its output frequency "
+                "f_out = p N / (1 − s) and at interharmonics |m f_supply − n f_out|, lines f = |a + b N| that do not "
+                f"pass through the origin {cite('api684')}. They are screened with the same margin; the speeds where "
+                "such a line meets a natural frequency are solved in closed form.")
+    engines = [e for e in (train.operating.excitations if train.operating else ()) if getattr(e, "engine", None)]
+    if engines:
+        paras.append(
+            "<b>Engine excitation.</b> Per cylinder, the tangential gas torque from the cylinder pressure curve (or the "
+            "tangential-pressure harmonics given) times piston area and crank radius through the exact crank–slider "
+            "kinematics, and the inertia torque of the reciprocating mass from the same exact motion "
+            f"{cite('taylor')}; both as numeric Fourier series over the working cycle (no truncated series in the "
+            "crank-to-rod ratio). Each order acts at every crank throw with its firing angle (vector sum "
+            f"{cite('nestorides')}).")
+    mesh_stiffness = any(isinstance(l, dict) and l.get("mesh_stiffness") for l in ctx.doc.get("links", []) or [])
+    if any(l.kind == "gear_mesh" and l.teeth is not None for l in train.links) or mesh_stiffness:
+        text = ("<b>Gear meshes.</b> Tooth counts give the speed ratio z_from / z_to, the mesh order on either "
+                "shaft and the hunting-tooth frequency (mesh frequency × gcd / (z_from z_to)).")
+        if mesh_stiffness:
+            text += (" A mesh stiffness from gear data is k = c_gamma × face width × base radius² on the shaft of "
+                     f"that base radius {cite('iso6336')}.")
+        paras.append(text)
     if ctx.data.response is not None:
         paras.append(
             "<b>Forced response.</b> Steady-state harmonic response of the damped train, solved directly "
             "with the complex dynamic stiffness at every speed and order (no modal truncation); viscous "
             "damping to ground and between discs, hysteretic damping as a complex stiffness k (1 + i eta). "
             "A coupling's relative damping psi and a dynamic magnifier M enter as eta = psi / 2π = 1 / M "
-            "[6, 7]; engine orders with cylinders are summed as vectors over the crank throws [6]. Shaft "
-            "stress = torque × outer radius / polar moment of area [8].")
-        refs += ["nestorides", "din740", "roark"]
-    paras.append(
-        "<b>Not modelled.</b> Damping does not enter the natural frequencies (undamped eigenvalues). Couplings "
-        "and meshes are linear springs at the stiffness given: the load, temperature and frequency dependence "
-        "of elastomeric couplings, gear backlash and other nonlinearities are not represented. Transient "
-        "events (motor start-up, short circuit, run-through of a resonance during acceleration) are not "
-        "analysed. Lateral and axial coupling, foundations and electrical stiffness of motors are outside "
-        "the model.")
+            f"{cite('nestorides', 'din740')}; engine orders with cylinders are summed as vectors over the crank "
+            f"throws {cite('nestorides')}. Shaft stress = torque × outer radius / polar moment of area "
+            f"{cite('roark')}.")
+    acc = study.acceptance
+    if acc is not None:
+        text = ("<b>Acceptance.</b> The forced response is judged per speed band — continuous running in the "
+                "operating range, passing through below it and up to trip — against the limits each gives, with "
+                "the mean torque of every load case through every link (power balance, lossless gears); the worst "
+                "point of each band is refined between the computed speeds.")
+        if any(si.endurance_limit is not None for si in acc.shaft_inputs):
+            text += (" Shaft fatigue by the Goodman or Soderberg relation with the Marin factors, first-cycle yield "
+                     f"by the Langer line {cite('shigley')}.")
+        if any(si.design_factor is not None for si in acc.shaft_inputs):
+            text += (" Propulsion shafts against the permissible torsional vibration stresses of the classification "
+                     f"societies' unified requirement {cite('iacs_m68')}, and the barred speed ranges that follow.")
+        if any(getattr(l, "ratings", None) is not None and l.ratings.coupling is not None for l in train.links):
+            text += f" Flexible couplings against their data-sheet ratings {cite('din740')}."
+        if acc.hammer_ranges or any(c.criterion == "gear_hammer" for c in acc.checks):
+            text += " Gear meshes: the teeth separate where the vibratory torque exceeds the mean torque."
+        paras.append(text)
+    if study.damped is not None or study.damper is not None:
+        text = ("<b>Damped natural frequencies.</b> From the complex eigenvalues of the lumped train in first-order "
+                f"(state-space) form {cite('inman')}; loss factors as an equivalent viscous damping at each mode's "
+                "frequency.")
+        if study.damper is not None:
+            text += (" A viscous damper's ring (a coupling of damping alone) is free in the undamped natural "
+                     "frequencies; the frequencies with the ring locked to its housing are given beside them.")
+        if physics.damper_links_for_suggestion(train):
+            text += (" The damper optimum is the classical two-mass result for a tuned or an untuned viscous damper "
+                     f"{cite('denhartog')}, a starting point for the damper's selection.")
+        paras.append(text)
+    tr = study.transients
+    if tr is not None and tr.events:
+        text = ("<b>Transient events.</b> The whole train referred to one shaft, distributed shafts cut into at least "
+                "20 elements per wavelength at the highest frequency resolved, integrated in time by the trapezoidal "
+                f"rule (Newmark's average-acceleration method) {cite('newmark')} with 20 steps per period of the "
+                "highest resolved frequency; speed-dependent torques (a motor's air-gap torque, load curves) are "
+                "solved together with the motion at every step. Loss factors act as viscous damping matched at one "
+                "frequency per event. Shaft stress cycles are counted by rainflow "
+                f"{cite('astm1049')} and their damage summed by Miner's rule {cite('miner')} on the shaft's S–N "
+                "curve")
+        text += (f" (the material's library curve after {cite('fkm')} where none is given)." if any(
+            l.sn_source and "FKM" in l.sn_source for e in tr.events for l in e.links) else ".")
+        if any(isinstance(t, dict) and t.get("short_circuit") for ev in (ctx.doc.get("transients") or [])
+               if isinstance(ev, dict) for t in (ev.get("torques") or [])):
+            text += (" Terminal short circuits as decaying sinusoids from the machine's subtransient reactance and "
+                     f"time constants {cite('concordia')}.")
+        paras.append(text)
+    not_modelled = ("<b>Not modelled.</b> Damping does not enter the natural frequencies (undamped eigenvalues). "
+                    "Couplings and meshes are linear springs at the stiffness given: the load, temperature and "
+                    "frequency dependence of elastomeric couplings, gear backlash and other nonlinearities are not "
+                    "represented. ")
+    if tr is None or not tr.events:
+        not_modelled += ("Transient events (motor start-up, short circuit, run-through of a resonance during "
+                         "acceleration) are not analysed: the project names none. ")
+    paras.append(not_modelled + "Lateral and axial coupling, foundations and electrical stiffness of motors are "
+                                "outside the model.")
     ref_lines = [f"[{k}] {escape(SOURCES[key])}." for k, key in enumerate(refs, start=1)]
     return [CondPageBreak(160),
-            KeepTogether([Paragraph("Method and assumptions", st["h1"])] +
-                         [Paragraph(p, st["body"]) for p in paras]),
+            Paragraph("Method and assumptions", st["h1"])] + [Paragraph(p, st["body"]) for p in paras] + [
             KeepTogether([Paragraph("Sources", st["h2"]),
                           Paragraph("The editions named are those the method was written against; standards "
                                     "are revised, so confirm the edition and clause that apply to your project "
@@ -812,7 +926,8 @@ def appendix_block(ctx: Ctx):
 
 #: the sections in print order; a new section goes in here (see the module docstring)
 SECTIONS = (title_block, verdict_block, schematic_block, model_block, excitation_block, physics.engine_block,
-            physics.gear_block, frequency_block, physics.damped_block, mode_shape_block, campbell_block, coincidence_block, response_block, method_block, appendix_block)
+            physics.gear_block, frequency_block, physics.damped_block, mode_shape_block, campbell_block, coincidence_block, response_block, acceptance.acceptance_block,
+            transients.transient_block, method_block, appendix_block)
 
 
 def build_story(ctx: Ctx) -> list:

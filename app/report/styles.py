@@ -66,6 +66,12 @@ def styles() -> dict[str, ParagraphStyle]:
                              spaceAfter=4, keepWithNext=1),
         "h2": ParagraphStyle("h2", parent=base, fontName=BOLD, fontSize=9, leading=12, spaceBefore=6,
                              spaceAfter=3, keepWithNext=1),
+        # headings over a long table: no keepWithNext (which would move a heading and a table longer
+        # than the rest of the page to the next page whole); see base.heading
+        "h1_flow": ParagraphStyle("h1_flow", parent=base, fontName=BOLD, fontSize=11, leading=14, spaceBefore=10,
+                                  spaceAfter=4),
+        "h2_flow": ParagraphStyle("h2_flow", parent=base, fontName=BOLD, fontSize=9, leading=12, spaceBefore=6,
+                                  spaceAfter=3),
         "verdict": ParagraphStyle("verdict", parent=base, fontName=BOLD, fontSize=11, leading=14,
                                   spaceAfter=2),
         "verdict_long": ParagraphStyle("verdict_long", parent=base, fontName=BOLD, fontSize=9.5, leading=12,
