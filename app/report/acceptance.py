@@ -228,9 +228,10 @@ def _ranges(ctx: Ctx, acc) -> list:
     if acc.barred_ranges:
         rows, cells = [], {}
         for k, r in enumerate(acc.barred_ranges):
-            edges = (f"{r.low_rpm:.0f}{'' if r.low_exact else ' (band end)'}–"
-                     f"{r.high_rpm:.0f}{'' if r.high_exact else ' (band end)'}")
-            ok = "yes, pass quickly" if r.permitted else "no"
+            digits = 1 if r.high_rpm - r.low_rpm < 5 else 0
+            edges = (f"{r.low_rpm:.{digits}f}{'' if r.low_exact else ' (band end)'}–"
+                     f"{r.high_rpm:.{digits}f}{'' if r.high_exact else ' (band end)'}")
+            ok = "yes" if r.permitted else "no"
             rows.append([ctx.name(r.link), r.load_case or "—", edges,
                          f"{num(r.worst, 3)} at {fmt.rad_s_to_rpm(r.worst_at):.0f} rpm",
                          ok, r.note])

@@ -21,11 +21,14 @@ Legibility rules (issue 9, item 6):
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 from reportlab.graphics.shapes import Circle, Drawing, Line, Rect, String
 from reportlab.lib import colors
 
-from .. import formatting as fmt
 from core.bands import speed_bands
+
+from .. import formatting as fmt
 
 from .charts import (BAND_COLOURS, BAND_FILL, BARRED_EDGE, BARRED_FILL, OFFSET_DASH, RANGE_EDGE, RANGE_FILL, Plot,
                      band_strip, bands_text, barred_bands, drawing, excitation_groups, fit_text, line_segments,
@@ -195,23 +198,41 @@ def legend_items(s, above_drawn: bool, acceptance=None) -> list[tuple]:
     return items
 
 
+@dataclass(frozen=True)
+class BarredSpan:
+    """Overlapping barred speed ranges of every shaft and load case, merged for drawing."""
+
+    low_rpm: float
+    high_rpm: float
+    links: tuple  # link ids, in the order found
+    load_cases: tuple
+
+
 def barred_ranges(acceptance) -> list:
-    """The barred speed ranges to draw: one per distinct interval (load cases that give the same
-    range share it)."""
-    if acceptance is None:
+    """The barred speed ranges to draw: overlapping ranges (several shafts, several load cases)
+    merged into one span each."""
+    if acceptance is None or not acceptance.barred_ranges:
         return []
-    out, seen = [], set()
-    for r in acceptance.barred_ranges:
-        key = (r.link, round(r.low_rpm, 1), round(r.high_rpm, 1))
-        if key not in seen:
-            seen.add(key)
-            out.append(r)
-    return out
+    spans = []
+    for r in sorted(acceptance.barred_ranges, key=lambda r: r.low):
+        if spans and r.low_rpm <= spans[-1][1] + 1e-9:
+            lo, hi, links, cases = spans[-1]
+            spans[-1] = (lo, max(hi, r.high_rpm), links + [r.link], cases + [r.load_case])
+        else:
+            spans.append((r.low_rpm, r.high_rpm, [r.link], [r.load_case]))
+    return [BarredSpan(lo, hi, tuple(dict.fromkeys(links)), tuple(c for c in dict.fromkeys(cases) if c))
+            for lo, hi, links, cases in spans]
+
+
+def rpm_span(lo: float, hi: float) -> str:
+    """'547.5–547.8 rpm' for a narrow range, '520–580 rpm' for a wide one."""
+    digits = 1 if hi - lo < 5 else 0
+    return f"{lo:.{digits}f}–{hi:.{digits}f} rpm"
 
 
 def barred_text(train, r) -> str:
-    return (f"barred speed range of '{train.name_of(r.link)[:200]}', {r.low_rpm:.0f}–{r.high_rpm:.0f} rpm"
-            + (f" ({r.load_case[:120]})" if r.load_case else ""))
+    names = ", ".join(f"'{train.name_of(l)[:120]}'" for l in r.links)
+    return f"barred speed range {rpm_span(r.low_rpm, r.high_rpm)} ({names})"
 
 
 def legend_layout(items, width: float, size: float = 6.5):
