@@ -8,7 +8,6 @@ must print what the study holds, not compute its own).
 from __future__ import annotations
 
 import copy
-import json
 import re
 from pathlib import Path
 
