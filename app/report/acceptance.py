@@ -75,6 +75,9 @@ def load_case_text(lc, U, op) -> str:
 
 
 def shares_text(ctx: Ctx, shares) -> str:
+    if len(shares) > 2 and len({round(s.share, 9) for s in shares}) == 1:  # six crank throws, equal shares
+        return (", ".join(f"'{ctx.name(s.at)}'" for s in shares)
+                + f": {fmt.percent(shares[0].share)}\u00a0% each")
     return ", ".join(f"'{ctx.name(s.at)}' {fmt.percent(s.share)}\u00a0%" for s in shares) or "—"
 
 
@@ -149,8 +152,8 @@ def acceptance_block(ctx: Ctx):
                  excitation_change_text(ctx, lc)] for lc in acc.load_cases]
         out += heading("Load cases", 2)
         out.append(table(ctx.cols(("Load case", 0.18), ("Load against speed", 0.34, "LEFT", True, 6),
-                                  ("Driving (power in)", 0.15, "LEFT", True, 6),
-                                  ("Driven (power out)", 0.15, "LEFT", True, 6),
+                                  ("Driving (power in)", 0.15, "LEFT", True, 12),
+                                  ("Driven (power out)", 0.15, "LEFT", True, 12),
                                   ("Excitations", 0.18, "LEFT", True, 6)), rows))
         out.append(Spacer(1, 3))
         out.append(load_curve_drawing(ctx, ctx.width * 0.62, 130))
@@ -216,6 +219,8 @@ def short_note(check) -> str:
     if check.criterion == "gear_hammer":
         return ""
     note = note.replace(RULE_NAME, "UR M68")
+    note = note.replace("vibratory torque against T_KW", "against T_KW")
+    note = note.replace("power dissipated in the coupling (forced response) against P_KV", "against P_KV")
     return {"transient permissible value": "the start-up and overspeed value",
             "no transient value given: judged against the continuous one":
                 "the operating range's value (none given for start-up and overspeed)"}.get(note, note)
@@ -269,7 +274,10 @@ def inputs_block(ctx: Ctx, acc) -> list:
     U = ctx.units
     train = ctx.train
     out = []
-    si = acc.shaft_inputs
+    judged = {c.criterion for c in acc.checks}
+    # strengths and fatigue factors where a check rests on them (without a load case there is none)
+    si = [s for s in acc.shaft_inputs if {"shaft_fatigue", "shaft_yield"} & judged
+          or (s.design_factor is not None and any(c.startswith("shafting_") for c in judged))]
     mats = {}
     for s in si:
         if s.tensile_strength is not None:
@@ -283,7 +291,7 @@ def inputs_block(ctx: Ctx, acc) -> list:
                 table(ctx.cols(("Material", 0.18), ("Tensile strength", 0.13, "RIGHT"), ("Yield strength", 0.13, "RIGHT"),
                                ("Torsional endurance limit (polished specimen)", 0.16, "RIGHT", True),
                                ("Source", 0.4, "LEFT", True, 4)), rows)]
-    fat = [s for s in si if s.endurance_limit is not None]
+    fat = [s for s in si if s.endurance_limit is not None and {"shaft_fatigue", "shaft_yield"} & judged]
     if fat:
         rows = []
         for s in fat:
@@ -298,16 +306,16 @@ def inputs_block(ctx: Ctx, acc) -> list:
         out += heading("Inputs: shaft fatigue", 2) + [
                 table(ctx.cols(("Shaft", 0.14), (f"Outer / bore dia. ({U.unit(u.LENGTH)})", 0.1, "RIGHT", True),
                                ("SCF", 0.05, "RIGHT"), ("Relation", 0.08), ("Surface, k_a", 0.1, "LEFT", True),
-                               ("k_b (size)", 0.06, "RIGHT", True), ("k_d (temp.)", 0.06, "RIGHT", True),
-                               ("k_e (reliab.)", 0.07, "RIGHT", True), (f"S_se ({su})", 0.08, "RIGHT", True),
+                               ("k_b size", 0.06, "RIGHT", True), ("k_d temp.", 0.06, "RIGHT", True),
+                               ("k_e reliab.", 0.07, "RIGHT", True), (f"S_se ({su})", 0.08, "RIGHT", True),
                                (f"S_su ({su})", 0.08, "RIGHT", True), (f"S_sy ({su})", 0.08, "RIGHT", True),
-                               ("Required safety factor", 0.08, "RIGHT", True)), rows),
+                               ("n required", 0.08, "RIGHT", True)), rows),
                 Paragraph("Endurance limit of the part S_se = k_a k_b k_d k_e × the material's torsional endurance "
                           "limit (Marin factors for surface, size, temperature and reliability); ultimate shear "
                           "strength S_su = 0.67 × tensile strength, yield shear strength S_sy = 0.577 × yield "
                           "strength. Goodman: 1/n = tau_a / S_se + tau_m / S_su; Soderberg: 1/n = tau_a / S_se + "
-                          "tau_m / S_sy; first-cycle yield n = S_sy / (tau_a + |tau_m|). The stress concentration "
-                          "factor (SCF) multiplies the stresses once.", st["note"])]
+                          "tau_m / S_sy; first-cycle yield n = S_sy / (tau_a + |tau_m|); n required: the fatigue safety "
+                          "factor asked for. The stress concentration factor (SCF) multiplies the stresses once.", st["note"])]
     rule = [s for s in si if s.design_factor is not None]
     if rule:
         rows = [[link_text(ctx, _Seg(s)), POSITIONS.get(s.rule_position, s.rule_position or "—"),

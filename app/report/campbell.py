@@ -190,7 +190,9 @@ def legend_items(s, above_drawn: bool, acceptance=None) -> list[tuple]:
                       f"{op.range_name[:200]} ({fmt.rpm(s.speed_min)}–{fmt.rpm(s.speed_max)} rpm)"))
     if op.trip_speed:
         items.append(("line", RANGE_EDGE, (1.5, 1.5), f"trip speed ({fmt.rpm(op.trip_speed)} rpm)"))
-    items.append(("bands", None, None, bands_text(speed_bands(op))))
+    bands = speed_bands(op)
+    items.append(("bands", [BAND_COLOURS[b.name] for b in bands if b.name in BAND_COLOURS], None,
+                  bands_text(bands)))
     for r in barred_ranges(acceptance):
         items.append(("fill", BARRED_FILL, None, barred_text(s.train, r)))
     items.append(("dot_fill", FAIL_INK, None, "coincidence inside the margin (fails)"))
@@ -265,7 +267,7 @@ def draw_legend(d: Drawing, x0: float, y_top: float, placed, size: float = 6.5):
         elif kind == "fill":
             d.add(Rect(x, y - 0.5, 16, size, fillColor=colour, strokeColor=None, strokeWidth=0))
         elif kind == "bands":
-            for k, c in enumerate(BAND_COLOURS.values()):
+            for k, c in enumerate(colour or BAND_COLOURS.values()):
                 d.add(Rect(x + k * 5.4, y + 0.5, 5.2, size * 0.55, fillColor=c, strokeColor=None, strokeWidth=0))
         elif kind == "dot_fill":
             d.add(Circle(x + 8, y + size * 0.35, 2.6, fillColor=colour, strokeColor=colour, strokeWidth=0.8))

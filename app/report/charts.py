@@ -213,6 +213,7 @@ BAND_COLOURS = {"transient": colors.HexColor("#b9b9b9"), "operating": colors.Hex
 BARRED_FILL = colors.Color(0.75, 0.1, 0.1, alpha=0.16)
 BARRED_EDGE = colors.Color(0.63, 0.11, 0.11, alpha=0.9)
 HAMMER_FILL = colors.Color(0.35, 0.35, 0.35, alpha=0.16)
+OFF_SCALE = 4.0  # a permissible value more than this many times the peak is named, not drawn
 STRIP_H = 4.0  # points: the speed-band strip along the foot of a chart
 
 
@@ -351,7 +352,10 @@ def response_drawing(speed_rpm, values, permissible, width: float, height: float
     speed_rpm = np.asarray(speed_rpm, float)
     v = np.asarray(values, float)
     y_top = float(np.nanmax(v)) if np.isfinite(v).any() else 0.0
-    if permissible is not None:
+    # a permissible value far above the response would flatten the curve against the axis:
+    # then it is named at the top instead of drawn
+    off_scale = permissible is not None and y_top > 0 and permissible > OFF_SCALE * y_top
+    if permissible is not None and not off_scale:
         y_top = max(y_top, permissible)
     y_top = y_top * 1.1 if y_top > 0 else 1.0
     p = Plot(d, left, bottom, width - left - right, height - bottom - top,
@@ -367,7 +371,10 @@ def response_drawing(speed_rpm, values, permissible, width: float, height: float
         d.add(Line(p.sx(trip_rpm), p.y0, p.sx(trip_rpm), p.y0 + p.h, strokeColor=RANGE_EDGE, strokeWidth=0.7,
                    strokeDashArray=(1.5, 1.5)))
     p.polyline(speed_rpm, v, colour, 0.9)
-    if permissible is not None:
+    if off_scale:
+        p.text(p.x0 + p.w - 2, p.y0 + p.h - 7, f"permissible {permissible:.4g}, above the scale", size=5.5,
+               color=FAIL_INK, anchor="end")
+    elif permissible is not None:
         p.hline(permissible, FAIL_INK, 0.8, dash=(3, 2))
         p.text(p.x0 + p.w - 2, p.sy(permissible) + 2, "permissible", size=5.5, color=FAIL_INK, anchor="end")
     d.add(String(left, height - 9, fit_text(title, width - left, 7), fontName=BOLD, fontSize=7, fillColor=INK))
