@@ -155,7 +155,11 @@ def _line_text(train, line) -> str:
     """A legend entry for one electric-drive line: its name, formula and the shaft N turns with."""
     at = f"'{train.name_of(line.at)[:200]}'" if line.at else "its shaft"
     what = f"order {fmt.order(line.order)}, " if line.kind == "order" else ""
-    return f"{line.source[:200]}: {what}{line.formula or ''} (N = speed of {at} in rev/s)"
+    formula = line.formula or ""
+    if formula and line.source.endswith(formula):  # a line given without a name is named by its formula
+        head, formula = line.source[:-len(formula)].rstrip(": "), formula
+        return f"{head[:200]}: {what}{formula} (N = speed of {at} in rev/s)"
+    return f"{line.source[:200]}: {what}{formula} (N = speed of {at} in rev/s)"
 
 
 def legend_items(s, above_drawn: bool, acceptance=None) -> list[tuple]:

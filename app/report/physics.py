@@ -19,7 +19,7 @@ from core import units as u
 from core.errors import ModelError
 
 from .. import formatting as fmt
-from .base import Ctx, num, table
+from .base import TWO_PI, Ctx, num, table
 from .charts import PALETTE, Plot, drawing, fit_text
 from .styles import BOLD, FONT, INK, escape, styles
 from .tables import Column
@@ -33,10 +33,11 @@ def electric_rows(ctx: Ctx, e, ratio: float) -> list[list[str]]:
     U = ctx.units
     rows = []
     for k, fl in enumerate(e.lines):
+        named = fl.name != f"f = {fl.formula}"  # a line given without a name is named by its formula
         if fl.offset_hz == 0.0:
-            what = f"order {fmt.order(fl.order)}: {fl.name}"
+            what = f"order {fmt.order(fl.order)}" + (f": {fl.name}" if named else "")
         else:
-            what = f"f = {fl.formula}: {fl.name}"
+            what = f"f = {fl.formula}" + (f": {fl.name}" if named else "")
         rows.append([e.name if k == 0 else "", ctx.name(e.at) if k == 0 else "", f"{ratio:.4g}" if k == 0 else "",
                      what, U.value(fl.amplitude, u.TORQUE) if fl.amplitude is not None else "—",
                      f"{fl.phase_deg:g}" if fl.amplitude is not None else "—", "constant"])
@@ -71,7 +72,8 @@ def electric_notes(ctx: Ctx) -> list:
                     parts.append(f"supply frequency f_supply {fs:g}\u00a0Hz")
             except ModelError:
                 parts = []
-        lines = "; ".join(f"{escape(fl.name)}: f = {escape(fl.formula)}" for fl in e.lines)
+        from core.electric import fmt_line
+        lines = "; ".join(escape(fmt_line(fl)) for fl in e.lines)
         head = f"<b>{escape(e.name)}</b> at '{escape(ctx.name(e.at))}'"
         if parts:
             head += " — " + "; ".join(parts)
@@ -140,13 +142,13 @@ def _engine(ctx: Ctx, e) -> list:
     train = ctx.train
     op = train.operating
     z = len(sp.cylinders)
-    layout = sp.layout + (f", bank angle {sp.bank_angle_deg:g} deg" if sp.bank_angle_deg is not None else "")
+    bank = f", bank angle {sp.bank_angle_deg:g} deg" if sp.bank_angle_deg is not None else ""
     major = ", ".join(fmt.order(n) for n in sp.major_orders) or "none"
     crank_speed = op.speed_max * train.relative_speed(sp.cylinders[0].disc, op.reference)
     gas_src = {"pressure curve": "cylinder pressure curve (crank angle against pressure)",
                "tangential pressure coefficients": "harmonic coefficients of the tangential pressure per order"}
     rows = [
-        ["Engine", f"{z}-cylinder {layout} {sp.strokes}-stroke"],
+        ["Engine", f"{z}-cylinder {sp.layout} {sp.strokes}-stroke{bank}"],
         ["Bore, stroke", f"{U.text(sp.bore, u.LENGTH)}, {U.text(2 * sp.crank_radius, u.LENGTH)}"],
         ["Connecting rod (between centres)", f"{U.text(sp.rod_length, u.LENGTH)}; crank radius / rod length "
                                               f"{sp.rod_ratio:.3f}"],
@@ -347,14 +349,19 @@ def damper_suggestions(ctx: Ctx) -> list:
                 f"({fmt.hz(s.mode_frequency_hz)}\u00a0Hz): inertia ratio mu = {s.mass_ratio:.3g} (ring "
                 f"{U.text(s.ring_inertia, u.INERTIA)} / effective {U.text(s.effective_inertia, u.INERTIA)} at the "
                 "housing).")
+        modelled = f"modelled {U.text(s.damping, u.DAMPING)}"
+        if not s.damping and l.loss_factor:  # a rubber damper's loss factor, as a viscous damping at the mode
+            modelled = (f"modelled as loss factor eta = {l.loss_factor:g}, i.e. "
+                        f"{U.text(l.loss_factor * s.stiffness / (TWO_PI * s.mode_frequency_hz), u.DAMPING)} at "
+                        "this mode's frequency")
         if s.kind == "tuned":
             body = (f"Classical optimum of a tuned damper (two-mass model, Den Hartog; damping after Brock): "
                     f"tuning 1 / (1 + mu), stiffness {U.text(s.optimum_stiffness, u.STIFFNESS)} (modelled "
-                    f"{U.text(s.stiffness, u.STIFFNESS)}), damping {U.text(s.optimum_damping, u.DAMPING)} (modelled "
-                    f"{U.text(s.damping, u.DAMPING)}), peak magnifier sqrt(1 + 2 / mu) = {s.optimum_magnifier:.3g}.")
+                    f"{U.text(s.stiffness, u.STIFFNESS)}), damping {U.text(s.optimum_damping, u.DAMPING)} ({modelled}), "
+                    f"peak magnifier sqrt(1 + 2 / mu) = {s.optimum_magnifier:.3g}.")
         else:
             body = (f"Classical optimum of an untuned viscous damper (two-mass model, Den Hartog): damping "
-                    f"{U.text(s.optimum_damping, u.DAMPING)} (modelled {U.text(s.damping, u.DAMPING)}), peak magnifier "
+                    f"{U.text(s.optimum_damping, u.DAMPING)} ({modelled}), peak magnifier "
                     f"1 + 2 / mu = {s.optimum_magnifier:.3g}.")
         out.append(Paragraph(f"{head} {body} A starting point for selecting the damper, not its rating "
                              f"({escape(DEN_HARTOG.split(',')[0])}; see Sources).", st["body"]))

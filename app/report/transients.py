@@ -250,7 +250,8 @@ def speed_drawing(ctx: Ctx, res, ev, width: float, height: float):
     for it in placed:
         d.add(String(it["pos"], p.y0 + p.h - 8, it["text"], fontName=FONT, fontSize=5.5, fillColor=it["colour"],
                      textAnchor="middle"))
-    d.add(String(left, height - 9, fit_text("Speed against time; natural frequencies passed", width - left, 7, BOLD),
+    title = "Speed against time" + ("; natural frequencies passed" if crossings else "")
+    d.add(String(left, height - 9, fit_text(title, width - left, 7, BOLD),
                  fontName=BOLD, fontSize=7, fillColor=INK))
     return d
 
