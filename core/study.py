@@ -29,7 +29,7 @@ from .model import Train
 MIN_ELASTIC_MODES = 6
 #: damped natural frequencies come from a dense eigenproblem of twice the discs' size: above this
 #: many discs the study leaves them out with a note (a solve would take seconds to minutes)
-DAMPED_MAX_DISCS = 200
+DAMPED_MAX_DISCS = 120
 
 #: the analyses a study can hold, in the order they are computed
 PARTS = ("screening", "response", "design", "acceptance", "damped", "transients")
