@@ -18,7 +18,7 @@ from .. import formatting as fmt
 from .. import wording
 from .base import Ctx, clip, heading, num, table
 from .charts import PALETTE, Plot, drawing, fit_text
-from .styles import BOLD, FAIL_FILL, FAIL_INK, INK, PASS_INK, escape, styles
+from .styles import BOLD, FAIL_FILL, FAIL_INK, FONT, INK, PASS_INK, escape, styles
 from .tables import status_styles
 
 BAR_PASS = PASS_INK
@@ -123,7 +123,7 @@ def load_curve_drawing(ctx: Ctx, width: float, height: float):
         p.polyline(rpm, c, colour, 1.0)
         y = legend_h - 9 - 10 * k
         d.add(Line(left, y + 2.5, left + 16, y + 2.5, strokeColor=colour, strokeWidth=1.1))
-        d.add(String(left + 21, y, fit_text(name, width - left - 30, 6.5), fontName="TwVera", fontSize=6.5,
+        d.add(String(left + 21, y, fit_text(name, width - left - 30, 6.5), fontName=FONT, fontSize=6.5,
                      fillColor=INK))
     d.add(String(left, height + legend_h - 9, "Load torque on the reference shaft per load case", fontName=BOLD,
                  fontSize=7, fillColor=INK))
