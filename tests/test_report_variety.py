@@ -92,3 +92,19 @@ def test_every_section_lays_out(system, paper, tmp_path):
         for si in ("kg·m²", "kN·m", "N·m·s/rad", "MPa", "(mm)", " bar)", " bar ", "kW"):
             assert si not in text, si
     assert data.study.transients is not None and data.study.acceptance is not None
+
+
+def test_every_font_of_the_new_sections_is_embedded(tmp_path):
+    out = tmp_path / "f.pdf"
+    write_sheet(variety_doc(), None, out)
+    seen = 0
+    for page in PdfReader(str(out)).pages:
+        for name, ref in page["/Resources"]["/Font"].items():
+            font = ref.get_object()
+            if font["/Subtype"] == "/Type0":
+                desc = font["/DescendantFonts"][0].get_object()["/FontDescriptor"].get_object()
+            else:
+                desc = font.get("/FontDescriptor", {})
+            assert "/FontFile2" in desc, f"{name} ({font.get('/BaseFont')}) is not embedded"
+            seen += 1
+    assert seen
