@@ -18,6 +18,13 @@ Legibility rules (issue 9, item 6):
   edge by :func:`spread` with a leader line to its line, and merged ("3–5",
   "2×, 2.5×") only where there is no room for each on its own;
 * legend entries wrap onto as many lines as they need: none is cut.
+
+Electric-drive lines f = |a + b N| that do not pass through the origin are drawn
+dash-dotted as the lines they are (a V where a = b N), labelled with their
+formula where they leave the chart, and both crossings of a V with a natural
+frequency are marked.  The speed bands the acceptance judges apart run as a
+coloured strip along the foot, and barred speed ranges (merged across shafts and
+load cases) stand as red bands.
 """
 from __future__ import annotations
 

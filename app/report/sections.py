@@ -8,11 +8,15 @@ response, a study part that was not run).  Sections may add flowables to
 ``ctx.appendix`` (printed at the end, after the method), which is how long
 trains keep a summary in the body and the full tables at the back.
 
-Adding a section for a new study part (design options, acceptance checks,
-transients): write ``def design_block(ctx)`` that returns ``[]`` when
-``ctx.study.design is None``, lay its tables out with :func:`table`
-(linear in the rows, header repeated) and its plots as drawings, then put
-its name in :data:`SECTIONS` where it should print.  Nothing else changes.
+Adding a section for a new study part: write ``def design_block(ctx)`` that
+returns ``[]`` when ``ctx.study.design is None``, lay its tables out with
+:func:`table` (linear in the rows, header repeated; a heading over a long table
+with :func:`~app.report.base.heading`) and its plots as drawings, then put its
+name in :data:`SECTIONS` where it should print.  Nothing else changes.  The
+sections of the later analyses live in their own modules: excitation physics
+(engines, electric lines, gear meshes, damped modes) in :mod:`.physics`, the
+acceptance checks in :mod:`.acceptance`, transient events in :mod:`.transients`;
+the shared helpers (:class:`Units`, :class:`Ctx`, :func:`num`) in :mod:`.base`.
 """
 from __future__ import annotations
 

@@ -9,7 +9,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from reportlab.graphics.shapes import Line, String
+from reportlab.graphics.shapes import Line, PolyLine, String
 from reportlab.platypus import KeepTogether, Paragraph, Spacer
 
 from core import units as u
@@ -31,8 +31,8 @@ def transient_block(ctx: Ctx) -> list:
         return []
     events = {e.name: e for e in ctx.train.transients}
     out = []
-    for k, res in enumerate(tr.events):
-        out += event_section(ctx, res, events.get(res.name), k)
+    for res in tr.events:
+        out += event_section(ctx, res, events.get(res.name))
     return out
 
 
@@ -145,18 +145,16 @@ def most_loaded(res, n: int = N_CURVES) -> list:
 
 
 def _time_axis_plot(d, left, bottom, w, h, t_end, y_lo, y_hi, y_title, x_title="time (s)"):
-    p = Plot(d, left, bottom, w, h, (0.0, t_end), (y_lo, y_hi), x_title=x_title, y_title=y_title, font_size=6)
-    return p
+    return Plot(d, left, bottom, w, h, (0.0, t_end), (y_lo, y_hi), x_title=x_title, y_title=y_title, font_size=6)
 
 
 def _trace(p: Plot, t, y, colour, width=0.8):
-    xs = np.array([p.sx(v) for v in (t[0], t[-1])])
-    scale = (xs[1] - xs[0]) / (t[-1] - t[0]) if t[-1] > t[0] else 1.0
-    px = (t - t[0]) * scale + xs[0]
-    py = p.sy(0.0) + (np.clip(y, p.y_range[0], p.y_range[1]) - 0.0) * (
-        (p.sy(1.0) - p.sy(0.0)))
+    """A long time history as one polyline, mapped to the plot in one array operation and
+    thinned to what print can show (charts.envelope keeps every extreme)."""
+    (xa, xb), (ya, yb) = p.x_range, p.y_range
+    px = p.x0 + (np.asarray(t, float) - xa) / (xb - xa) * p.w
+    py = p.y0 + (np.clip(np.asarray(y, float), ya, yb) - ya) / (yb - ya) * p.h
     ex, ey = envelope(px, py)
-    from reportlab.graphics.shapes import PolyLine
     pts = np.column_stack([ex, ey]).ravel().tolist()
     if len(pts) >= 4:
         p.d.add(PolyLine(pts, strokeColor=colour, strokeWidth=width, strokeLineJoin=1))
@@ -294,7 +292,7 @@ def sn_text(curve, source: str, U) -> str:
             f"{after} ({src})")
 
 
-def event_section(ctx: Ctx, res, ev, k: int) -> list:
+def event_section(ctx: Ctx, res, ev) -> list:
     st = styles()
     U = ctx.units
     out = heading(f"Transient event: {escape(clip(res.name, 200))}", 1, 260)
