@@ -2,6 +2,8 @@
 verdicts and the words for a study's results.  Formatting only: nothing here computes."""
 from __future__ import annotations
 
+import re
+
 from . import formatting as fmt
 
 
@@ -99,3 +101,16 @@ def headline(study, nbsp: str = " ") -> tuple[str, bool | None]:
     if arg.verdict == "fail":
         return "FAIL — " + "; ".join(parts) + ".", False
     return "OPEN — " + "; ".join(parts) + ".", None
+
+
+_RECALLED = r"(?:from memory|common practice, no source|no source)"
+
+
+def for_reader(text: str) -> str:
+    """A source as a reader is shown it: without the notes kept for developers ('from memory',
+    'common practice, no source'), which belong in code comments and tests, not on a sheet or
+    screen.  'AISI 1045, Shigley table A-20 (from memory)' -> 'AISI 1045, Shigley table A-20'."""
+    out = re.sub(r"\s*\(\s*" + _RECALLED + r"\s*\)", "", str(text), flags=re.IGNORECASE)
+    out = re.sub(r"\s*[,;\u2014\u2013-]\s*" + _RECALLED, "", out, flags=re.IGNORECASE)
+    out = re.sub(_RECALLED, "", out, flags=re.IGNORECASE)
+    return re.sub(r"\s{2,}", " ", out).strip(" ;,")

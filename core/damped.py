@@ -299,7 +299,8 @@ class DamperBounds:
 
 DAMPER_STATEMENT = ("Undamped natural frequencies treat a viscous damper's ring as free (a coupling of "
                     "damping alone carries no torque without damping). With the ring locked to its housing "
-                    "they rise to the locked values; the damped natural frequencies lie between the two.")
+                    "they fall to the locked values (the ring's inertia joins the housing's); the damped natural "
+                    "frequencies lie between the two.")
 
 
 def damper_bounds(train: Train, max_frequency_hz: float) -> DamperBounds | None:

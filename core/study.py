@@ -27,6 +27,9 @@ from .errors import ModelError
 from .model import Train
 
 MIN_ELASTIC_MODES = 6
+#: damped natural frequencies come from a dense eigenproblem of twice the discs' size: above this
+#: many discs the study leaves them out with a note (a solve would take seconds to minutes)
+DAMPED_MAX_DISCS = 120
 
 #: the analyses a study can hold, in the order they are computed
 PARTS = ("screening", "sensitivities", "design", "response", "acceptance", "damped", "transients")
@@ -139,7 +142,8 @@ class Study:
     design: object | None = None
     window: object | None = None  # core.design.WindowResult asked for by StudyOptions.window_of
     acceptance: object | None = None
-    damped: object | None = None
+    damped: object | None = None  # core.damped.DampedModes
+    damper: object | None = None  # core.damped.DamperBounds (trains with a viscous damper's ring)
     transients: object | None = None
     notes: tuple[str, ...] = ()
     solve_time_s: float = 0.0
@@ -216,13 +220,29 @@ class Study:
         return bool(self.exceedances)
 
     @property
-    def passed(self) -> bool:
-        """Separation passes (or nothing was screened) and no permissible value is exceeded
-        and no acceptance check fails; never when the screening could not be completed."""
+    def verdict(self) -> str | None:
+        """The review's verdict: "pass", "fail", "open" (not yet accepted: a coincidence without a
+        forced response or a limit to judge it, or a screening that could not be completed), or
+        None when there was nothing to screen and nothing failed.  Separation where every mode
+        clears; the acceptance argument (:attr:`argument`) where some cannot; any failing check
+        of the forced response or of a transient event makes it "fail"."""
         if self.screening_error is not None:
-            return False
-        ok = self.screening is None or self.screening.passed
-        return ok and not self.response_failed and not self.acceptance_failed
+            return "open"
+        if self.argument is not None:
+            v = self.argument.verdict
+        elif self.screening is not None:
+            v = "pass" if self.screening.passed else "fail"
+        else:
+            v = None
+        failed = self.acceptance_failed if self.acceptance is not None else self.response_failed
+        if failed or (self.transients is not None and self.transients.passed is False):
+            v = "fail"
+        return v
+
+    @property
+    def passed(self) -> bool:
+        """The verdict passes (or there was nothing to screen and nothing failed)."""
+        return self.verdict in ("pass", None)
 
 
 def _require_finite(modes) -> None:
@@ -298,6 +318,20 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
     if "acceptance" in parts and response is not None:
         from .acceptance import analyse_acceptance
         acceptance = _timed(timings, "acceptance", analyse_acceptance, train, response)
+    damped, damper = None, None
+    if "damped" in parts:
+        from .damped import DampedModes, damped_modes, damper_bounds, has_damping
+        if has_damping(train):
+            shown = float(np.max(modes.frequency_hz)) if len(modes) else 0.0
+            cap = max(screening.cap_hz if screening is not None else 0.0, shown)
+            if len(train.discs) > DAMPED_MAX_DISCS:
+                damped = DampedModes(train, [], [], [
+                    f"damped natural frequencies are computed for trains of up to {DAMPED_MAX_DISCS} discs; "
+                    f"this one has {len(train.discs)}"])
+            elif cap > 0:
+                damped = _timed(timings, "damped", damped_modes, train, max_frequency_hz=cap)
+            if cap > 0:
+                damper = _timed(timings, "damper", damper_bounds, train, cap)
     transients = None
     if "transients" in parts and train.transients:
         from .loads import load_torque_table
@@ -309,5 +343,6 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
         transients = _timed(timings, "transients", run_transients, train, options.events,
                             peak_limits=transient_peak_limits(train), load_case_torque=load_case_torque)
     return Study(train, options, modes, screening, response, response_error, screening_error,
-                 design=design, window=window, acceptance=acceptance, transients=transients,
-                 notes=tuple(notes), solve_time_s=time.perf_counter() - t0, timings=timings)
+                 design=design, window=window, acceptance=acceptance, damped=damped, damper=damper,
+                 transients=transients, notes=tuple(notes), solve_time_s=time.perf_counter() - t0,
+                 timings=timings)

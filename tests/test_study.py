@@ -48,7 +48,13 @@ def test_study_holds_modes_screening_and_response(path):
     finite = len(train.discs) - (0 if train.grounded else 1)
     assert int(study.modes.elastic.sum()) >= min(MIN_ELASTIC_MODES, finite)
     assert (study.response is not None) == study.has_amplitudes
-    assert study.passed == (study.screening.passed and not study.exceedances)
+    # the review verdict: separation where every mode clears, else the acceptance argument;
+    # a failing limit fails it (issue 12 item 2)
+    if study.screening.passed and not study.acceptance_failed and not study.response_failed:
+        assert study.verdict == "pass" and study.passed
+    if study.acceptance_failed:
+        assert study.verdict == "fail" and not study.passed
+    assert study.passed == (study.verdict == "pass")
 
 
 def test_modes_above_the_screening_limit_are_shown_and_marked():

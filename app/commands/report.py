@@ -1,9 +1,11 @@
 """``twistwise report FILE -o SHEET.pdf [--paper] [--author] [--revision] [--units]``.
 
-Exit codes: 0 sheet written and the verdict passes (or the project has no
-operating data, so nothing was screened); 1 sheet written and the verdict fails
-(a coincidence inside the margin, as ``twistwise check``, or a forced-response
-exceedance); 2 bad input: one line on stderr naming the element and field, and
+The line printed names the sheet's headline verdict (:func:`app.wording.headline`)
+and, where it differs, the separation screening.  Exit codes follow
+``Study.passed``: 0 sheet written and the separation and every limit pass (or the
+project has no operating data, so nothing was screened); 1 sheet written and a
+coincidence lies inside the margin (as ``twistwise check``), a forced-response
+value or an acceptance check is exceeded; 2 bad input: one line on stderr naming the element and field, and
 no file written.
 """
 from __future__ import annotations
@@ -28,9 +30,16 @@ def run(args) -> int:
     doc = load_document(args.file)
     data = write_sheet(doc, args.file, args.output, paper=args.paper, author=args.author,
                        revision=args.revision, unit_system=args.units)
+    from .. import wording
     screening = data.screening
-    verdict = "not screened (no operating data)" if screening is None else screening.verdict.upper()
-    if data.response_exceedances:
-        verdict += f"; forced response: {len(data.response_exceedances)} exceedance(s)"
+    if screening is None:
+        verdict = "not screened (no operating data)"
+    else:
+        head, _ = wording.headline(data.study)
+        verdict = head.split(" — ", 1)[0]
+        if head != wording.separation_verdict(screening):
+            verdict += f" (separation screening {screening.verdict.upper()})"
+    if data.study.transients is not None and data.study.transients.passed is False:
+        verdict += "; a transient event fails its limits"
     print(f"Review sheet written to {args.output} — verdict {verdict}")
     return EXIT_OK if data.passed else EXIT_FAIL

@@ -18,14 +18,28 @@ Legibility rules (issue 9, item 6):
   edge by :func:`spread` with a leader line to its line, and merged ("3–5",
   "2×, 2.5×") only where there is no room for each on its own;
 * legend entries wrap onto as many lines as they need: none is cut.
+
+Electric-drive lines f = |a + b N| that do not pass through the origin are drawn
+dash-dotted as the lines they are (a V where a = b N), labelled with their
+formula where they leave the chart, and both crossings of a V with a natural
+frequency are marked.  The speed bands the acceptance judges apart run as a
+coloured strip along the foot, and barred speed ranges (merged across shafts and
+load cases) stand as red bands.
 """
 from __future__ import annotations
+
+from dataclasses import dataclass
 
 from reportlab.graphics.shapes import Circle, Drawing, Line, Rect, String
 from reportlab.lib import colors
 
+from core.bands import speed_bands
+
 from .. import formatting as fmt
-from .charts import BAND_FILL, RANGE_EDGE, RANGE_FILL, Plot, drawing, fit_text, source_colours
+
+from .charts import (BAND_COLOURS, BAND_FILL, BARRED_EDGE, BARRED_FILL, OFFSET_DASH, RANGE_EDGE, RANGE_FILL, Plot,
+                     band_strip, bands_text, barred_bands, drawing, excitation_groups, fit_text, line_segments,
+                     source_colours)
 from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PASS_INK
 from .tables import text_width, wrap_text
 
@@ -123,7 +137,7 @@ def panel_tops(screening) -> list[float]:
 # ----------------------------------------------------------------- the drawing
 def _source_text(train, source: str, lines) -> str:
     mine = [l for l in lines if l.source == source]
-    if mine and mine[0].order is None:
+    if mine and mine[0].kind == "fixed":
         return f"{source[:200]}: {mine[0].fixed_hz:g} Hz, fixed frequency"
     orders = [l.order for l in mine]
     if len(orders) > 10:
@@ -134,14 +148,43 @@ def _source_text(train, source: str, lines) -> str:
     return f"{source[:200]}: {text}" + (f" at '{train.name_of(at)[:200]}'" if at else "")
 
 
-def legend_items(s, above_drawn: bool) -> list[tuple]:
+def line_label(line) -> str:
+    """What stands on the chart where a line leaves it: '4×' for an order, the formula
+    '|300 Hz − 12.1·N|' for a line that does not pass through the origin."""
+    if line.kind == "line":
+        return (line.formula or line.source).removeprefix("f = ")
+    if line.kind == "fixed":
+        return f"{line.fixed_hz:g} Hz"
+    return f"{fmt.order(line.order)}×"
+
+
+def _line_text(train, line) -> str:
+    """A legend entry for one electric-drive line: its name, formula and the shaft N turns with."""
+    at = f"'{train.name_of(line.at)[:200]}'" if line.at else "its shaft"
+    what = f"order {fmt.order(line.order)}, " if line.kind == "order" else ""
+    formula = line.formula or ""
+    if formula and line.source.endswith(formula):  # a line given without a name is named by its formula
+        head, formula = line.source[:-len(formula)].rstrip(": "), formula
+        return f"{head[:200]}: {what}{formula} (N = speed of {at} in rev/s)"
+    return f"{line.source[:200]}: {what}{formula} (N = speed of {at} in rev/s)"
+
+
+def legend_items(s, above_drawn: bool, acceptance=None) -> list[tuple]:
     op = s.train.operating
     m = s.margin
-    colour = source_colours(s.lines)
+    colour = source_colours(s.lines, op)
+    group = excitation_groups(s.lines, op)
     items = []
-    for name, c in colour.items():
-        fixed = any(l.source == name and l.order is None for l in s.lines)
-        items.append(("line", c, (3, 2) if fixed else None, _source_text(s.train, name, s.lines)))
+    seen = []
+    for l in s.lines:
+        if l.source in seen:
+            continue
+        seen.append(l.source)
+        if group[l.source] != l.source:  # one line of an electric drive
+            items.append(("line", colour[l.source], OFFSET_DASH if l.kind == "line" else None, _line_text(s.train, l)))
+        else:
+            fixed = l.kind == "fixed"
+            items.append(("line", colour[l.source], (3, 2) if fixed else None, _source_text(s.train, l.source, s.lines)))
     items.append(("line", GREY, None, "natural frequency, mode number at the left edge"))
     lo_div, hi_div = f"{1 + m:g}", f"{1 - m:g}"
     items.append(("fill", BAND_FILL, None,
@@ -158,9 +201,51 @@ def legend_items(s, above_drawn: bool) -> list[tuple]:
                       f"{op.range_name[:200]} ({fmt.rpm(s.speed_min)}–{fmt.rpm(s.speed_max)} rpm)"))
     if op.trip_speed:
         items.append(("line", RANGE_EDGE, (1.5, 1.5), f"trip speed ({fmt.rpm(op.trip_speed)} rpm)"))
+    bands = speed_bands(op)
+    items.append(("bands", [BAND_COLOURS[b.name] for b in bands if b.name in BAND_COLOURS], None,
+                  bands_text(bands)))
+    for r in barred_ranges(acceptance):
+        items.append(("fill", BARRED_FILL, None, barred_text(s.train, r)))
     items.append(("dot_fill", FAIL_INK, None, "coincidence inside the margin (fails)"))
     items.append(("dot_open", PASS_INK, None, "crossing outside the range, margin met (passes)"))
     return items
+
+
+@dataclass(frozen=True)
+class BarredSpan:
+    """Overlapping barred speed ranges of every shaft and load case, merged for drawing."""
+
+    low_rpm: float
+    high_rpm: float
+    links: tuple  # link ids, in the order found
+    load_cases: tuple
+
+
+def barred_ranges(acceptance) -> list:
+    """The barred speed ranges to draw: overlapping ranges (several shafts, several load cases)
+    merged into one span each."""
+    if acceptance is None or not acceptance.barred_ranges:
+        return []
+    spans = []
+    for r in sorted(acceptance.barred_ranges, key=lambda r: r.low):
+        if spans and r.low_rpm <= spans[-1][1] + 1e-9:
+            lo, hi, links, cases = spans[-1]
+            spans[-1] = (lo, max(hi, r.high_rpm), links + [r.link], cases + [r.load_case])
+        else:
+            spans.append((r.low_rpm, r.high_rpm, [r.link], [r.load_case]))
+    return [BarredSpan(lo, hi, tuple(dict.fromkeys(links)), tuple(c for c in dict.fromkeys(cases) if c))
+            for lo, hi, links, cases in spans]
+
+
+def rpm_span(lo: float, hi: float) -> str:
+    """'547.5–547.8 rpm' for a narrow range, '520–580 rpm' for a wide one."""
+    digits = 1 if hi - lo < 5 else 0
+    return f"{lo:.{digits}f}–{hi:.{digits}f} rpm"
+
+
+def barred_text(train, r) -> str:
+    names = ", ".join(f"'{train.name_of(l)[:120]}'" for l in r.links)
+    return f"barred speed range {rpm_span(r.low_rpm, r.high_rpm)} ({names})"
 
 
 def legend_layout(items, width: float, size: float = 6.5):
@@ -192,6 +277,9 @@ def draw_legend(d: Drawing, x0: float, y_top: float, placed, size: float = 6.5):
                        strokeDashArray=dash))
         elif kind == "fill":
             d.add(Rect(x, y - 0.5, 16, size, fillColor=colour, strokeColor=None, strokeWidth=0))
+        elif kind == "bands":
+            for k, c in enumerate(colour or BAND_COLOURS.values()):
+                d.add(Rect(x + k * 5.4, y + 0.5, 5.2, size * 0.55, fillColor=c, strokeColor=None, strokeWidth=0))
         elif kind == "dot_fill":
             d.add(Circle(x + 8, y + size * 0.35, 2.6, fillColor=colour, strokeColor=colour, strokeWidth=0.8))
         elif kind == "dot_open":
@@ -202,8 +290,9 @@ def draw_legend(d: Drawing, x0: float, y_top: float, placed, size: float = 6.5):
 
 
 def campbell_drawing(screening, width: float, plot_height: float, y_max_hz: float, title: str | None = None,
-                     with_legend: bool = True) -> Drawing:
-    """One panel of the diagram from 0 to ``y_max_hz``; the legend below it when asked."""
+                     with_legend: bool = True, acceptance=None) -> Drawing:
+    """One panel of the diagram from 0 to ``y_max_hz``; the legend below it when asked.
+    ``acceptance`` (core.acceptance.Acceptance): its barred speed ranges are drawn."""
     s = screening
     train = s.train
     op = train.operating
@@ -212,26 +301,30 @@ def campbell_drawing(screening, width: float, plot_height: float, y_max_hz: floa
     modes = s.modes
     rpm_top = fmt.rad_s_to_rpm(max(s.speed_max, op.trip_speed or 0.0))
     x_max = rpm_top * 1.12
-    colour = source_colours(lines)
+    colour = source_colours(lines, op)
     shown = [(int(modes.number[i]), float(modes.frequency_hz[i])) for i in range(len(modes))
              if modes.elastic[i] and modes.frequency_hz[i] <= y_max_hz]
     screened = [(n, f) for n, f in shown if f <= s.cap_hz]
     above = [(n, f) for n, f in shown if f > s.cap_hz]
+    barred = barred_ranges(acceptance)
 
     # labels in data terms first: they decide the right margin
     right, top_edge = [], []
-    for line in lines:
+    segments = {}
+    for k, line in enumerate(lines):
         c = colour[line.source]
-        if line.order is None:
+        if line.kind == "fixed":
             if line.fixed_hz <= y_max_hz:
-                right.append(dict(at=line.fixed_hz, text=f"{line.fixed_hz:g} Hz", colour=c))
+                right.append(dict(at=line.fixed_hz, text=line_label(line), colour=c))
             continue
-        slope_rpm = line.slope * fmt.TWO_PI / 60.0  # Hz per rpm
-        label = f"{fmt.order(line.order)}×"
-        if slope_rpm * x_max > y_max_hz:
-            top_edge.append(dict(at=y_max_hz / slope_rpm, text=label, colour=c, line=line))
+        segs = segments[k] = line_segments(line, x_max, y_max_hz)
+        if not segs:
+            continue
+        x_end, y_end = segs[-1][2], segs[-1][3]  # where the line leaves the chart
+        if x_end < x_max * (1 - 1e-9):
+            top_edge.append(dict(at=x_end, text=line_label(line), colour=c, line=line))
         else:
-            right.append(dict(at=slope_rpm * x_max, text=label, colour=c, line=line))
+            right.append(dict(at=y_end, text=line_label(line), colour=c, line=line))
     if s.cap_hz <= y_max_hz:
         right.append(dict(at=s.cap_hz, text="limit", colour=LIMIT_INK))
     right_w = max((text_width(it["text"], FONT, LABEL_SIZE) for it in right), default=0.0)
@@ -242,7 +335,8 @@ def campbell_drawing(screening, width: float, plot_height: float, y_max_hz: floa
     title_h = 12.0 if title else 0.0
     top_pad = title_h + 14.0
     plot_w = width - left - right_pad
-    legend_h, placed = legend_layout(legend_items(s, bool(above)), width - left) if with_legend else (0.0, [])
+    legend_h, placed = (legend_layout(legend_items(s, bool(above), acceptance), width - left) if with_legend
+                        else (0.0, []))
     legend_gap = 8.0 if with_legend else 0.0
     height = top_pad + plot_height + bottom + legend_h + legend_gap
     d = drawing(width, height)
@@ -254,39 +348,51 @@ def campbell_drawing(screening, width: float, plot_height: float, y_max_hz: floa
         d.add(String(left, height - 10, title, fontName=BOLD, fontSize=8, fillColor=INK))
     # filled areas under the grid
     p.vband(fmt.rad_s_to_rpm(s.speed_min), fmt.rad_s_to_rpm(s.speed_max), RANGE_FILL, RANGE_EDGE)
+    barred_bands(p, barred)
     from .charts import merged_intervals
     for lo, hi in merged_intervals([(f / (1 + m), f / (1 - m) if m < 1 else y_max_hz) for _, f in screened]):
         p.hband(lo, hi, BAND_FILL)  # merged, so that overlapping bands do not darken each other
     p.draw_axes()
+    band_strip(p, speed_bands(op))
     if op.trip_speed:
         xt = fmt.rad_s_to_rpm(op.trip_speed)
         d.add(Line(p.sx(xt), p.y0, p.sx(xt), p.y0 + p.h, strokeColor=RANGE_EDGE, strokeWidth=0.7,
                    strokeDashArray=(1.5, 1.5)))
         top_edge.append(dict(at=xt, text="trip", colour=RANGE_EDGE))
+    for r in barred:
+        top_edge.append(dict(at=0.5 * (r.low_rpm + r.high_rpm), text="barred", colour=BARRED_EDGE))
     for _, f in screened:
         p.hline(f, GREY, 0.7)
     for _, f in above:
         p.hline(f, ABOVE_INK, 0.7, dash=(1, 1.5))
     p.hline(s.cap_hz, LIMIT_INK, 0.8, dash=(4, 1.5, 1, 1.5))
-    # excitation lines
-    for line in lines:
+    # excitation lines: rays through the origin, fixed frequencies, and lines f = |a + b N|
+    for k, line in enumerate(lines):
         c = colour[line.source]
-        if line.order is None:
+        if line.kind == "fixed":
             p.hline(line.fixed_hz, c, 0.9, dash=(3, 2))
             continue
-        slope_rpm = line.slope * fmt.TWO_PI / 60.0
-        x_end = min(x_max, y_max_hz / slope_rpm)
-        d.add(Line(p.sx(0), p.sy(0), p.sx(x_end), p.sy(slope_rpm * x_end), strokeColor=c, strokeWidth=0.8))
+        dash = OFFSET_DASH if line.kind == "line" else None
+        for xa, ya, xb, yb in segments.get(k, ()):
+            d.add(Line(p.sx(xa), p.sy(ya), p.sx(xb), p.sy(yb), strokeColor=c, strokeWidth=0.8,
+                       strokeDashArray=dash))
     # coincidences at their crossing speed
     for cn in s.coincidences:
         if cn.crossing_speed is None:
             continue
-        x = fmt.rad_s_to_rpm(cn.crossing_speed)
-        if not (0 <= x <= x_max and cn.frequency_hz <= y_max_hz):
-            continue
-        col = PASS_INK if cn.passed else FAIL_INK
-        d.add(Circle(p.sx(x), p.sy(cn.frequency_hz), 2.6, strokeColor=col, strokeWidth=0.9,
-                     fillColor=colors.white if cn.passed else col))
+        speeds = [cn.crossing_speed]
+        if cn.line.kind == "line":  # a V-shaped line |a - b N| may cross a mode on both of its sides
+            from core.electric import line_crossings
+            speeds = list(line_crossings(cn.line.offset_hz, cn.line.slope, cn.frequency_hz)) or speeds
+        for w in speeds:
+            x = fmt.rad_s_to_rpm(w)
+            if not (0 <= x <= x_max and cn.frequency_hz <= y_max_hz):
+                continue
+            inside = s.speed_min <= w <= s.speed_max
+            ok = cn.passed and not inside
+            col = PASS_INK if ok else FAIL_INK
+            d.add(Circle(p.sx(x), p.sy(cn.frequency_hz), 2.6, strokeColor=col, strokeWidth=0.9,
+                         fillColor=colors.white if ok else col))
     _mode_labels(d, p, shown, s.cap_hz)
     _edge_labels(d, p, right, top_edge)
     if with_legend:

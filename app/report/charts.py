@@ -156,12 +156,96 @@ def merged_intervals(intervals):
     return out
 
 
-def source_colours(lines) -> dict:
+def excitation_groups(lines, operating) -> dict:
+    """Line source -> the excitation it comes from: an electric drive's lines
+    ('Inverter: |6 f_supply − 6 f_out|') belong to their drive ('Inverter'), so that one
+    excitation keeps one colour however many lines it gives."""
+    group = {}
+    for e in (operating.excitations if operating is not None else ()):
+        group[e.name] = e.name
+        for fl in getattr(e, "lines", ()):
+            group[f"{e.name}: {fl.name}"] = e.name
+    return {l.source: group.get(l.source, l.source) for l in lines}
+
+
+def source_colours(lines, operating=None) -> dict:
+    """A colour per line source, shared by the sources of one excitation."""
+    group = excitation_groups(lines, operating)
     names = []
     for l in lines:
-        if l.source not in names:
-            names.append(l.source)
-    return {n: PALETTE[i % len(PALETTE)] for i, n in enumerate(names)}
+        g = group[l.source]
+        if g not in names:
+            names.append(g)
+    colour = {n: PALETTE[i % len(PALETTE)] for i, n in enumerate(names)}
+    return {src: colour[g] for src, g in group.items()}
+
+
+#: dash pattern of an excitation line that does not pass through the origin (f = |a + b N|)
+OFFSET_DASH = (5, 1.5, 1, 1.5)
+
+
+def line_segments(line, x_max_rpm: float, y_max_hz: float) -> list[tuple[float, float, float, float]]:
+    """The parts of an excitation line f(N) inside [0, x_max] x [0, y_max] as straight
+    segments (x0, y0, x1, y1) in rpm and Hz.  f = |a + s N| is linear on each side of its
+    vertex, so each side is cut exactly where it meets the top of the chart."""
+    rad = fmt.TWO_PI / 60.0  # rad/s per rpm
+    knots = [0.0, x_max_rpm]
+    if line.kind == "line" and line.slope != 0:
+        v = -line.offset_hz / (line.slope * rad)  # |a + s N| = 0
+        if 0.0 < v < x_max_rpm:
+            knots.insert(1, v)
+    out = []
+    for xa, xb in zip(knots, knots[1:]):
+        ya, yb = (float(line.frequency(x * rad)) for x in (xa, xb))
+        if ya > y_max_hz and yb > y_max_hz:
+            continue
+        if ya > y_max_hz:
+            xa, ya = xa + (xb - xa) * (ya - y_max_hz) / (ya - yb), y_max_hz
+        elif yb > y_max_hz:
+            xb, yb = xa + (xb - xa) * (y_max_hz - ya) / (yb - ya), y_max_hz
+        out.append((xa, ya, xb, yb))
+    return out
+
+
+# ----------------------------------------------------------------- speed bands and barred ranges
+BAND_COLOURS = {"transient": colors.HexColor("#b9b9b9"), "operating": colors.HexColor("#4f7fc9"),
+                "overspeed": colors.HexColor("#e0922f")}
+BARRED_FILL = colors.Color(0.75, 0.1, 0.1, alpha=0.16)
+BARRED_EDGE = colors.Color(0.63, 0.11, 0.11, alpha=0.9)
+HAMMER_FILL = colors.Color(0.35, 0.35, 0.35, alpha=0.16)
+OFF_SCALE = 4.0  # a permissible value more than this many times the peak is named, not drawn
+STRIP_H = 4.0  # points: the speed-band strip along the foot of a chart
+
+
+def band_strip(p: "Plot", bands) -> None:
+    """The speed bands (core.bands) as a coloured strip along the foot of the plot."""
+    for b in bands:
+        lo, hi = fmt.rad_s_to_rpm(b.low), fmt.rad_s_to_rpm(b.high)
+        lo, hi = max(lo, p.x_range[0]), min(hi, p.x_range[1])
+        if hi < lo:
+            continue
+        x0, x1 = p.sx(lo), p.sx(hi)
+        if x1 - x0 < 1.2:  # a fixed speed: a short bar of its own
+            x0, x1 = 0.5 * (x0 + x1) - 0.8, 0.5 * (x0 + x1) + 0.8
+        p.d.add(Rect(x0, p.y0 + 0.4, x1 - x0, STRIP_H, fillColor=BAND_COLOURS.get(b.name, GREY),
+                     strokeColor=None, strokeWidth=0))
+
+
+def barred_bands(p: "Plot", ranges) -> None:
+    """Barred speed ranges (rpm of the reference shaft) as red bands across the plot."""
+    for r in ranges:
+        p.vband(r.low_rpm, r.high_rpm, BARRED_FILL, BARRED_EDGE)
+
+
+def bands_text(bands) -> str:
+    """'start-up / run-down 0–900 rpm (grey), ...' for a legend."""
+    from .. import wording
+    names = {"transient": "grey", "operating": "blue", "overspeed": "orange"}
+    parts = []
+    for b in bands:
+        rng = (f"{fmt.rpm(b.low)} rpm" if b.low == b.high else f"{fmt.rpm(b.low)}–{fmt.rpm(b.high)} rpm")
+        parts.append(f"{wording.speed_band(b.name)} {rng} ({names.get(b.name, 'grey')})")
+    return "speed bands along the foot: " + ", ".join(parts)
 
 
 # ----------------------------------------------------------------- mode shapes
@@ -256,25 +340,41 @@ def mode_shape_drawing(modes, i: int, placement, width: float, height: float, li
 
 # ----------------------------------------------------------------- forced response
 def response_drawing(speed_rpm, values, permissible, width: float, height: float, op_rpm, title: str,
-                     y_title: str, x_title: str, colour=None) -> Drawing:
-    """One link's vibratory amplitude against speed, its permissible value dashed
-    and the operating range shaded (one small plot per link, each on its own scale)."""
+                     y_title: str, x_title: str, colour=None, bands=(), barred=(), trip_rpm=None,
+                     hammer=()) -> Drawing:
+    """One link's vibratory amplitude against speed, its permissible value dashed, the
+    operating range shaded, the speed bands along the foot (core.bands), barred speed
+    ranges in red, gear-hammer ranges hatched grey and the trip speed dotted (one small
+    plot per link, each on its own scale)."""
     colour = colour or PALETTE[0]
     left, right, bottom, top = 40, 8, 26, 14
     d = drawing(width, height)
     speed_rpm = np.asarray(speed_rpm, float)
     v = np.asarray(values, float)
     y_top = float(np.nanmax(v)) if np.isfinite(v).any() else 0.0
-    if permissible is not None:
+    # a permissible value far above the response would flatten the curve against the axis:
+    # then it is named at the top instead of drawn
+    off_scale = permissible is not None and y_top > 0 and permissible > OFF_SCALE * y_top
+    if permissible is not None and not off_scale:
         y_top = max(y_top, permissible)
     y_top = y_top * 1.1 if y_top > 0 else 1.0
     p = Plot(d, left, bottom, width - left - right, height - bottom - top,
              (float(speed_rpm.min()), float(speed_rpm.max())), (0.0, y_top), x_title=x_title, y_title=y_title,
              font_size=6)
     p.vband(op_rpm[0], op_rpm[1], RANGE_FILL, None)
+    barred_bands(p, barred)
+    for r in hammer:
+        p.vband(r.low_rpm, r.high_rpm, HAMMER_FILL, None)
     p.draw_axes()
+    band_strip(p, bands)
+    if trip_rpm is not None and p.x_range[0] <= trip_rpm <= p.x_range[1]:
+        d.add(Line(p.sx(trip_rpm), p.y0, p.sx(trip_rpm), p.y0 + p.h, strokeColor=RANGE_EDGE, strokeWidth=0.7,
+                   strokeDashArray=(1.5, 1.5)))
     p.polyline(speed_rpm, v, colour, 0.9)
-    if permissible is not None:
+    if off_scale:
+        p.text(p.x0 + p.w - 2, p.y0 + p.h - 7, f"permissible {permissible:.4g}, above the scale", size=5.5,
+               color=FAIL_INK, anchor="end")
+    elif permissible is not None:
         p.hline(permissible, FAIL_INK, 0.8, dash=(3, 2))
         p.text(p.x0 + p.w - 2, p.sy(permissible) + 2, "permissible", size=5.5, color=FAIL_INK, anchor="end")
     d.add(String(left, height - 9, fit_text(title, width - left, 7), fontName=BOLD, fontSize=7, fillColor=INK))

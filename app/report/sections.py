@@ -8,19 +8,22 @@ response, a study part that was not run).  Sections may add flowables to
 ``ctx.appendix`` (printed at the end, after the method), which is how long
 trains keep a summary in the body and the full tables at the back.
 
-Adding a section for a new study part (design options, acceptance checks,
-transients): write ``def design_block(ctx)`` that returns ``[]`` when
-``ctx.study.design is None``, lay its tables out with :func:`table`
-(linear in the rows, header repeated) and its plots as drawings, then put
-its name in :data:`SECTIONS` where it should print.  Nothing else changes.
+Adding a section for a new study part: write ``def design_block(ctx)`` that
+returns ``[]`` when ``ctx.study.design is None``, lay its tables out with
+:func:`table` (linear in the rows, header repeated; a heading over a long table
+with :func:`~app.report.base.heading`) and its plots as drawings, then put its
+name in :data:`SECTIONS` where it should print.  Nothing else changes.  The
+sections of the later analyses live in their own modules: excitation physics
+(engines, electric lines, gear meshes, damped modes) in :mod:`.physics`, the
+acceptance checks in :mod:`.acceptance`, transient events in :mod:`.transients`;
+the shared helpers (:class:`Units`, :class:`Ctx`, :func:`num`) in :mod:`.base`.
 """
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
 
 import numpy as np
-from reportlab.platypus import (CondPageBreak, KeepInFrame, KeepTogether, PageBreak, Paragraph, Spacer, Table,
+from reportlab.platypus import (CondPageBreak, KeepTogether, PageBreak, Paragraph, Spacer, Table,
                                 TableStyle)
 
 from core import units as u
@@ -28,150 +31,17 @@ from core.about import CAUTION, program_line
 
 from .. import formatting as fmt
 from .. import wording
-from . import campbell, charts
+from . import acceptance, campbell, charts, physics, transients
 from .schematic import legend_drawing, schematic_drawings
-from .styles import FAIL_FILL, FAIL_INK, FONT, GREY, INK, NEUTRAL_FILL, PASS_FILL, PASS_INK, escape, \
-    pretty_unit, styles
-from .tables import Column, LongTable, marked_styles, status_styles
+from .styles import FAIL_FILL, FAIL_INK, FONT, GREY, INK, NEUTRAL_FILL, OPEN_FILL, OPEN_INK, PASS_FILL, \
+    PASS_INK, escape, styles
+from .base import TWO_PI, Ctx, P, Units, clip, entered_number, fit_frame, heading, num, table  # noqa: F401
+from .tables import LongTable, marked_styles, status_styles
 
 #: a train with more discs or links than this gets a summary in the body, the full tables in Appendix A
 BODY_ROWS = 60
 N_SHAPE_PLOTS = 6
-MAX_TEXT = 1500  # characters of a free text (description) printed in full
 KINDS = {"shaft": "shaft", "coupling": "coupling", "gear_mesh": "gear mesh"}
-TWO_PI = 2.0 * math.pi
-
-
-# ----------------------------------------------------------------- units and context
-class Units:
-    """Display units of one unit system; each value converted by one cached factor
-    (``core.units.convert(1.0, kind, unit)``: every display unit is a plain multiple)."""
-
-    def __init__(self, system: str):
-        self.system = system
-        self._factor: dict = {}
-
-    @property
-    def title(self) -> str:
-        return "SI" if self.system == "SI" else "US customary"
-
-    def factor(self, kind) -> float:
-        f = self._factor.get(kind.name)
-        if f is None:
-            f = self._factor[kind.name] = u.convert(1.0, kind, u.display_unit(kind, self.system))
-        return f
-
-    def unit(self, kind) -> str:
-        return pretty_unit(u.display_unit(kind, self.system))
-
-    def value(self, value_si: float | None, kind, digits: int = 4) -> str:
-        return "—" if value_si is None else num(value_si * self.factor(kind), digits)
-
-    def text(self, value_si: float | None, kind, digits: int = 4) -> str:
-        """The value with its unit, '12.5 kN·m'."""
-        return "—" if value_si is None else f"{self.value(value_si, kind, digits)}\u00a0{self.unit(kind)}"
-
-    def column(self, values_si, kind, digits: int = 4) -> list[str]:
-        """A whole column: one multiplication, then one format per value."""
-        a = np.asarray(values_si, float) * self.factor(kind)
-        return [num(v, digits) for v in a.tolist()]
-
-
-def num(value: float, digits: int = 4) -> str:
-    """A model value to ``digits`` significant digits, trailing zeros dropped, no exponent in the
-    usual range (310000, 0.045, 2738)."""
-    if value is None or not math.isfinite(value):
-        return "—"
-    if value == 0:
-        return "0"
-    text = f"{value:.{digits}g}"
-    if "e" not in text:
-        return text
-    rounded = float(text)
-    if 1e-4 <= abs(rounded) < 1e9:
-        return np.format_float_positional(rounded, trim="-")
-    m, e = f"{value:.{digits - 1}e}".split("e")
-    return f"{m.rstrip('0').rstrip('.') if '.' in m else m}e{int(e)}"
-
-
-@dataclass
-class Ctx:
-    """What every section gets: the computed sheet data, the frame and the unit system."""
-
-    data: object  # sheet.SheetData
-    width: float
-    frame_h: float
-    units: Units
-    author: str = ""
-    revision: str = ""
-    date_text: str = ""
-    appendix: list = field(default_factory=list)
-
-    @property
-    def study(self):
-        return self.data.study
-
-    @property
-    def train(self):
-        return self.data.study.train
-
-    @property
-    def doc(self) -> dict:
-        return self.data.doc
-
-    @property
-    def placement(self):
-        """Where each disc sits on the schematic (computed once per sheet)."""
-        if "_placement" not in self.__dict__:
-            from ..schematic_layout import place_document
-            self.__dict__["_placement"] = place_document(self.doc)
-        return self.__dict__["_placement"]
-
-    def name(self, element_id) -> str:
-        return self.train.name_of(element_id)
-
-    def cols(self, *spec) -> list[Column]:
-        """Columns from (title, width fraction[, align[, wrap[, max_lines]]]) tuples; fractions scaled
-        to the frame."""
-        total = sum(s[1] for s in spec)
-        out = []
-        for s in spec:
-            title, frac = s[0], s[1]
-            align = s[2] if len(s) > 2 else "LEFT"
-            wrap = s[3] if len(s) > 3 else align == "LEFT"
-            max_lines = s[4] if len(s) > 4 else 4
-            out.append(Column(title, frac / total * self.width, align, wrap, max_lines))
-        return out
-
-
-def table(columns, rows, cell_styles=None) -> LongTable:
-    return LongTable(columns, rows, cell_styles)
-
-
-def P(text, style="body") -> Paragraph:
-    return Paragraph(text, styles()[style])
-
-
-def clip(text: str, n: int = MAX_TEXT) -> str:
-    text = str(text)
-    return text if len(text) <= n else text[:n] + " … (cut here; the full text is in the project file)"
-
-
-def fit_frame(drawing, width, frame_h):
-    """The drawing itself, or shrunk to a page when it is taller than one."""
-    if drawing.height <= frame_h * 0.95 and drawing.width <= width * 1.001:
-        return drawing
-    return KeepInFrame(width, frame_h * 0.95, [drawing], mode="shrink")
-
-
-def entered_number(raw, fallback: float) -> float:
-    """A dimensionless number as the user wrote it (already validated by the model build)."""
-    if isinstance(raw, (int, float)) and not isinstance(raw, bool):
-        return float(raw)
-    try:
-        return float(str(raw).strip())
-    except ValueError:
-        return fallback
 
 
 def damping_as_entered(raw: dict, link, units: Units) -> list[str]:
@@ -233,8 +103,12 @@ def above_limit_text(ctx: Ctx, limit: int = 12) -> str:
 
 
 def verdict_block(ctx: Ctx):
+    """The headline verdict (:func:`app.wording.headline`: separation where every mode clears, the
+    acceptance argument where some cannot), the separation screening beside it exactly as
+    ``twistwise check`` words it, and one line per analysis that judged something."""
     st = styles()
     data = ctx.data
+    study = ctx.study
     s = data.screening
     train = ctx.train
     out = [Paragraph("Verdict", st["h1"])]
@@ -245,8 +119,13 @@ def verdict_block(ctx: Ctx):
         lines.append("Only the natural frequencies and mode shapes are reported.")
     else:
         op = train.operating
-        head = "Separation: " + clip(wording.separation_verdict(s, nbsp="\u00a0"), 600)
-        fill, ink = (PASS_FILL, PASS_INK) if s.passed else (FAIL_FILL, FAIL_INK)
+        head, ok = wording.headline(study, nbsp="\u00a0")
+        head = clip(head, 900)
+        fill, ink = {True: (PASS_FILL, PASS_INK), False: (FAIL_FILL, FAIL_INK)}.get(ok, (OPEN_FILL, OPEN_INK))
+        sep = wording.separation_verdict(s, nbsp="\u00a0")
+        colour = (PASS_INK if s.passed else FAIL_INK).hexval()
+        word, rest = sep.split(" — ", 1)
+        lines.append(f"<b>Separation screening:</b> <font color='{colour}'>{word}</font> — {escape(clip(rest, 600))}")
         rng = (f"{fmt.rpm(op.speed_min)} rpm" if op.speed_min == op.speed_max
                else f"{fmt.rpm(op.speed_min)}–{fmt.rpm(op.speed_max)} rpm")
         trip = f"; trip speed {fmt.rpm(op.trip_speed)} rpm" if op.trip_speed else ""
@@ -277,12 +156,15 @@ def verdict_block(ctx: Ctx):
         else:
             lines.append("<b>Forced response:</b> computed, but no link gives a permissible vibratory "
                          "torque or stress, so nothing was judged.")
-        if s is not None and not s.passed and not n_ex and checked:
-            lines.append("The separation margin is not met, but the damped forced response stays within the "
-                         "permissible values. API Standard 617 accepts a torsional response analysis showing "
-                         "that such a resonance does no harm (confirm the clause in the edition that applies); "
-                         "the reviewing engineer decides.")
-    body = [[Paragraph(f'<font color="{ink.hexval()}">{escape(head)}</font>', st["verdict"])]]
+    lines += acceptance_lines(ctx)
+    lines += transient_lines(ctx)
+    arg = study.argument
+    if s is not None and not s.passed and arg is not None and arg.forced_response:
+        lines.append("Modes within the margin are accepted on the damped forced response: API Standard 617 "
+                     "accepts a torsional response analysis showing that such a resonance does no harm "
+                     "(confirm the clause in the edition that applies); the reviewing engineer decides.")
+    style = st["verdict"] if len(head) <= 260 else st["verdict_long"]
+    body = [[Paragraph(f'<font color="{ink.hexval()}">{escape(head)}</font>', style)]]
     body += [[Paragraph(l, st["body"])] for l in lines]
     body.append([Paragraph(f"<i>{escape(CAUTION)}</i>", st["small"])])
     t = Table(body, colWidths=[ctx.width], hAlign="LEFT")
@@ -293,6 +175,58 @@ def verdict_block(ctx: Ctx):
                            ("LEFTPADDING", (0, 0), (-1, -1), 5)]))
     out.append(t)
     return out
+
+
+def acceptance_lines(ctx: Ctx) -> list[str]:
+    """One verdict line for the acceptance checks (None when no check was made)."""
+    acc = ctx.study.acceptance
+    if acc is None or not acc.checks:
+        return []
+    n = len(acc.checks)
+    cases = [lc.name for lc in acc.load_cases]
+    where = (f"load case{'s' if len(cases) != 1 else ''} " + ", ".join(f"'{escape(clip(c, 120))}'" for c in cases)
+             if cases else "no load case (vibratory limits only)")
+    fails = acc.failures
+    if fails:
+        w = fails[0]
+        text = (f"<b>Acceptance checks:</b> <font color='{FAIL_INK.hexval()}'>FAIL</font> — {len(fails)} of {n} "
+                f"checks over {where} fail (worst: {escape(clip(ctx.name(w.link), 200))}, "
+                f"{escape(wording.criterion(w.criterion))} at {fmt.percent(w.utilisation)}\u00a0% of its limit, "
+                f"{fmt.rpm(w.at)} rpm, {wording.speed_band(w.speed_band)}).")
+    else:
+        w = acc.worst_first()[0]
+        text = (f"<b>Acceptance checks:</b> PASS — all {n} checks over {where} hold (highest: "
+                f"{escape(clip(ctx.name(w.link), 200))}, {escape(wording.criterion(w.criterion))} at "
+                f"{fmt.percent(w.utilisation)}\u00a0% of its limit).")
+    extra = []
+    if acc.barred_ranges:
+        extra.append(f"{len(acc.barred_ranges)} barred speed range{'s' if len(acc.barred_ranges) != 1 else ''}")
+    if acc.hammer_ranges:
+        extra.append(f"{len(acc.hammer_ranges)} speed range{'s' if len(acc.hammer_ranges) != 1 else ''} of gear "
+                     "hammer")
+    if extra:
+        text += " " + " and ".join(extra).capitalize() + " (listed under Acceptance)."
+    return [text]
+
+
+def transient_lines(ctx: Ctx) -> list[str]:
+    """One verdict line for the transient events (none when the project has none)."""
+    tr = ctx.study.transients
+    if tr is None or not tr.events:
+        return []
+    names = ", ".join(f"'{escape(clip(e.name, 120))}'" for e in tr.events)
+    n = len(tr.events)
+    failing = [(e, l) for e in tr.events for l in e.links if l.passed is False]
+    if failing:
+        e, l = failing[0]
+        return [f"<b>Transient events</b> ({names}): <font color='{FAIL_INK.hexval()}'>FAIL</font> — "
+                f"{len(failing)} link{'s' if len(failing) != 1 else ''} exceed a peak limit or take fewer events "
+                f"than required (first: {escape(clip(ctx.name(l.link_id), 200))} in '{escape(clip(e.name, 120))}')."]
+    if tr.passed:
+        return [f"<b>Transient events</b> ({names}): PASS — every peak torque within its limit and every shaft "
+                f"with a fatigue curve takes the events required."]
+    return [f"<b>Transient event{'s' if n != 1 else ''}</b> ({names}): computed; no link gives a peak limit or a "
+            "required number of events, so nothing was judged."]
 
 
 # ----------------------------------------------------------------- schematic and model
@@ -529,9 +463,12 @@ def excitation_block(ctx: Ctx):
         engine = getattr(e, "engine", None)
         if engine is not None:  # amplitudes come from the engine data, per cylinder and speed
             orders = [o.order for o in e.orders]
-            rows.append([e.name, "the crank throws below", f"{ratio:.4g}",
+            rows.append([e.name, f"{len(engine.cylinders)} crank throws (see the engine below)", f"{ratio:.4g}",
                          f"orders {fmt.order(min(orders))}–{fmt.order(max(orders))}",
-                         "from the engine data", "per cylinder", "gas constant, inertia with speed²"])
+                         "from the engine data", "per cylinder", "gas with load, inertia with speed²"])
+            continue
+        if getattr(e, "lines", ()):
+            rows += physics.electric_rows(ctx, e, ratio)
             continue
         for k, o in enumerate(e.orders):
             scaling = "constant"
@@ -541,14 +478,16 @@ def excitation_block(ctx: Ctx):
                          f"{ratio:.4g}" if k == 0 else "", f"order {fmt.order(o.order)}",
                          U.value(o.amplitude, u.TORQUE) if o.amplitude is not None else "—",
                          f"{o.phase_deg:g}" if o.amplitude is not None else "—", scaling])
-    out.append(table(ctx.cols(("Excitation", 0.22), ("Acts at", 0.18), ("Its shaft's speed / reference", 0.1, "RIGHT"),
-                              ("Order or frequency", 0.12), (f"Amplitude ({tu})", 0.11, "RIGHT"),
-                              ("Phase (deg)", 0.08, "RIGHT"), ("Amplitude scaling", 0.19)), rows))
+    out.append(table(ctx.cols(("Excitation", 0.2), ("Acts at", 0.17), ("Its shaft's speed / reference", 0.1, "RIGHT"),
+                              ("Order, frequency or line", 0.18, "LEFT", True, 4),
+                              (f"Amplitude ({tu})", 0.1, "RIGHT", True),
+                              ("Phase (deg)", 0.08, "RIGHT", True), ("Amplitude scaling", 0.17)), rows))
+    out += physics.electric_notes(ctx)
     cyl_rows = []
     for e in op.excitations:
-        engine = getattr(e, "engine", None)
-        throws = [(c.disc, c.firing_deg) for c in engine.cylinders] if engine is not None else e.cylinders
-        for k, (disc, firing) in enumerate(throws):
+        if getattr(e, "engine", None) is not None:
+            continue  # listed with the engine's own inputs
+        for k, (disc, firing) in enumerate(e.cylinders):
             cyl_rows.append([e.name if k == 0 else "", str(k + 1), ctx.name(disc), f"{firing:g}"])
     if cyl_rows:
         out.append(Spacer(1, 4))
@@ -568,7 +507,7 @@ def frequency_block(ctx: Ctx):
     m = ctx.study.modes
     s = ctx.data.screening
     above = ctx.study.above_screening_limit
-    out = [Paragraph("Natural frequencies", st["h1"])]
+    out = heading("Natural frequencies")
     spec = [("Mode", 0.07, "RIGHT"), ("Hz", 0.11, "RIGHT"), ("cpm", 0.1, "RIGHT"),
             ("Largest strain energy (link, share)", 0.28), ("Largest kinetic energy (disc, share)", 0.28)]
     if s is not None:
@@ -647,10 +586,16 @@ def campbell_block(ctx: Ctx):
     tops = campbell.panel_tops(s)
     n = len(tops)
     first_h = ctx.frame_h * (0.46 if n == 1 else 0.36)
-    dwg = campbell.campbell_drawing(s, ctx.width, first_h, tops[0])
+    acc = ctx.study.acceptance
+    dwg = campbell.campbell_drawing(s, ctx.width, first_h, tops[0], acceptance=acc)
     note = ("Order labels stand where each excitation line leaves the chart, mode numbers at the left edge "
             "(a thin leader where a label had to move; neighbouring labels merged as '3–5' only where there "
             "is no room).")
+    if any(l.kind == "line" for l in s.lines):
+        note += (" Lines of an electric drive that do not pass through the origin, f = |a + b·N|, are drawn "
+                 "dash-dotted as the lines they are and labelled with their formula.")
+    note += (" The strip along the foot marks the speed bands the acceptance judges apart: start-up / run-down, "
+             "the operating range and overspeed to trip.")
     if n > 1:
         note += (" The detail panels below repeat the chart over lower frequency ranges, so that no "
                  "natural frequency is squeezed against the axis.")
@@ -660,7 +605,7 @@ def campbell_block(ctx: Ctx):
     for k, top in enumerate(tops[1:], start=2):
         d = campbell.campbell_drawing(s, ctx.width, ctx.frame_h * 0.27, top,
                                       title=f"Detail {k - 1}: 0 to {num(top, 3)} Hz (key as above)",
-                                      with_legend=False)
+                                      with_legend=False, acceptance=acc)
         out.append(fit_frame(d, ctx.width, ctx.frame_h))
     return out
 
@@ -670,7 +615,7 @@ def coincidence_block(ctx: Ctx):
     s = ctx.data.screening
     if s is None:
         return []
-    out = [Paragraph("Coincidences, worst first", st["h1"])]
+    out = heading("Coincidences, worst first")
     if not s.coincidences:
         out.append(Paragraph(f"No excitation comes within {fmt.percent(2 * s.margin)}\u00a0% of a natural "
                              "frequency.", st["body"]))
@@ -684,20 +629,33 @@ def coincidence_block(ctx: Ctx):
         else:
             band = f"{fmt.rpm(c.band[0])}–{fmt.rpm(c.band[1])}"
         status = c.status.upper()
-        rows.append([str(c.mode), fmt.hz(c.frequency_hz), c.source, fmt.order(c.order),
+        rows.append([str(c.mode), fmt.hz(c.frequency_hz), c.source, order_or_line(c.line),
                      ctx.name(c.line.at) if c.line.at else "—", fmt.rpm(c.crossing_speed),
                      fmt.percent(c.separation), band, status])
         cells[k] = status_styles(8, status)
-    spec = [("Mode", 0.06, "RIGHT"), ("Natural Hz", 0.09, "RIGHT"), ("Excitation source", 0.24),
-            ("Order", 0.06, "RIGHT"), ("Acts at", 0.14), ("Crossing rpm", 0.09, "RIGHT"),
+    any_line = any(c.line.kind == "line" for c in s.coincidences)
+    spec = [("Mode", 0.06, "RIGHT"), ("Natural Hz", 0.09, "RIGHT"), ("Excitation source", 0.21),
+            ("Order or line" if any_line else "Order", 0.11 if any_line else 0.06, "RIGHT", True),
+            ("Acts at", 0.13), ("Crossing rpm", 0.09, "RIGHT"),
             ("Margin %", 0.08, "RIGHT"), ("Band inside the margin (rpm)", 0.14), ("Status", 0.07)]
     out.append(table(ctx.cols(*spec), rows, cells))
-    out.append(Paragraph(
-        f"Listed: every pair with a smallest separation below twice the required margin "
-        f"({fmt.percent(2 * s.margin)}\u00a0%). Margin = smallest |f_n - f_e| / f_e over the operating range "
-        "(0 for a crossing inside it). Crossing rpm: reference speed where the excitation meets the natural "
-        "frequency, also when outside the range.", st["note"]))
+    text = (f"Listed: every pair with a smallest separation below twice the required margin "
+            f"({fmt.percent(2 * s.margin)}\u00a0%). Margin = smallest |f_n - f_e| / f_e over the operating range "
+            "(0 for a crossing inside it). Crossing rpm: reference speed where the excitation meets the natural "
+            "frequency, also when outside the range.")
+    if any_line:
+        text += (" A line that does not pass through the origin is listed by its formula f = |a + b·N| "
+                 "(a in Hz, N the speed of the shaft it acts at in rev/s); a V-shaped line |a − b·N| may cross "
+                 "a natural frequency twice, the first crossing is listed.")
+    out.append(Paragraph(text, st["note"]))
     return out
+
+
+def order_or_line(line) -> str:
+    """The coincidence table's words for an excitation line: its order, 'fixed', or its formula."""
+    if line.kind == "line":
+        return line.formula or "line"
+    return fmt.order(line.order)
 
 
 def response_block(ctx: Ctx):
@@ -710,7 +668,7 @@ def response_block(ctx: Ctx):
                     Paragraph(escape(data.study.response_error.message), st["body"])]
         return []
     r = data.response
-    out = [Paragraph("Forced response: peak vibratory torque and stress", st["h1"])]
+    out = heading("Forced response: peak vibratory torque and stress")
     tu, su = U.unit(u.TORQUE), U.unit(u.STRESS)
     peaks = data.response_summary
     tq = U.column([p.peak_torque for p in peaks], u.TORQUE)
@@ -729,12 +687,15 @@ def response_block(ctx: Ctx):
             (f"Permissible ({tu})", 0.11, "RIGHT"), (f"Peak stress ({su})", 0.11, "RIGHT"),
             ("at rpm", 0.08, "RIGHT"), (f"Permissible ({su})", 0.11, "RIGHT"), ("Status", 0.08)]
     out.append(table(ctx.cols(*spec), rows, cells))
+    band = peaks[0].band if peaks else ""
+    where = (f"over the {wording.speed_band(band)}" if band else "over the computed speed range")
     out.append(Paragraph(
-        "Peak over the computed speed range of the combined amplitude (sum of the order amplitudes, "
+        f"Peak {where} of the combined amplitude (sum of the order amplitudes, "
         "conservative); stress = torque × outer radius / polar moment × stress concentration factor, for "
         f"shafts with geometry. Status only where a permissible value is given. Speeds computed: "
         f"{fmt.rpm(float(np.min(r.speed)))}–{fmt.rpm(float(np.max(r.speed)))} rpm of the reference shaft.",
         st["note"]))
+    out += acceptance.band_peaks_block(ctx)
     speed_rpm = np.asarray(r.speed) * 60.0 / TWO_PI
     index = {lid: k for k, lid in enumerate(r.link_ids)}
     link_torque = np.asarray(r.link_torque)
@@ -745,15 +706,24 @@ def response_block(ctx: Ctx):
     ranked = sorted(peaks, key=lambda p: (utilisation(p), p.peak_torque or 0.0), reverse=True)
     chosen = [p for p in ranked if p.link_id in index][:4]
     curves = [(ctx.name(p.link_id), link_torque[index[p.link_id]] * scale,
-               None if p.permissible_torque is None else p.permissible_torque * scale) for p in chosen]
+               None if p.permissible_torque is None else p.permissible_torque * scale, p.link_id) for p in chosen]
     if curves and len(speed_rpm) > 1:
         op = ctx.train.operating
         cw = ctx.width / 2
+        acc = ctx.study.acceptance
+        from core.bands import speed_bands
+        bands = speed_bands(op, lowest=min(float(speed_rpm.min()) * TWO_PI / 60.0, op.speed_min))
+        barred = campbell.barred_ranges(acc)
+        trip = fmt.rad_s_to_rpm(op.trip_speed) if op.trip_speed else None
+
+        def hammer(link_id):
+            return [h for h in (acc.hammer_ranges if acc is not None else ()) if h.link == link_id]
         cells_ = [charts.response_drawing(
             speed_rpm, v, perm, cw - 4, 135, (fmt.rad_s_to_rpm(op.speed_min), fmt.rad_s_to_rpm(op.speed_max)),
             title=f"{name}: peak {num(float(np.nanmax(v)))} {tu}", y_title=f"torque amplitude ({tu})",
-            x_title="reference speed (rpm)", colour=charts.PALETTE[k % len(charts.PALETTE)])
-            for k, (name, v, perm) in enumerate(curves)]
+            x_title="reference speed (rpm)", colour=charts.PALETTE[k % len(charts.PALETTE)], bands=bands,
+            barred=barred, trip_rpm=trip, hammer=hammer(lid))
+            for k, (name, v, perm, lid) in enumerate(curves)]
         grid = [cells_[k:k + 2] for k in range(0, len(cells_), 2)]
         grid[-1] += [""] * (2 - len(grid[-1]))
         t = Table(grid, colWidths=[cw, cw], hAlign="LEFT")
@@ -762,7 +732,12 @@ def response_block(ctx: Ctx):
         out.append(KeepTogether([t, Paragraph(
             f"Combined vibratory torque amplitude against the speed of the reference shaft "
             f"'{escape(ctx.name(op.reference))}', for the links nearest their permissible value (else the "
-            "largest); operating range shaded, permissible value dashed.", st["note"])]))
+            "largest); operating range shaded, permissible value dashed"
+            + (", trip speed dotted" if trip is not None else "")
+            + (", barred speed ranges red" if barred else "")
+            + (", gear-hammer ranges grey" if any(hammer(c[3]) for c in curves) else "")
+            + ". " + escape(charts.bands_text(bands)[:1].upper() + charts.bands_text(bands)[1:]) + ".",
+            st["note"])]))
     return out
 
 
@@ -781,14 +756,43 @@ SOURCES = {
     "din740": ("DIN 740-2, Flexible shaft couplings: parameters and design principles, Beuth, Berlin "
                "(relative damping psi of couplings)"),
     "roark": "W. C. Young and R. G. Budynas, Roark's Formulas for Stress and Strain, 7th ed., McGraw-Hill, 2002",
+    "shigley": ("R. G. Budynas and J. K. Nisbett, Shigley's Mechanical Engineering Design, 9th ed., McGraw-Hill, "
+                "New York, 2011 (ch. 6, fatigue failure resulting from variable loading)"),
+    "iacs_m68": ("International Association of Classification Societies, Unified Requirement M68, Dimensions of "
+                 "propulsion shafts and their permissible torsional vibration stresses, IACS, London"),
+    "taylor": ("C. F. Taylor, The Internal-Combustion Engine in Theory and Practice, vol. 2, MIT Press, "
+               "Cambridge MA (engine balance and torque)"),
+    "iso6336": ("ISO 6336-1, Calculation of load capacity of spur and helical gears — Part 1: Basic principles, "
+                "introduction and general influence factors, ISO, Geneva (mesh stiffness)"),
+    "inman": "D. J. Inman, Engineering Vibration, Prentice Hall (state-space form of damped free vibration)",
+    "denhartog": ("J. P. Den Hartog, Mechanical Vibrations, 4th ed., McGraw-Hill, New York, 1956 (ch. 3, the "
+                  "damped vibration absorber)"),
+    "newmark": ("N. M. Newmark, A method of computation for structural dynamics, Journal of the Engineering "
+                "Mechanics Division, ASCE 85 (1959) 67–94"),
+    "astm1049": ("ASTM E1049, Standard Practices for Cycle Counting in Fatigue Analysis, ASTM International, "
+                 "West Conshohocken PA (rainflow counting)"),
+    "miner": "M. A. Miner, Cumulative damage in fatigue, Journal of Applied Mechanics 12 (1945) A159–A164",
+    "fkm": ("FKM guideline, Analytical Strength Assessment of Components, VDMA Verlag, Frankfurt am Main "
+            "(S–N curves in shear)"),
+    "concordia": ("C. Concordia, Synchronous Machines: Theory and Performance, Wiley, New York, 1951 "
+                  "(short-circuit torque)"),
 }
 
 
 def method_block(ctx: Ctx):
     st = styles()
     train = ctx.train
+    study = ctx.study
     masses = {m: [l.label for l in train.links if l.kind == "shaft" and l.mass == m]
               for m in ("none", "lumped", "distributed")}
+    refs: list[str] = []
+
+    def cite(*keys) -> str:
+        """'[4, 5]': the numbers of the sources, in the order they are first cited."""
+        for k in keys:
+            if k not in refs:
+                refs.append(k)
+        return "[" + ", ".join(str(refs.index(k) + 1) for k in keys) + "]"
 
     def listed(names):
         return ", ".join(names[:12]) + (f" and {len(names) - 12} more" if len(names) > 12 else "")
@@ -801,47 +805,115 @@ def method_block(ctx: Ctx):
     if masses["none"]:
         mass_txt.append(f"massless spring: {len(masses['none'])} shaft{'s' if len(masses['none']) != 1 else ''}")
     paras = [
-        "<b>Natural frequencies.</b> Transfer matrices per element in the manner of Holzer [1]: springs for "
-        "couplings, meshes and massless shafts, the exact field matrix of a uniform shaft with distributed "
-        "inertia (cos/sin of omega L / c) where the shaft's mass is modelled, so no subdivision is needed [2]. "
-        "Geared branches are referred to one shaft by the square of the speed ratio. The count of natural "
-        "frequencies below any trial frequency comes from the Wittrick–Williams algorithm [3], so no mode is "
-        "missed or counted twice; each root is then polished to machine precision.",
+        f"<b>Natural frequencies.</b> Transfer matrices per element in the manner of Holzer {cite('holzer')}: "
+        "springs for couplings, meshes and massless shafts, the exact field matrix of a uniform shaft with "
+        "distributed inertia (cos/sin of omega L / c) where the shaft's mass is modelled, so no subdivision is "
+        f"needed {cite('pestel')}. Geared branches are referred to one shaft by the square of the speed ratio. The "
+        "count of natural frequencies below any trial frequency comes from the Wittrick–Williams algorithm "
+        f"{cite('ww')}, so no mode is missed or counted twice; each root is then polished to machine precision.",
         "<b>Mass models used.</b> " + escape("; ".join(mass_txt) if mass_txt else "no shafts") + ".",
     ]
     s = ctx.data.screening
-    refs = ["holzer", "pestel", "ww"]
     if s is not None:
         paras.append(
             "<b>Separation.</b> For a natural frequency f_n and an excitation f_e = order × speed of its "
             "source shaft (or a fixed frequency), separation = |f_n - f_e| / f_e, the smallest over the "
             f"operating range; a pair fails below the required {fmt.percent(s.margin)}\u00a0%. The 10\u00a0% "
-            "default is the separation margin of the API machinery standards for torsional analysis [4, 5]. "
+            f"default is the separation margin of the API machinery standards for torsional analysis "
+            f"{cite('api617', 'api684')}. "
             f"Natural frequencies are screened up to the screening limit of {fmt.hz(s.cap_hz)}\u00a0Hz: the "
             "highest excitation frequency reached in the operating range, raised by twice the margin and a "
             "further 25\u00a0%. This limit is a setting of this program, not a requirement of a standard; modes "
             "above it are listed and marked, not screened.")
-        refs += ["api617", "api684"]
+        if any(l.kind == "line" for l in s.lines):
+            paras.append(
+                "<b>Electric-drive lines.</b> An inverter-fed motor excites at multiples of its output frequency "
+                "f_out = p N / (1 − s) and at interharmonics |m f_supply − n f_out|, lines f = |a + b N| that do not "
+                f"pass through the origin {cite('api684')}. They are screened with the same margin; the speeds where "
+                "such a line meets a natural frequency are solved in closed form.")
+    engines = [e for e in (train.operating.excitations if train.operating else ()) if getattr(e, "engine", None)]
+    if engines:
+        paras.append(
+            "<b>Engine excitation.</b> Per cylinder, the tangential gas torque from the cylinder pressure curve (or the "
+            "tangential-pressure harmonics given) times piston area and crank radius through the exact crank–slider "
+            "kinematics, and the inertia torque of the reciprocating mass from the same exact motion "
+            f"{cite('taylor')}; both as numeric Fourier series over the working cycle (no truncated series in the "
+            "crank-to-rod ratio). Each order acts at every crank throw with its firing angle (vector sum "
+            f"{cite('nestorides')}).")
+    mesh_stiffness = any(isinstance(l, dict) and l.get("mesh_stiffness") for l in ctx.doc.get("links", []) or [])
+    if any(l.kind == "gear_mesh" and l.teeth is not None for l in train.links) or mesh_stiffness:
+        text = ("<b>Gear meshes.</b> Tooth counts give the speed ratio z_from / z_to, the mesh order on either "
+                "shaft and the hunting-tooth frequency (mesh frequency × gcd / (z_from z_to)).")
+        if mesh_stiffness:
+            text += (" A mesh stiffness from gear data is k = c_gamma × face width × base radius² on the shaft of "
+                     f"that base radius {cite('iso6336')}.")
+        paras.append(text)
     if ctx.data.response is not None:
         paras.append(
             "<b>Forced response.</b> Steady-state harmonic response of the damped train, solved directly "
             "with the complex dynamic stiffness at every speed and order (no modal truncation); viscous "
             "damping to ground and between discs, hysteretic damping as a complex stiffness k (1 + i eta). "
             "A coupling's relative damping psi and a dynamic magnifier M enter as eta = psi / 2π = 1 / M "
-            "[6, 7]; engine orders with cylinders are summed as vectors over the crank throws [6]. Shaft "
-            "stress = torque × outer radius / polar moment of area [8].")
-        refs += ["nestorides", "din740", "roark"]
-    paras.append(
-        "<b>Not modelled.</b> Damping does not enter the natural frequencies (undamped eigenvalues). Couplings "
-        "and meshes are linear springs at the stiffness given: the load, temperature and frequency dependence "
-        "of elastomeric couplings, gear backlash and other nonlinearities are not represented. Transient "
-        "events (motor start-up, short circuit, run-through of a resonance during acceleration) are not "
-        "analysed. Lateral and axial coupling, foundations and electrical stiffness of motors are outside "
-        "the model.")
+            f"{cite('nestorides', 'din740')}; engine orders with cylinders are summed as vectors over the crank "
+            f"throws {cite('nestorides')}. Shaft stress = torque × outer radius / polar moment of area "
+            f"{cite('roark')}.")
+    acc = study.acceptance
+    if acc is not None:
+        text = ("<b>Acceptance.</b> The forced response is judged per speed band — continuous running in the "
+                "operating range, passing through below it and up to trip — against the limits each gives, with "
+                "the mean torque of every load case through every link (power balance, lossless gears); the worst "
+                "point of each band is refined between the computed speeds.")
+        if any(si.endurance_limit is not None for si in acc.shaft_inputs):
+            text += (" Shaft fatigue by the Goodman or Soderberg relation with the Marin factors, first-cycle yield "
+                     f"by the Langer line {cite('shigley')}.")
+        if any(si.design_factor is not None for si in acc.shaft_inputs):
+            text += (" Propulsion shafts against the permissible torsional vibration stresses of the classification "
+                     f"societies' unified requirement {cite('iacs_m68')}, and the barred speed ranges that follow.")
+        if any(getattr(l, "ratings", None) is not None and l.ratings.coupling is not None for l in train.links):
+            text += f" Flexible couplings against their data-sheet ratings {cite('din740')}."
+        if acc.hammer_ranges or any(c.criterion == "gear_hammer" for c in acc.checks):
+            text += " Gear meshes: the teeth separate where the vibratory torque exceeds the mean torque."
+        paras.append(text)
+    if study.damped is not None or study.damper is not None:
+        text = ("<b>Damped natural frequencies.</b> From the complex eigenvalues of the lumped train in first-order "
+                f"(state-space) form {cite('inman')}; loss factors as an equivalent viscous damping at each mode's "
+                "frequency.")
+        if study.damper is not None:
+            text += (" A viscous damper's ring (a coupling of damping alone) is free in the undamped natural "
+                     "frequencies; the frequencies with the ring locked to its housing are given beside them.")
+        if physics.damper_links_for_suggestion(train):
+            text += (" The damper optimum is the classical two-mass result for a tuned or an untuned viscous damper "
+                     f"{cite('denhartog')}, a starting point for the damper's selection.")
+        paras.append(text)
+    tr = study.transients
+    if tr is not None and tr.events:
+        text = ("<b>Transient events.</b> The whole train referred to one shaft, distributed shafts cut into at least "
+                "20 elements per wavelength at the highest frequency resolved, integrated in time by the trapezoidal "
+                f"rule (Newmark's average-acceleration method) {cite('newmark')} with 20 steps per period of the "
+                "highest resolved frequency; speed-dependent torques (a motor's air-gap torque, load curves) are "
+                "solved together with the motion at every step. Loss factors act as viscous damping matched at one "
+                "frequency per event. Shaft stress cycles are counted by rainflow "
+                f"{cite('astm1049')} and their damage summed by Miner's rule {cite('miner')} on the shaft's S–N "
+                "curve")
+        text += (f" (the material's library curve after {cite('fkm')} where none is given)." if any(
+            l.sn_source and "FKM" in l.sn_source for e in tr.events for l in e.links) else ".")
+        if any(isinstance(t, dict) and t.get("short_circuit") for ev in (ctx.doc.get("transients") or [])
+               if isinstance(ev, dict) for t in (ev.get("torques") or [])):
+            text += (" Terminal short circuits as decaying sinusoids from the machine's subtransient reactance and "
+                     f"time constants {cite('concordia')}.")
+        paras.append(text)
+    not_modelled = ("<b>Not modelled.</b> Damping does not enter the natural frequencies (undamped eigenvalues). "
+                    "Couplings and meshes are linear springs at the stiffness given: the load, temperature and "
+                    "frequency dependence of elastomeric couplings, gear backlash and other nonlinearities are not "
+                    "represented. ")
+    if tr is None or not tr.events:
+        not_modelled += ("Transient events (motor start-up, short circuit, run-through of a resonance during "
+                         "acceleration) are not analysed: the project names none. ")
+    paras.append(not_modelled + "Lateral and axial coupling, foundations and electrical stiffness of motors are "
+                                "outside the model.")
     ref_lines = [f"[{k}] {escape(SOURCES[key])}." for k, key in enumerate(refs, start=1)]
     return [CondPageBreak(160),
-            KeepTogether([Paragraph("Method and assumptions", st["h1"])] +
-                         [Paragraph(p, st["body"]) for p in paras]),
+            Paragraph("Method and assumptions", st["h1"])] + [Paragraph(p, st["body"]) for p in paras] + [
             KeepTogether([Paragraph("Sources", st["h2"]),
                           Paragraph("The editions named are those the method was written against; standards "
                                     "are revised, so confirm the edition and clause that apply to your project "
@@ -857,8 +929,9 @@ def appendix_block(ctx: Ctx):
 
 
 #: the sections in print order; a new section goes in here (see the module docstring)
-SECTIONS = (title_block, verdict_block, schematic_block, model_block, excitation_block, frequency_block,
-            mode_shape_block, campbell_block, coincidence_block, response_block, method_block, appendix_block)
+SECTIONS = (title_block, verdict_block, schematic_block, model_block, excitation_block, physics.engine_block,
+            physics.gear_block, frequency_block, physics.damped_block, mode_shape_block, campbell_block, coincidence_block, response_block, acceptance.acceptance_block,
+            transients.transient_block, method_block, appendix_block)
 
 
 def build_story(ctx: Ctx) -> list:

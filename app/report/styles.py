@@ -29,6 +29,8 @@ PASS_FILL = colors.HexColor("#e6f2e8")
 FAIL_INK = colors.HexColor("#a11d1d")
 FAIL_FILL = colors.HexColor("#f8e4e2")
 NEUTRAL_FILL = colors.HexColor("#eeeeee")
+OPEN_INK = colors.HexColor("#7a4f00")  # a verdict still open: amber, neither pass nor fail
+OPEN_FILL = colors.HexColor("#fbf0d9")
 # line colours of the plots: distinguishable in print and for common colour blindness
 PALETTE = [colors.HexColor(c) for c in
            ("#0b5394", "#d9730d", "#2e8b57", "#9b2d86", "#8c6d1f", "#1b9aaa", "#c2185b", "#555555")]
@@ -64,8 +66,16 @@ def styles() -> dict[str, ParagraphStyle]:
                              spaceAfter=4, keepWithNext=1),
         "h2": ParagraphStyle("h2", parent=base, fontName=BOLD, fontSize=9, leading=12, spaceBefore=6,
                              spaceAfter=3, keepWithNext=1),
+        # headings over a long table: no keepWithNext (which would move a heading and a table longer
+        # than the rest of the page to the next page whole); see base.heading
+        "h1_flow": ParagraphStyle("h1_flow", parent=base, fontName=BOLD, fontSize=11, leading=14, spaceBefore=10,
+                                  spaceAfter=4),
+        "h2_flow": ParagraphStyle("h2_flow", parent=base, fontName=BOLD, fontSize=9, leading=12, spaceBefore=6,
+                                  spaceAfter=3),
         "verdict": ParagraphStyle("verdict", parent=base, fontName=BOLD, fontSize=11, leading=14,
                                   spaceAfter=2),
+        "verdict_long": ParagraphStyle("verdict_long", parent=base, fontName=BOLD, fontSize=9.5, leading=12,
+                                       spaceAfter=2),
     }
 
 

@@ -30,6 +30,7 @@ from .styles import BOLD, FAIL_FILL, FAIL_INK, FONT, GREY, HEAD_FILL, INK, NEUTR
 SIZE = 7.0  # points, table text
 LEADING = 8.4
 PAD_V, PAD_H = 1.6, 3.0
+BAR_FULL = 2.0 / 3.0  # a utilisation bar reaches this fraction of its cell at 100 % (the tick), all of it at 150 %
 
 
 @dataclass(frozen=True)
@@ -139,7 +140,8 @@ class LongTable(Flowable):
 
     ``rows``: lists of strings, one per column.  ``cell_styles``: {row index:
     [(command, column, value), ...]} for the few cells that need their own
-    style (commands BACKGROUND, TEXTCOLOR, FONTNAME).  The header row repeats
+    style (commands BACKGROUND, TEXTCOLOR, FONTNAME, and BAR with value (fraction, colour):
+    a bar of that length, 100 % marked by a tick).  The header row repeats
     on every page the table spans.
     """
 
@@ -207,11 +209,24 @@ class LongTable(Flowable):
             y -= heights[i]
         if zebra:  # one filled path of all stripes (a rect call per row formats its numbers in Python)
             c._code.append("\n".join(zebra) + " f")
+        bars = []
         for i in range(start, stop):
             for cmd, col, value in cells.get(i, ()):
                 if cmd == "BACKGROUND":
                     c.setFillColor(value)
                     c.rect(xs[col], row_tops[i - start] - heights[i], widths[col], heights[i], stroke=0, fill=1)
+                elif cmd == "BAR":
+                    bars.append((i, col, value))
+        for i, col, (fraction, colour) in bars:  # utilisation bars: 100 % at BAR_FULL of the cell
+            inner = widths[col] - 2 * PAD_H
+            y = row_tops[i - start] - PAD_V - SIZE * 0.86
+            length = inner * BAR_FULL * min(max(fraction, 0.0), 1.0 / BAR_FULL)
+            c.setFillColor(colour)
+            c.rect(xs[col] + PAD_H, y, length, SIZE * 0.7, stroke=0, fill=1)
+            c.setStrokeColor(INK)
+            c.setLineWidth(0.5)
+            x100 = xs[col] + PAD_H + inner * BAR_FULL
+            c.line(x100, y - 0.8, x100, y + SIZE * 0.7 + 0.8)
         c.setStrokeColor(INK)
         c.setLineWidth(0.6)
         c.line(0, top - head_h, total_w, top - head_h)
