@@ -540,6 +540,7 @@ class Spec:
     placeholder: str = ""
     width: int = 0
     words: tuple = ()
+    default: object = None  # a CHOICE's value while the key is absent (shown, not written)
 
     def shown_for(self, obj) -> bool:
         return self.applies is None or bool(self.applies(obj))
@@ -562,7 +563,8 @@ def spec_widget(spec: Spec, path: tuple, system: str):
 def show_spec_value(widget, spec: Spec, doc: dict, obj, stored, system: str, problem, force=False):
     """Bring one spec widget up to the document."""
     if isinstance(widget, ChoiceField):
-        widget.set_choices(spec.choices(doc) if spec.choices else [], stored, problem)
+        current = spec.default if stored is None and spec.default is not None else stored
+        widget.set_choices(spec.choices(doc) if spec.choices else [], current, problem)
     else:
         widget.show_value(stored, system, problem, force)
     if spec.enabled is not None:
@@ -759,9 +761,8 @@ class TableEditor(QtWidgets.QWidget):
         self.table.setSelectionBehavior(QtWidgets.QAbstractItemView.SelectItems)
         self.table.itemChanged.connect(self._item_changed)
         self.table.pasteRequested.connect(lambda: self.paste_text(self._clipboard(), at_cell=True))
-        head = self.table.horizontalHeader().sizeHint().height()
-        self.table.setMinimumHeight(head + 3 * 22 + 6)
-        self.table.setMaximumHeight(head + visible_rows * 22 + 6)
+        self.visible_rows = visible_rows
+        self._fit_height(0)
         lay.addWidget(self.table)
         buttons = QtWidgets.QHBoxLayout()
         buttons.setSpacing(4)
@@ -784,6 +785,12 @@ class TableEditor(QtWidgets.QWidget):
         lay.addLayout(buttons)
         self.problem_label = problem_label()
         lay.addWidget(self.problem_label)
+
+    def _fit_height(self, n: int) -> None:
+        """As tall as its rows (two to ``visible_rows``; more scroll inside the table)."""
+        head = self.table.horizontalHeader().sizeHint().height()
+        rows = min(max(n, 2), self.visible_rows)
+        self.table.setFixedHeight(head + rows * self.table.verticalHeader().defaultSectionSize() + 4)
 
     @staticmethod
     def _clipboard() -> str:
@@ -845,6 +852,7 @@ class TableEditor(QtWidgets.QWidget):
         text = first or problem
         self.problem_label.setText(text or "")
         self.problem_label.setVisible(bool(text))
+        self._fit_height(len(self._rows))
         self.count.setText(f"{len(self._rows)} {self.what}{'s' if len(self._rows) != 1 else ''}")
         self.remove_button.setEnabled(bool(self._rows))
 

@@ -104,11 +104,11 @@ TIPS.update({
     "inter.supply_harmonic": "m of the interharmonic |m f_supply ∓ n f_out|.",
     "inter.output_harmonic": "n of the interharmonic |m f_supply ∓ n f_out|.",
 })
-STROKE_CHOICES = with_default([(4, "four-stroke"), (2, "two-stroke")], "four-stroke (default)")
-LAYOUT_CHOICES = with_default([("in-line", "in-line"), ("V", "V")], "in-line (default)")
+STROKE_CHOICES = [(4, "four-stroke"), (2, "two-stroke")]
+LAYOUT_CHOICES = [("in-line", "in-line"), ("V", "V")]
 ENGINE_SPECS = [
-    Spec("strokes", "Cycle", CHOICE, "engine.strokes", choices=lambda doc: STROKE_CHOICES),
-    Spec("layout", "Layout", CHOICE, "engine.layout", choices=lambda doc: LAYOUT_CHOICES),
+    Spec("strokes", "Cycle", CHOICE, "engine.strokes", choices=lambda doc: STROKE_CHOICES, default=4),
+    Spec("layout", "Layout", CHOICE, "engine.layout", choices=lambda doc: LAYOUT_CHOICES, default="in-line"),
     Spec("bank_angle_deg", "Bank angle, °", NUMBER, "engine.bank_angle_deg",
          enabled=lambda o: o.get("layout") == "V" or o.get("bank_angle_deg") is not None),
     Spec("bore", "Bore", u.LENGTH, "engine.bore", optional=False),
@@ -133,7 +133,7 @@ TANGENTIAL_ORDER_SPECS = [
     Spec("sin", "Sine part", u.PRESSURE, "tangential.sin", width=60),
     Spec("cos", "Cosine part", u.PRESSURE, "tangential.cos", width=60),
 ]
-BANK_CHOICES = with_default([("A", "A"), ("B", "B")], "A")
+BANK_CHOICES = [("A", "A"), ("B", "B")]
 
 
 def engine_cylinder_specs(v_engine: bool) -> list:
@@ -146,7 +146,8 @@ def engine_cylinder_specs(v_engine: bool) -> list:
              enabled=lambda o: isinstance(o, dict) and o.get("firing_deg") is None),
     ]
     if v_engine:
-        specs.append(Spec("bank", "Bank", CHOICE, "ecyl.bank", choices=lambda doc: BANK_CHOICES, width=40))
+        specs.append(Spec("bank", "Bank", CHOICE, "ecyl.bank", choices=lambda doc: BANK_CHOICES, width=40,
+                          default="A"))
     return specs
 
 
@@ -155,12 +156,13 @@ FIRING_ORDER_SPEC = Spec("firing_order", "Firing order", NAMES, "engine.firing_o
 MISFIRE_GAS_SPEC = Spec("gas_fraction", "Gas torque left", FRACTION, "misfire.gas_fraction", placeholder="0")
 
 # ---- lines f = a + b N, |a - b N|, and an inverter-fed drive (core.electric)
-COMBINATION_CHOICES = with_default([("sum", "a + b·N"), ("difference", "|a − b·N|")], "a + b·N")
+COMBINATION_CHOICES = [("sum", "a + b·N"), ("difference", "|a − b·N|")]
 LINE_SPECS = [
     Spec("name", "Name", TEXT, "line.name", width=50),
     Spec("frequency_offset", "Offset a", u.FREQUENCY, "line.frequency_offset", width=50),
     Spec("order", "Order b", NUMBER, "line.order", width=36),
-    Spec("combination", "Form", CHOICE, "line.combination", choices=lambda doc: COMBINATION_CHOICES, width=64),
+    Spec("combination", "Form", CHOICE, "line.combination", choices=lambda doc: COMBINATION_CHOICES, width=64,
+         default="sum"),
     Spec("amplitude", "Amplitude", u.TORQUE, "exc.amplitude", width=56),
     Spec("phase_deg", "Phase, °", NUMBER, "exc.phase_deg", placeholder="0", width=36),
 ]
@@ -181,8 +183,8 @@ TWICE_SPECS = [
 INTERHARMONIC_SPECS = [
     Spec("supply_harmonic", "m (supply)", NUMBER, "inter.supply_harmonic", optional=False, width=40),
     Spec("output_harmonic", "n (output)", NUMBER, "inter.output_harmonic", optional=False, width=40),
-    Spec("combination", "Form", CHOICE, "line.combination", choices=lambda doc: with_default(
-        [("sum", "m f_s + n f_out"), ("difference", "|m f_s − n f_out|")], "m f_s + n f_out"), width=80),
+    Spec("combination", "Form", CHOICE, "line.combination", choices=lambda doc: [
+        ("sum", "m f_s + n f_out"), ("difference", "|m f_s − n f_out|")], width=80, default="sum"),
     Spec("amplitude", "Amplitude", u.TORQUE, "exc.amplitude", width=56),
     Spec("phase_deg", "Phase, °", NUMBER, "exc.phase_deg", placeholder="0", width=36),
 ]

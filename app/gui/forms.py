@@ -404,10 +404,9 @@ def _label(key: str) -> str:
 
 FATIGUE_SPECS = [
     Spec("criterion", "Criterion", CHOICE, "fatigue.criterion",
-         choices=lambda doc: with_default([("goodman", "Goodman"), ("soderberg", "Soderberg")],
-                                          "Goodman (default)")),
+         choices=lambda doc: [("goodman", "Goodman"), ("soderberg", "Soderberg")], default="goodman"),
     Spec("surface", "Surface finish", CHOICE, "fatigue.surface",
-         choices=lambda doc: with_default([(k, _label(k)) for k in SURFACE_FINISH], "machined (default)")),
+         choices=lambda doc: [(k, _label(k)) for k in SURFACE_FINISH], default="machined"),
     Spec("reliability_percent", "Reliability, %", PERCENT, "fatigue.reliability_percent", placeholder="50"),
     Spec("temperature_factor", "Temperature factor k_d", NUMBER, "fatigue.temperature_factor", placeholder="1"),
     Spec("required_safety_factor", "Required safety\nfactor", NUMBER, "fatigue.required_safety_factor",
