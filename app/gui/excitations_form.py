@@ -392,7 +392,7 @@ class ExcitationsForm(QtWidgets.QWidget):
         curve = engine.get("pressure_curve") if isinstance(engine.get("pressure_curve"), dict) else None
         tang = engine.get("tangential_pressure") if isinstance(engine.get("tangential_pressure"), dict) else None
         drive = e.get("electric_drive") if isinstance(e.get("electric_drive"), dict) else None
-        return (i, source, n(e.get("orders")), n(e.get("cylinders")), self.system,
+        return (i, source, n(e.get("orders")), n(e.get("cylinders")), self.system, e.get("at") is None,
                 n(engine.get("cylinders")), engine.get("layout") == "V", curve is not None,
                 None if curve is None else ("file" in curve, curve.get("unit")),
                 None if tang is None else n(tang.get("orders")), "misfire" in engine,
@@ -526,7 +526,9 @@ class ExcitationsForm(QtWidgets.QWidget):
         form.addRow(lab, self.source_box)
         source = edits.excitation_source(e)
         if source != ENGINE:
-            self.at_field = ChoiceField(base + ("at",), "exc.at_fixed" if source == FIXED else "exc.at")
+            # bound to the key the file uses (the older 'applied_at' is replaced by 'at' on an edit)
+            key = "applied_at" if e.get("at") is None and e.get("applied_at") is not None else "at"
+            self.at_field = ChoiceField(base + (key,), "exc.at_fixed" if source == FIXED else "exc.at")
             self.at_field.committed.connect(self._at_changed)
             lab, box = labelled(self.at_field, "Acts at")
             form.addRow(lab, box)
