@@ -994,21 +994,25 @@ def set_twice_electrical_value(doc: dict, i: int, key: str, value) -> dict:
 # ----------------------------------------------------------------- gears
 def set_gear_teeth(doc: dict, li: int, side: int, value) -> dict:
     """Tooth count ``side`` (0 'from', 1 'to') of gear mesh ``li``.  With both counts the teeth
-    give the speed ratio (a ``speed_ratio`` beside them goes); removing one count writes the
-    ratio the teeth gave, so the mesh keeps its ratio."""
+    give the speed ratio (a ``speed_ratio`` beside them goes); clearing a count of a complete
+    pair removes the teeth and writes the ratio they gave, so the mesh keeps its ratio."""
     new = copy.deepcopy(doc)
     link = new["links"][li]
     teeth = link.get("teeth")
     pair = list(teeth) if isinstance(teeth, list) and len(teeth) == 2 else [None, None]
+
+    def whole(z):
+        return isinstance(z, (int, float)) and not isinstance(z, bool) and z > 0
+    if value is None and all(whole(z) for z in pair):
+        link.pop("teeth")
+        link.setdefault("speed_ratio", float(f"{pair[0] / pair[1]:.12g}"))
+        return new
     pair[side] = value
-    if all(isinstance(z, (int, float)) and not isinstance(z, bool) for z in pair) and pair[1]:
+    if all(z is None for z in pair):
+        link.pop("teeth", None)
+    elif all(whole(z) for z in pair):
         link["teeth"] = [int(z) if float(z).is_integer() else z for z in pair]
         link.pop("speed_ratio", None)
-    elif all(z is None for z in pair):
-        old = teeth if isinstance(teeth, list) and len(teeth) == 2 else None
-        link.pop("teeth", None)
-        if old and all(isinstance(z, (int, float)) for z in old) and old[1] and "speed_ratio" not in link:
-            link["speed_ratio"] = float(f"{old[0] / old[1]:.12g}")
     else:
         link["teeth"] = pair  # half given: the model names the missing count
     return new

@@ -1111,7 +1111,8 @@ class OperatingForm(QtWidgets.QWidget):
         outer.addStretch(1)
 
     def _commit(self, path, value):
-        label = next((s.label for s, w in self._specs if w.path == tuple(path)), path[-1])
+        label = next((s.label for s, w in self._specs if w.path == tuple(path)), None)
+        label = label or ("design option" if path[0] == "design_options" else str(path[-1]))
         self.editRequested.emit(path, value, f"Edit {label.lower()}")
 
     def _add_design_option(self):

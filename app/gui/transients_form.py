@@ -199,7 +199,7 @@ class TransientsForm(ListDetailForm):
         return (i, self.system, tuple(torque_source(t) for t in torques),
                 tuple(len(t.get("sinusoids")) if isinstance(t, dict) and isinstance(t.get("sinusoids"), list)
                       else None for t in torques),
-                isinstance(req, dict), tuple(req) if isinstance(req, dict) else None)
+                type(req).__name__, tuple(req) if isinstance(req, dict) else None)
 
     def _build(self, i, ev):
         lay = self._body.layout()
