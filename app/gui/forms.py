@@ -311,7 +311,11 @@ class LinkTable(DocTable):
                 note = ("from geometry: " + display_text(k, u.STIFFNESS, self.system)) if k else "from geometry"
                 return None, False, note
             if kind == "gear_mesh":
+                if isinstance(obj.get("mesh_stiffness"), dict):
+                    return None, False, "from tooth data"
                 return None, True, "rigid"
+            if kind == "coupling" and obj.get("damping") is not None:
+                return None, True, "none (damping only)"
         if key == "speed_ratio" and kind != "gear_mesh":
             return None, False, "—"
         if key == "mass" and kind != "shaft":
@@ -324,7 +328,7 @@ class LinkTable(DocTable):
         if self._updating:
             return
         meta = self._meta.get((item.row(), item.column()))
-        if meta and meta[0][-1] == "stiffness" and item.text() == "rigid":
+        if meta and meta[0][-1] == "stiffness" and item.text() in ("rigid", "none (damping only)"):
             return
         super()._item_changed(item)
 
