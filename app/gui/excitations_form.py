@@ -103,6 +103,8 @@ TIPS.update({
     "drive.twice_electrical": "The motor's torque pulsation at twice the electrical (output) frequency.",
     "inter.supply_harmonic": "m of the interharmonic |m f_supply ∓ n f_out|.",
     "inter.output_harmonic": "n of the interharmonic |m f_supply ∓ n f_out|.",
+    "inter.combination": "sum: m f_supply + n f_out; difference: |m f_supply − n f_out| (falls, then rises "
+                         "with speed).",
 })
 STROKE_CHOICES = [(4, "four-stroke"), (2, "two-stroke")]
 LAYOUT_CHOICES = [("in-line", "in-line"), ("V", "V")]
@@ -183,8 +185,8 @@ TWICE_SPECS = [
 INTERHARMONIC_SPECS = [
     Spec("supply_harmonic", "m (supply)", NUMBER, "inter.supply_harmonic", optional=False, width=40),
     Spec("output_harmonic", "n (output)", NUMBER, "inter.output_harmonic", optional=False, width=40),
-    Spec("combination", "Form", CHOICE, "line.combination", choices=lambda doc: [
-        ("sum", "m f_s + n f_out"), ("difference", "|m f_s − n f_out|")], width=80, default="sum"),
+    Spec("combination", "Form", CHOICE, "inter.combination", choices=lambda doc: [
+        ("sum", "sum"), ("difference", "difference")], width=70, default="sum"),
     Spec("amplitude", "Amplitude", u.TORQUE, "exc.amplitude", width=56),
     Spec("phase_deg", "Phase, °", NUMBER, "exc.phase_deg", placeholder="0", width=36),
 ]

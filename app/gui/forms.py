@@ -340,7 +340,7 @@ def _shaft_or_given(key):
     return lambda obj: obj.get("kind") == "shaft" or obj.get(key) is not None
 
 
-TOLERANCE_HINT = "e.g. 20 % or -10 %, +25 %"
+TOLERANCE_HINT = "e.g. 20 %"  # the pair form is in the tooltip (a long hint is cut)
 DISC_SPECS = [
     Spec("id", "Id", TEXT, "id", optional=False),
     Spec("name", "Name", TEXT, "name"),
@@ -373,8 +373,7 @@ MESH_STIFFNESS_SPECS = [
          enabled=lambda o: o.get("base_radius_from") is None, placeholder="or the 'from' gear's"),
 ]
 #: how a gear mesh's stiffness is given (edits.MESH_DEFINITIONS)
-MESH_DEFINITION_LABELS = {"rigid": "rigid (no stiffness)", "stiffness": "torsional stiffness",
-                          "tooth_data": "from tooth data (c_γ, b, r_b)"}
+MESH_DEFINITION_LABELS = {"rigid": "rigid", "stiffness": "given stiffness", "tooth_data": "tooth data"}
 LINK_DAMPING_SPECS = [Spec("damping", "Viscous damping", u.DAMPING, "link.damping")]
 LINK_LIMIT_SPECS = [
     Spec("permissible_torque", "Permissible torque", u.TORQUE, "permissible_torque"),
@@ -416,10 +415,10 @@ FATIGUE_SPECS = [
     Spec("required_safety_factor", "Required safety\nfactor", NUMBER, "fatigue.required_safety_factor",
          placeholder="1.5"),
 ]
-DESIGN_FEATURE_CHOICES = [(k, f"{_label(k)} (C_K {v:g})") for k, v in DESIGN_FACTORS.items()]
+DESIGN_FEATURE_CHOICES = [(k, _label(k)) for k in DESIGN_FACTORS]  # C_K in each item's tooltip
 PROPULSION_SPECS = [
     Spec("position", "Propulsion shaft\nrule", CHOICE, "propulsion.position",
-         choices=lambda doc: with_default([(p, f"{p} shaft") for p in POSITIONS], "not applied")),
+         choices=lambda doc: with_default([(p, p) for p in POSITIONS], "not applied")),
     Spec("design_feature", "Design feature", CHOICE, "propulsion.design_feature",
          choices=lambda doc: with_default(DESIGN_FEATURE_CHOICES, "(or give C_K)"),
          enabled=lambda o: o.get("shaft_design_factor") is None),
@@ -759,7 +758,7 @@ class PropertyForm(QtWidgets.QScrollArea):
                 self._add_field(form, "Stiffness", base + ("stiffness",), u.STIFFNESS, "stiffness", optional=False)
         elif lk == "coupling":
             f = self._add_field(form, "Stiffness", base + ("stiffness",), u.STIFFNESS, "coupling.stiffness")
-            f.set_fixed_placeholder("none: a damper's ring")
+            f.set_fixed_placeholder("none")
         else:
             self._gear(form, lay, obj, base)
         self._add_specs(tail, TOLERANCE_SPECS, base, obj)

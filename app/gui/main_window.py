@@ -148,6 +148,71 @@ def _results_panel(parent):
         return ResultsPanel(parent)
 
 
+# ----------------------------------------------------------------- forms tabs
+class FormsTabs(QtWidgets.QWidget):
+    """The forms' tabs with the tab bar across the whole forms area: the pages on the left
+    of ``split`` (a splitter the window adds the property form to), so the six tabs fit
+    over the tables and the property form together.  The part of the QTabWidget API the
+    window and its tests use."""
+
+    currentChanged = QtCore.Signal(int)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        lay = QtWidgets.QVBoxLayout(self)
+        lay.setContentsMargins(0, 0, 0, 0)
+        lay.setSpacing(0)
+        self.bar = QtWidgets.QTabBar()
+        self.bar.setDocumentMode(True)
+        self.bar.setExpanding(False)
+        self.bar.setUsesScrollButtons(True)  # only where even the whole width is too narrow
+        self.bar.setDrawBase(True)
+        lay.addWidget(self.bar)
+        self.stack = QtWidgets.QStackedWidget()
+        self.split = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
+        self.split.addWidget(self.stack)
+        lay.addWidget(self.split, 1)
+        self.bar.currentChanged.connect(self._changed)
+
+    def _changed(self, index):
+        self.stack.setCurrentIndex(index)
+        self.currentChanged.emit(index)
+
+    def addTab(self, widget, text: str) -> int:
+        self.stack.addWidget(widget)
+        return self.bar.addTab(text)
+
+    def setTabToolTip(self, index: int, text: str) -> None:
+        self.bar.setTabToolTip(index, text)
+
+    def tabBar(self) -> QtWidgets.QTabBar:
+        return self.bar
+
+    def count(self) -> int:
+        return self.bar.count()
+
+    def widget(self, index: int):
+        return self.stack.widget(index)
+
+    def indexOf(self, widget) -> int:
+        return self.stack.indexOf(widget)
+
+    def currentIndex(self) -> int:
+        return self.bar.currentIndex()
+
+    def setCurrentIndex(self, index: int) -> None:
+        self.bar.setCurrentIndex(index)
+
+    def currentWidget(self):
+        return self.stack.currentWidget()
+
+    def setCurrentWidget(self, widget) -> None:
+        self.bar.setCurrentIndex(self.stack.indexOf(widget))
+
+    def tabText(self, index: int) -> str:
+        return self.bar.tabText(index)
+
+
 # ----------------------------------------------------------------- main window
 class MainWindow(QtWidgets.QMainWindow):
     def __init__(self, settings: QtCore.QSettings | None = None, autosave: bool = True):
@@ -216,9 +281,7 @@ class MainWindow(QtWidgets.QMainWindow):
         self.excitations_form = ExcitationsForm()
         self.load_cases_form = LoadCasesForm()
         self.transients_form = TransientsForm()
-        self.tabs = QtWidgets.QTabWidget()
-        self.tabs.setDocumentMode(True)
-        self.tabs.setUsesScrollButtons(True)  # six tabs in a narrow pane scroll rather than clip
+        self.tabs = FormsTabs()
         self.tabs.addTab(self.disc_table, "Discs")
         self.tabs.addTab(self.link_table, "Links")
         self.tabs.addTab(self.operating_form, "Operation")
@@ -241,8 +304,8 @@ class MainWindow(QtWidgets.QMainWindow):
         # the operating data have no selected element: give that tab the full width
         self.tabs.currentChanged.connect(self._forms_tab_changed)
 
-        forms = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
-        forms.addWidget(self.tabs)
+        # the tab bar spans the tables and the property form, so all six tabs fit at 1366 x 768
+        forms = self.tabs.split
         forms.addWidget(self.property_form)
         forms.setStretchFactor(0, 3)
         forms.setStretchFactor(1, 2)
@@ -251,7 +314,7 @@ class MainWindow(QtWidgets.QMainWindow):
         ll = QtWidgets.QVBoxLayout(lower)
         ll.setContentsMargins(0, 0, 0, 0)
         ll.setSpacing(3)
-        ll.addWidget(forms, 1)
+        ll.addWidget(self.tabs, 1)
 
         left = QtWidgets.QSplitter(QtCore.Qt.Vertical)
         left.addWidget(canvas_box)
