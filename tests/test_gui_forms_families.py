@@ -574,3 +574,24 @@ def test_set_value_undo_removes_the_objects_an_edit_created(qapp):
     assert p.doc["links"][0]["fatigue"] == {"criterion": "soderberg"}
     p.undo_stack.undo()
     assert p.doc == before
+
+
+# ----------------------------------------------------------------- one unit system
+def test_the_new_forms_follow_the_unit_switch(qtbot, window):
+    open_sample(qtbot, window, SYNC)
+    window.set_unit_system("US")
+    show_tab(window, window.transients_form, 1)
+    table = widget_at(window, ("transients", 1, "torques", 2, "speed_table"), TableEditor)
+    assert table.table.horizontalHeaderItem(1).text() == "Torque, lbf*ft"
+    assert table.table.item(1, 1).text().endswith("lbf*ft")
+    rated = widget_at(window, ("transients", 1, "torques", 1, "short_circuit", "rated_torque"), Field)
+    assert rated.text().endswith("lbf*ft")
+    # a bare number is read in the unit on screen, and stored with it
+    type_into(qtbot, window, ("transients", 1, "torques", 1, "short_circuit", "rated_torque"), "28000")
+    assert window.project.doc["transients"][1]["torques"][1]["short_circuit"]["rated_torque"] == "28000 lbf*ft"
+    show_tab(window, window.load_cases_form)
+    window.load_cases_form.add_button.click()
+    power = widget_at(window, ("load_cases", 0, "power"), Field)
+    assert power.text().endswith("hp")
+    window.set_unit_system("SI")
+    assert widget_at(window, ("load_cases", 0, "power"), Field).text() == "100 kW"

@@ -20,12 +20,25 @@ One pattern reaches every key of the project file (see ``Spec``):
   does not read or the model (``core.project.build_train``) names this element
   and key.
 
-Adding a key family later (tolerances, load cases, engine data, transient
-events) means: parse and validate it in ``core.project``; add its Specs here or
-beside the form that shows them (a list of Specs for an object, a RowsEditor for
-a list of objects); map the element and field names of its ``ModelError`` to
-the widgets' paths in the form's ``problem_of``; and, where it names a disc,
-carry it through :func:`app.gui.edits.rename_disc` and ``_fix_references``.
+Besides: :func:`grid_specs` lays Specs out compactly (label above field, a data-sheet
+block such as an engine's); :class:`TableEditor` edits a table of values
+(``[[a, b], ...]``: a pressure curve, a torque against time or speed) whole, with the
+unit of each column in its header and rows pasted from a spreadsheet;
+:class:`MapEditor` edits an object keyed by names (a factor per excitation, a count
+per link).  Kinds beyond the units: ``PERCENT`` (10 or '10 %'), ``FRACTION`` (0.2 or
+'20 %'), ``TOLERANCE`` ('20 %' or '-10 %, +25 %', a pair in the file) and ``NAMES``
+('1, 5, 3', a list in the file).  A Spec's ``default`` is the dropdown's value while
+the key is absent; ``words`` are words a field takes besides its kind ('none').
+
+Adding a key family (see the load cases, transients and engine data) means: parse and
+validate it in ``core``; add its Specs beside the form that shows them (a list of Specs
+for an object, a RowsEditor for a list of objects, a TableEditor for a table, a tab of
+its own from :class:`app.gui.list_form.ListDetailForm` for a top-level list); map the
+element and field names of its ``ModelError`` to the widgets' paths in the form's
+``problem_of`` (core names nested keys 'engine.bore', list entries 'load case 'x'
+driven 2'); and, where it names a disc or a link, carry it through
+:func:`app.gui.edits.rename_disc` / ``_fix_references`` or
+:func:`app.gui.edits.rename_link` / ``_fix_link_references``.
 """
 from __future__ import annotations
 

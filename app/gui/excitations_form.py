@@ -642,13 +642,12 @@ class ExcitationsForm(QtWidgets.QWidget):
 
     def _show_engine_note(self, doc, e, element, force):
         """What the model made of the engine (orders, major orders, firing angles)."""
-        from core.engine import describe_engine
         train = self._project.train if self._project is not None else None
         spec = None
         if train is not None and train.operating is not None and self._project.error is None:
             name = str(e.get("name") or f"Excitation {self.current + 1}")
             spec = next((x.engine for x in train.operating.excitations if x.name == name and x.engine), None)
-        self.engine_note.setText("\n".join(describe_engine(spec)[1:]) if spec is not None else "")
+        self.engine_note.setText(engine_note(spec, self.system) if spec is not None else "")
         self.engine_note.setVisible(spec is not None)
 
     def _build_lines(self, lay, i, e):
@@ -789,6 +788,22 @@ class ExcitationsForm(QtWidgets.QWidget):
         for rows in self._row_editors:
             out += [w for w in rows.fields() if isinstance(w, Field)]
         return out
+
+
+def engine_note(spec, system: str) -> str:
+    """What the model made of an engine, in the unit system on screen: the gas torque's source
+    and indicated mean pressure, the orders and the major ones, every firing angle."""
+    major = ", ".join(f"{n:g}" for n in spec.major_orders) or "none"
+    lines = [f"Gas torque from the {spec.gas_source}; indicated mean pressure "
+             f"{display_text(spec.indicated_mean_pressure, u.PRESSURE, system)} at full load, "
+             f"load {100 * spec.load_fraction:g} %.",
+             f"Orders {spec.orders[0]:g} to {spec.orders[-1]:g}; major orders {major}.",
+             "Firing angles " + ", ".join(f"{c.name}: {c.firing_deg:g}°" for c in spec.cylinders) + "."]
+    off = [f"{c.name} ({100 * spec.gas_fraction[i]:g} % gas torque)" for i, c in enumerate(spec.cylinders)
+           if spec.gas_fraction and spec.gas_fraction[i] < 1.0]
+    if off:
+        lines.append("Misfiring: " + ", ".join(off) + ".")
+    return "\n".join(lines + list(spec.notes))
 
 
 def _next_half_order(orders) -> float:
