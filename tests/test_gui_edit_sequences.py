@@ -19,7 +19,7 @@ os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
 from app.gui import edits  # noqa: E402
 from app.gui.document import Project  # noqa: E402
-from app.gui.editors import NUMBER, stored_value  # noqa: E402
+from app.gui.editors import NUMBER, TOLERANCE, stored_value  # noqa: E402
 from core import units as u  # noqa: E402
 from core.project import build_train, load_document, save_document  # noqa: E402
 
@@ -48,6 +48,18 @@ steps = st.one_of(
               st.sampled_from([None, "loss_factor", "relative_damping", "dynamic_magnifier"])),
     st.tuples(st.just("undo")), st.tuples(st.just("redo")),
     st.tuples(st.just("save")),
+    # the newer key families (tolerances, nested objects, excitation kinds, load cases, transients)
+    st.tuples(st.just("tolerance"), st.sampled_from(["links", "discs"]), st.integers(0, 30),
+              st.sampled_from(["20 %", "0.2", "-10 %, +25 %", "10 %, 25 %", "", "abc"])),
+    st.tuples(st.just("nested"), st.integers(0, 30),
+              st.sampled_from([("fatigue", "criterion"), ("fatigue", "temperature_factor"),
+                               ("propulsion_shaft", "position"), ("mesh_stiffness", "c_gamma")]),
+              st.sampled_from(["soderberg", "0.9", "intermediate", "20 N/(mm*um)", ""])),
+    st.tuples(st.just("kind"), st.integers(0, 5), st.sampled_from(edits.EXCITATION_SOURCES)),
+    st.tuples(st.just("list"), st.sampled_from(["load_cases", "transients", "design_options"]),
+              st.sampled_from(["add", "remove"]), st.integers(0, 5)),
+    st.tuples(st.just("rename_link"), st.integers(0, 30), st.sampled_from(["l1", "shaft_x", "coupling"])),
+    st.tuples(st.just("teeth"), st.integers(0, 30), st.integers(0, 1), st.sampled_from([None, 40, 97, 12.5])),
 )
 
 
@@ -114,6 +126,46 @@ def apply(project: Project, step, tmp: Path):
         if doc.get("links"):
             li = step[1] % len(doc["links"])
             project.replace(edits.set_damping_key(doc, li, step[2]), "damping")
+    elif kind == "tolerance":
+        where, i, text = step[1:]
+        if doc.get(where):
+            key = "stiffness_tolerance" if where == "links" else "inertia_tolerance"
+            project.set_value((where, i % len(doc[where]), key), stored_value(text, TOLERANCE, "SI"), "tolerance")
+    elif kind == "nested":
+        i, (outer, key), text = step[1:]
+        if doc.get("links") and isinstance(doc["links"][i % len(doc["links"])], dict):
+            li = i % len(doc["links"])
+            if outer not in doc["links"][li] or isinstance(doc["links"][li][outer], dict):
+                project.set_value(("links", li, outer, key), text or None, "nested")
+    elif kind == "kind":
+        excs = [k for k, e in enumerate(doc.get("excitations") or []) if isinstance(e, dict)]
+        if excs:
+            project.replace(edits.set_excitation_kind(doc, _pick(excs, step[1]), step[2]), "kind")
+    elif kind == "list":
+        key, what, i = step[1:]
+        items = doc.get(key) if isinstance(doc.get(key), list) else []
+        if what == "remove" and items:
+            project.replace(edits.list_remove(doc, (key,), i % len(items)), "remove")
+        elif what == "add":
+            if key == "load_cases":
+                from app.gui.loads_form import LoadCasesForm
+                item = LoadCasesForm.new_entry(None, doc)
+            elif key == "transients":
+                from app.gui.transients_form import TransientsForm
+                item = TransientsForm.new_entry(None, doc)
+            else:
+                item = _pick(edits.link_ids(doc) + edits.disc_ids(doc), i)
+            if item is not None:
+                project.replace(edits.list_append(doc, (key,), item), "add")
+    elif kind == "rename_link":
+        old = _pick(edits.link_ids(doc), step[1])
+        if old is not None and step[2] not in edits.link_ids(doc):
+            project.replace(edits.rename_link(doc, old, step[2]), "rename link")
+    elif kind == "teeth":
+        meshes = [k for k, l in enumerate(doc.get("links") or []) if isinstance(l, dict)
+                  and l.get("kind") == "gear_mesh"]
+        if meshes:
+            project.replace(edits.set_gear_teeth(doc, _pick(meshes, step[1]), step[2], step[3]), "teeth")
     elif kind == "undo":
         project.undo_stack.undo()
     elif kind == "redo":
@@ -128,7 +180,8 @@ def apply(project: Project, step, tmp: Path):
         assert reopened.doc == project.doc and (reopened.error is None) == (project.error is None)
 
 
-@pytest.mark.parametrize("sample", [p for p in SAMPLES if p.stem in ("pump_set", "engine_genset")],
+@pytest.mark.parametrize("sample", [p for p in SAMPLES if p.stem in ("pump_set", "engine_genset",
+                                                                     "sync_motor_compressor")],
                          ids=lambda p: p.stem)
 @settings(max_examples=30, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(sequence=st.lists(steps, min_size=1, max_size=14))

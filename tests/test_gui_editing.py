@@ -21,7 +21,7 @@ from PySide6 import QtCore, QtWidgets  # noqa: E402
 
 from app.gui import edits  # noqa: E402
 from app.gui import main_window as mw  # noqa: E402
-from app.gui.editors import ERROR_STYLE, ChoiceField, Field  # noqa: E402
+from app.gui.editors import ERROR_STYLE, ChoiceField, Field, TableEditor  # noqa: E402
 from core.project import build_train, load_document  # noqa: E402
 
 SAMPLES = sorted((Path(__file__).resolve().parent.parent / "sample_projects").glob("*.json"))
@@ -73,9 +73,11 @@ def type_into(qtbot, field: Field, text: str, enter: bool = True):
 
 
 def visible_paths(win) -> set:
+    """Paths of the fields, dropdowns and tables on screen (a table edits its list whole)."""
     QtWidgets.QApplication.processEvents()
     return {w.path for w in win.findChildren(QtWidgets.QWidget)
-            if isinstance(w, (Field, ChoiceField)) and w.isVisible()}
+            if (isinstance(w, (Field, ChoiceField, TableEditor))
+                or isinstance(w, QtWidgets.QCheckBox) and hasattr(w, "path")) and w.isVisible()}
 
 
 def show_excitation(win, i):
@@ -88,14 +90,6 @@ def show_excitation(win, i):
 # keys edited by a dropdown of their own rather than a bound field
 STRUCTURAL = {"format", "version", "kind", "material", "mass", "segments", "orders", "cylinders",
               "discs", "links", "excitations", "operating_speed", "scaling"}
-# key families that reached the file format in the same landing as this test and get their
-# editors next (acceptance ratings, load cases, transients, engines, electric lines, gear teeth);
-# this set only ever shrinks
-NOT_YET_EDITABLE = {"load_cases", "permissible_torque_transient", "permissible_stress_transient",
-                    "nominal_torque", "maximum_torque", "permissible_power", "permissible_torque_frequency",
-                    "temperature_factor", "fatigue", "propulsion_shaft", "design_feature", "transients", "sn_curves",
-                    "engine", "lines", "electric_drive", "teeth", "mesh_stiffness", "stiffness_tolerance",
-                    "inertia_tolerance", "weak_excitation_below", "design_options"}
 
 
 def leaf_paths(obj, base=()):
@@ -109,11 +103,9 @@ def leaf_paths(obj, base=()):
         yield base
 
 
-@pytest.mark.parametrize("path", [ENGINE, PROPULSION], ids=["engine_genset", "propulsion_line"])
-def test_every_key_of_the_samples_has_an_editor(qtbot, window, path):
-    """Walk every disc, link and excitation of a sample and collect the document paths the
-    editors on screen are bound to: every value the file holds is among them."""
-    open_sample(qtbot, window, path)
+def reachable_paths(window) -> set:
+    """Every document path an editor on screen is bound to, visiting every disc, link,
+    excitation, load case and transient event."""
     doc = window.project.doc
     reachable = set()
     for d in doc["discs"]:
@@ -124,20 +116,35 @@ def test_every_key_of_the_samples_has_an_editor(qtbot, window, path):
         reachable |= visible_paths(window)
     window.tabs.setCurrentWidget(window.operating_form)
     reachable |= visible_paths(window)
-    for i in range(len(doc["excitations"])):
+    for i in range(len(doc.get("excitations", []))):
         show_excitation(window, i)
         reachable |= visible_paths(window)
+    for form, key in ((window.load_cases_form, "load_cases"), (window.transients_form, "transients")):
+        window.tabs.setCurrentWidget(form)
+        for i in range(len(doc.get(key, []))):
+            form.select(i)
+            reachable |= visible_paths(window)
+    return reachable
+
+
+@pytest.mark.parametrize("path", SAMPLES, ids=[p.stem for p in SAMPLES])
+def test_every_key_of_the_samples_has_an_editor(qtbot, window, path):
+    """Walk every disc, link, excitation, load case and transient event of a sample and collect
+    the document paths the editors on screen are bound to: every value the file holds is among
+    them, or below a table that edits it whole (a pressure curve, a torque table, a firing order)."""
+    open_sample(qtbot, window, path)
+    reachable = reachable_paths(window)
     missing = []
-    for p in leaf_paths(doc):
+    for p in leaf_paths(window.project.doc):
         key = next((k for k in reversed(p) if isinstance(k, str)), None)
         if key in STRUCTURAL or p[-1] in STRUCTURAL:
             continue
-        if any(k in NOT_YET_EDITABLE for k in p if isinstance(k, str)):
-            continue
-        # a plain-number order is edited through its "order" cell
+        # a plain-number order (or output harmonic) is edited through its own cell
         if len(p) == 4 and p[0] == "excitations" and p[2] == "orders":
             p = p + ("order",)
-        if p not in reachable:
+        if len(p) == 5 and p[2:4] == ("electric_drive", "output_harmonics"):
+            p = p + ("harmonic",)
+        if not any(p[:n] in reachable for n in range(len(p), 0, -1)):
             missing.append(p)
     assert not missing, f"no editor for {missing}"
 
@@ -208,11 +215,12 @@ def test_applied_at_is_read_and_replaced_by_at_on_the_first_edit(qtbot, window, 
     p.write_text(json.dumps(doc))
     assert window.open_path(p)
     show_excitation(window, 2)
-    at = widget_at(window, ("excitations", 2, "at"))
+    at = widget_at(window, ("excitations", 2, "applied_at"))  # bound to the key the file holds
     assert at.currentData() == "motor" and at.currentText() == "Motor rotor"
     at.setCurrentIndex(at.findData("impeller"))
     e = window.project.doc["excitations"][2]
     assert e["at"] == "impeller" and "applied_at" not in e and e["x_vendor_note"] == "kept"
+    assert widget_at(window, ("excitations", 2, "at")).currentData() == "impeller"
 
 
 def test_link_damping_one_way_at_a_time_with_the_equivalents(qtbot, window):

@@ -45,8 +45,42 @@ def _set_path(doc, path, value):
         obj[path[-1]] = value
 
 
+#: objects nested at least this deep (("links", 3, "fatigue") is 3) are removed with their
+#: last key: clearing every field of a fatigue check or a mesh-stiffness group leaves no '{}'
+PRUNE_DEPTH = 3
+
+
+def _created_at(doc, path) -> tuple | None:
+    """The shortest prefix of ``path`` that names an object not yet in ``doc`` (setting the
+    value creates it), or None when only the leaf is new."""
+    obj = doc
+    for n, key in enumerate(path[:-1]):
+        if isinstance(obj, dict) and key not in obj:
+            return tuple(path[:n + 1])
+        try:
+            obj = obj[key]
+        except (KeyError, IndexError, TypeError):
+            return None
+    return None
+
+
+def _prune(doc, path) -> None:
+    """Remove the now empty objects holding ``path``'s leaf, deepest first, down to PRUNE_DEPTH."""
+    for n in range(len(path) - 1, PRUNE_DEPTH - 1, -1):
+        parent, key = get_path(doc, path[:n - 1]), path[n - 1]
+        holder = get_path(doc, path[:n])
+        if isinstance(parent, dict) and isinstance(holder, dict) and not holder:
+            parent.pop(key, None)
+        else:
+            return
+
+
 class SetValue(QtGui.QUndoCommand):
-    """One field changed (``value`` None removes the key)."""
+    """One field changed (``value`` None removes the key).
+
+    Undo restores the document exactly: objects the edit created on the way to the
+    key (a first fatigue value creates ``"fatigue": {}``) go again, and objects the
+    removal left empty (and so removed) come back."""
 
     def __init__(self, project: "Project", path: tuple, value, text: str):
         super().__init__(text)
@@ -54,15 +88,23 @@ class SetValue(QtGui.QUndoCommand):
         old = get_path(project.doc, self.path)
         self.old = _MISSING if old is None else copy.deepcopy(old)
         self.new = _MISSING if value is None else copy.deepcopy(value)
+        self.created = None if self.new is _MISSING else _created_at(project.doc, self.path)
         self._done = False  # the first redo is the edit itself; later ones come from the history
 
     def redo(self):
         _set_path(self.project.doc, self.path, _copy(self.new))
+        if self.new is _MISSING:
+            _prune(self.project.doc, self.path)
         self.project._changed(from_history=self._done)
         self._done = True
 
     def undo(self):
-        _set_path(self.project.doc, self.path, _copy(self.old))
+        if self.created is not None:
+            parent = get_path(self.project.doc, self.created[:-1])
+            if isinstance(parent, dict):
+                parent.pop(self.created[-1], None)
+        else:
+            _set_path(self.project.doc, self.path, _copy(self.old))
         self.project._changed(from_history=True)
 
 
@@ -112,6 +154,7 @@ class Project(QtCore.QObject):
         super().__init__(parent)
         self.doc: dict = {}
         self.path: Path | None = None
+        self.base_dir: Path | None = None  # relative file names in the document are read from here
         self.train = None
         self.error: ModelError | None = None
         self.from_history = False
@@ -146,10 +189,20 @@ class Project(QtCore.QObject):
         self.undo_stack.clear()
         self.doc = copy.deepcopy(doc)
         self.path = Path(path) if path else None
+        self.base_dir = self._folder(doc, self.path)
         self.train = None
         self._changed(from_history=True)
         self.undo_stack.setClean()
         self.fileChanged.emit()
+
+    @staticmethod
+    def _folder(doc, path) -> Path | None:
+        """The folder relative file names are read from: the file's, else the folder the
+        document was read from (a sample opened as a new project), else none."""
+        if path is not None:
+            return Path(path).resolve().parent
+        base = getattr(doc, "base_dir", None)
+        return Path(base) if base else None
 
     def open(self, path) -> None:
         """Read a project file (raises ProjectFileError when it is not one); a
@@ -164,7 +217,11 @@ class Project(QtCore.QObject):
             raise ValueError("no file name")
         save_document(target, self.doc)
         self.path = target
+        folder = self._folder(self.doc, target)
         self.undo_stack.setClean()
+        if folder != self.base_dir:  # Save As elsewhere: relative files are read from there now
+            self.base_dir = folder
+            self._changed(from_history=False)
         self.fileChanged.emit()
         return target
 
@@ -190,7 +247,7 @@ class Project(QtCore.QObject):
 
     def rebuild(self) -> None:
         try:
-            train = build_train(self.doc)
+            train = build_train(self.doc, base_dir=self.base_dir)
         except ModelError as exc:
             self._set_error(exc)
             return

@@ -145,7 +145,7 @@ def delete_report(doc: dict, selection: tuple[str, str]) -> tuple[dict, list[str
     links = new.get("links", [])
     if kind == "link":
         new["links"] = [l for l in links if not (isinstance(l, dict) and l.get("id") == ident)]
-        return new, []
+        return new, _fix_link_references(new, ident)
     names = _disc_names(doc)
     new["discs"] = [d for d in new.get("discs", []) if not (isinstance(d, dict) and d.get("id") == ident)]
     touching = [l for l in links if isinstance(l, dict) and ident in (l.get("from"), l.get("to"))]
@@ -345,6 +345,95 @@ def _fix_references(doc: dict, gone: str, names: dict | None = None) -> list[str
     return changes
 
 
+def _fix_link_references(doc: dict, gone: str) -> list[str]:
+    """Everything that named the deleted link ``gone``; returns what changed, in words.
+
+    The places of the file that name a link: its S-N curve (``sn_curves``), the
+    ``design_options`` list and a transient event's ``required_events`` per link
+    (and :func:`rename_link` for a new id).  A new key that names a link belongs here too."""
+    changes = []
+    curves = doc.get("sn_curves")
+    if isinstance(curves, dict) and gone in curves:
+        curves.pop(gone)
+        changes.append(f"removed the S-N curve of link '{gone}'")
+        if not curves:
+            doc.pop("sn_curves")
+    options = doc.get("design_options")
+    if isinstance(options, list) and gone in options:
+        doc["design_options"] = [x for x in options if x != gone]
+        changes.append(f"link '{gone}' is no longer among the design options")
+    for ev in _dicts(doc.get("transients")):
+        req = ev.get("required_events")
+        if isinstance(req, dict) and gone in req:
+            req.pop(gone)
+            changes.append(f"transient event '{ev.get('name') or '(no name)'}' no longer requires a count "
+                           f"of link '{gone}'")
+            if not req:
+                ev.pop("required_events")
+    return changes
+
+
+def _rename_key(mapping: dict, old, new) -> dict:
+    """``mapping`` with key ``old`` renamed ``new``, in the same place."""
+    return {(new if k == old else k): v for k, v in mapping.items()}
+
+
+def rename_link(doc: dict, old: str, new_id: str) -> dict:
+    """Rename a link id everywhere it is referred to (the places :func:`_fix_link_references`
+    visits)."""
+    new = copy.deepcopy(doc)
+    for l in new.get("links", []):
+        if isinstance(l, dict) and l.get("id") == old:
+            l["id"] = new_id
+    if isinstance(new.get("sn_curves"), dict):
+        new["sn_curves"] = _rename_key(new["sn_curves"], old, new_id)
+    if isinstance(new.get("design_options"), list):
+        new["design_options"] = [new_id if x == old else x for x in new["design_options"]]
+    for ev in _dicts(new.get("transients")):
+        if isinstance(ev.get("required_events"), dict):
+            ev["required_events"] = _rename_key(ev["required_events"], old, new_id)
+    return new
+
+
+def rename_excitation(doc: dict, i: int, name) -> dict:
+    """Set excitation ``i``'s name (None removes it) and carry the old name through the load
+    cases that scale it (``excitation_scale`` by name) or name it for a misfire."""
+    new = copy.deepcopy(doc)
+    e = _excitation(new, i)
+    old = e.get("name")
+    if name is None:
+        e.pop("name", None)
+    else:
+        e["name"] = name
+    if old is None or name is None or old == name:
+        return new
+    for lc in _dicts(new.get("load_cases")):
+        if isinstance(lc.get("excitation_scale"), dict):
+            lc["excitation_scale"] = _rename_key(lc["excitation_scale"], old, name)
+        mis = lc.get("misfire")
+        for m in _dicts(mis if isinstance(mis, list) else [mis]):
+            if m.get("excitation") == old:
+                m["excitation"] = name
+    return new
+
+
+def rename_load_case(doc: dict, i: int, name) -> dict:
+    """Set load case ``i``'s name and carry it to the transient torques that name it."""
+    new = copy.deepcopy(doc)
+    lc = new["load_cases"][i]
+    old = lc.get("name")
+    if name is None:
+        lc.pop("name", None)
+    else:
+        lc["name"] = name
+    if old is not None and name is not None and old != name:
+        for ev in _dicts(new.get("transients")):
+            for t in _dicts(ev.get("torques")):
+                if t.get("load_case") == old:
+                    t["load_case"] = name
+    return new
+
+
 def rename_disc(doc: dict, old: str, new_id: str) -> dict:
     """Rename a disc id everywhere it is referred to (the places :func:`_fix_references` visits)."""
     new = copy.deepcopy(doc)
@@ -415,9 +504,22 @@ def add_excitation(doc: dict) -> tuple[dict, int]:
 
 
 def remove_excitation(doc: dict, i: int) -> dict:
+    """Remove excitation ``i``; a load case's scale of it and a misfire naming it go too."""
     new = copy.deepcopy(doc)
-    _excitation(new, i)
+    name = _excitation(new, i).get("name")
     del new["excitations"][i]
+    if name is None:
+        return new
+    for lc in _dicts(new.get("load_cases")):
+        scale = lc.get("excitation_scale")
+        if isinstance(scale, dict) and name in scale:
+            scale.pop(name)
+            if not scale:
+                lc.pop("excitation_scale")
+        mis = lc.get("misfire")
+        for m in _dicts(mis if isinstance(mis, list) else [mis]):
+            if m.get("excitation") == name:
+                m.pop("excitation")
     return new
 
 
@@ -609,4 +711,346 @@ def set_cylinder_value(doc: dict, i: int, k: int, key: str, value) -> dict:
     else:
         c[key] = value
     cyl[k] = c
+    return new
+
+
+# ----------------------------------------------------------------- generic list and object edits
+# The newer key families (engine data, electric lines, load cases, transient events) edit
+# lists of objects inside objects; these take a path (keys and list indices, as the
+# document's) and return a new document, so every edit is one undo step.
+
+def _container(new: dict, path: tuple, create: bool):
+    obj = new
+    for key in path:
+        if isinstance(obj, dict):
+            if key not in obj or obj[key] is None:
+                if not create:
+                    return None
+                obj[key] = {}
+            obj = obj[key]
+        elif isinstance(obj, list) and isinstance(key, int) and 0 <= key < len(obj):
+            obj = obj[key]
+        else:
+            return None
+    return obj
+
+
+def set_at(doc: dict, path: tuple, value) -> dict:
+    """A new document with ``value`` at ``path`` (None: the key removed)."""
+    new = copy.deepcopy(doc)
+    parent = _container(new, tuple(path[:-1]), value is not None)
+    if parent is None:
+        return new
+    if value is None:
+        if isinstance(parent, dict):
+            parent.pop(path[-1], None)
+    else:
+        parent[path[-1]] = copy.deepcopy(value)
+    return new
+
+
+def list_append(doc: dict, path: tuple, item) -> dict:
+    """A new document with ``item`` appended to the list at ``path`` (made when absent)."""
+    new = copy.deepcopy(doc)
+    parent = _container(new, tuple(path[:-1]), True)
+    lst = parent.get(path[-1]) if isinstance(parent, dict) else None
+    if not isinstance(lst, list):
+        lst = [] if not isinstance(lst, dict) else [lst]  # one object where a list may stand
+        parent[path[-1]] = lst
+    lst.append(copy.deepcopy(item))
+    return new
+
+
+def list_remove(doc: dict, path: tuple, index: int, drop_empty: bool = True) -> dict:
+    """A new document without item ``index`` of the list at ``path`` (the key goes with its
+    last item when ``drop_empty``).  A single object where a list may stand is item 0."""
+    new = copy.deepcopy(doc)
+    parent = _container(new, tuple(path[:-1]), False)
+    if not isinstance(parent, dict):
+        return new
+    lst = parent.get(path[-1])
+    if isinstance(lst, dict) and index == 0:
+        parent.pop(path[-1])
+        return new
+    if not isinstance(lst, list) or not 0 <= index < len(lst):
+        return new
+    del lst[index]
+    if not lst and drop_empty:
+        parent.pop(path[-1])
+    return new
+
+
+def next_name(taken, base: str) -> str:
+    """'base 1', 'base 2' ... the first not in ``taken``."""
+    taken = set(taken)
+    n = 1
+    while f"{base} {n}" in taken:
+        n += 1
+    return f"{base} {n}"
+
+
+# ----------------------------------------------------------------- excitation kinds
+#: what an excitation entry is, by the keys it holds
+EXCITATION_SOURCES = ("orders", "fixed", "engine", "lines")
+
+
+def excitation_source(e: dict) -> str:
+    if e.get("frequency") is not None:
+        return "fixed"
+    if e.get("engine") is not None:
+        return "engine"
+    if e.get("lines") is not None or e.get("electric_drive") is not None:
+        return "lines"
+    return "orders"
+
+
+def new_engine(doc: dict, at=None) -> dict:
+    """A starting engine for an excitation turned into one: one cylinder at ``at`` (the first
+    disc), four-stroke, a plain set of data-sheet values an engineer then overwrites, and
+    tangential-pressure coefficients to fill in."""
+    ids = disc_ids(doc)
+    at = at if at in ids else (ids[0] if ids else None)
+    return {"strokes": 4, "bore": "150 mm", "stroke": "180 mm", "connecting_rod": "360 mm",
+            "reciprocating_mass": "5 kg",
+            "tangential_pressure": {"mean_indicated_pressure": "20 bar",
+                                    "orders": [{"order": 0.5, "sin": "1 bar", "cos": "0 bar"}]},
+            "cylinders": [{"name": "1", "at": at, "firing_deg": 0}]}
+
+
+def set_excitation_kind(doc: dict, i: int, source: str, frequency_text: str = "100 Hz") -> dict:
+    """Make excitation ``i`` one of EXCITATION_SOURCES, keeping its name, its disc where the
+    new kind has one, and keys the program does not know."""
+    if source in ("orders", "fixed"):
+        e = _excitation(copy.deepcopy(doc), i)
+        if source == "orders" and excitation_source(e) in ("engine", "lines"):
+            new = copy.deepcopy(doc)
+            e = _excitation(new, i)
+            at = e.get("at")
+            if at is None and isinstance(e.get("engine"), dict):
+                at = next((c.get("at") for c in _dicts(e["engine"].get("cylinders"))), None)
+            for key in ("engine", "lines", "electric_drive"):
+                e.pop(key, None)
+            ids = disc_ids(new)
+            e["at"] = at if at in ids else (new.get("reference") if new.get("reference") in ids
+                                           else (ids[0] if ids else None))
+            if not isinstance(e.get("orders"), list) or not e["orders"]:
+                e["orders"] = [1]
+            return new
+        if source == "fixed" and excitation_source(e) in ("engine", "lines"):
+            doc = set_excitation_kind(doc, i, "orders")
+        return set_excitation_source(doc, i, source, frequency_text)
+    new = copy.deepcopy(doc)
+    e = _excitation(new, i)
+    current = excitation_source(e)
+    if current == source:
+        return new
+    at = excitation_disc(e)
+    for key in ("frequency", "amplitude", "phase_deg", "orders", "cylinders", "at", "applied_at",
+                "engine", "lines", "electric_drive"):
+        e.pop(key, None)
+    if source == "engine":
+        e["engine"] = new_engine(new, at)
+    elif source == "lines":
+        ids = disc_ids(new)
+        e["at"] = at if at in ids else (new.get("reference") if new.get("reference") in ids
+                                       else (ids[0] if ids else None))
+        e["lines"] = [{"frequency_offset": "300 Hz", "order": 6, "combination": "difference"}]
+    else:
+        raise ValueError(source)
+    return new
+
+
+def add_engine_cylinder(doc: dict, i: int) -> dict:
+    """Append an engine cylinder at the disc after the last cylinder's, named by its number;
+    given firing angles or throw angles get a 0 to overwrite."""
+    new = copy.deepcopy(doc)
+    engine = _excitation(new, i).get("engine")
+    cyl = engine.get("cylinders") if isinstance(engine.get("cylinders"), list) else []
+    engine["cylinders"] = cyl
+    ids = disc_ids(new)
+    last = cyl[-1].get("at") if cyl and isinstance(cyl[-1], dict) else None
+    at = ids[ids.index(last) + 1] if last in ids and ids.index(last) + 1 < len(ids) else (
+        last if last is not None else (ids[0] if ids else None))
+    names = {str(c.get("name", k + 1)) for k, c in enumerate(cyl) if isinstance(c, dict)}
+    n = len(cyl) + 1
+    while str(n) in names:
+        n += 1
+    c = {"name": str(n), "at": at}
+    if any(isinstance(x, dict) and "firing_deg" in x for x in cyl):
+        c["firing_deg"] = 0
+    elif any(isinstance(x, dict) and "throw_deg" in x for x in cyl):
+        c["throw_deg"] = 0
+    cyl.append(c)
+    if isinstance(engine.get("firing_order"), list):
+        engine["firing_order"] = engine["firing_order"] + [str(n)]
+    return new
+
+
+def remove_engine_cylinder(doc: dict, i: int, k: int) -> dict:
+    """Remove engine cylinder ``k``; it leaves the firing order and a misfire naming it goes."""
+    new = copy.deepcopy(doc)
+    engine = _excitation(new, i).get("engine")
+    cyl = engine.get("cylinders")
+    gone = cyl.pop(k)
+    name = str(gone.get("name", k + 1)) if isinstance(gone, dict) else None
+    if isinstance(engine.get("firing_order"), list):
+        engine["firing_order"] = [x for x in engine["firing_order"] if str(x) != name]
+    mis = engine.get("misfire")
+    if isinstance(mis, dict) and str(mis.get("cylinder")) == name:
+        engine.pop("misfire")
+    return new
+
+
+def set_engine_gas_source(doc: dict, i: int, source: str) -> dict:
+    """'pressure_curve' or 'tangential_pressure': the engine's gas torque given one way; the
+    other's data go (undo brings them back)."""
+    new = copy.deepcopy(doc)
+    engine = _excitation(new, i).get("engine")
+    if source in engine:
+        return new
+    engine.pop("pressure_curve", None)
+    engine.pop("tangential_pressure", None)
+    if source == "pressure_curve":
+        engine["pressure_curve"] = {"unit": "bar", "points": []}
+    elif source == "tangential_pressure":
+        engine["tangential_pressure"] = {"mean_indicated_pressure": "20 bar",
+                                         "orders": [{"order": 0.5, "sin": "1 bar", "cos": "0 bar"}]}
+    else:
+        raise ValueError(source)
+    return new
+
+
+def set_curve_given_by(doc: dict, i: int, how: str) -> dict:
+    """A pressure curve's points in the file ('points') or read from a CSV file ('file')."""
+    new = copy.deepcopy(doc)
+    curve = _excitation(new, i)["engine"]["pressure_curve"]
+    if how in curve:
+        return new
+    curve.pop("points" if how == "file" else "file", None)
+    curve[how] = "pressure_curve.csv" if how == "file" else []
+    return new
+
+
+def set_electric_drive(doc: dict, i: int, on: bool) -> dict:
+    """Give excitation ``i`` an inverter-fed drive's lines (pole pairs, supply frequency,
+    the output frequency's sixth harmonic) or take them off."""
+    new = copy.deepcopy(doc)
+    e = _excitation(new, i)
+    if on and not isinstance(e.get("electric_drive"), dict):
+        e["electric_drive"] = {"pole_pairs": 2, "supply_frequency": "50 Hz", "output_harmonics": [6]}
+    elif not on:
+        e.pop("electric_drive", None)
+        if e.get("lines") is None:
+            e["lines"] = [{"frequency_offset": "300 Hz", "order": 6, "combination": "difference"}]
+    return new
+
+
+def set_twice_electrical(doc: dict, i: int, on: bool) -> dict:
+    new = copy.deepcopy(doc)
+    drive = _excitation(new, i)["electric_drive"]
+    if on:
+        if not drive.get("twice_electrical"):
+            drive["twice_electrical"] = True
+    else:
+        drive.pop("twice_electrical", None)
+    return new
+
+
+def harmonic_value(h, key: str):
+    """A key of one output harmonic: a plain number or {"harmonic": n, "amplitude": ...}."""
+    if isinstance(h, dict):
+        return h.get(key)
+    return h if key == "harmonic" else None
+
+
+def set_harmonic_value(doc: dict, i: int, j: int, key: str, value) -> dict:
+    """Like :func:`set_order_value` for an electric drive's output harmonic ``j``."""
+    new = copy.deepcopy(doc)
+    hs = _excitation(new, i)["electric_drive"]["output_harmonics"]
+    h = hs[j]
+    d = dict(h) if isinstance(h, dict) else {"harmonic": h}
+    if value is None:
+        d.pop(key, None)
+    else:
+        d[key] = value
+    hs[j] = d.get("harmonic") if set(d) == {"harmonic"} else d
+    return new
+
+
+def set_twice_electrical_value(doc: dict, i: int, key: str, value) -> dict:
+    """Amplitude or phase of the twice-electrical line (``true`` becomes an object and back)."""
+    new = copy.deepcopy(doc)
+    drive = _excitation(new, i)["electric_drive"]
+    te = drive.get("twice_electrical")
+    d = dict(te) if isinstance(te, dict) else {}
+    if value is None:
+        d.pop(key, None)
+    else:
+        d[key] = value
+    drive["twice_electrical"] = d or True
+    return new
+
+
+# ----------------------------------------------------------------- gears
+def set_gear_teeth(doc: dict, li: int, side: int, value) -> dict:
+    """Tooth count ``side`` (0 'from', 1 'to') of gear mesh ``li``.  With both counts the teeth
+    give the speed ratio (a ``speed_ratio`` beside them goes); clearing a count of a complete
+    pair removes the teeth and writes the ratio they gave, so the mesh keeps its ratio."""
+    new = copy.deepcopy(doc)
+    link = new["links"][li]
+    teeth = link.get("teeth")
+    pair = list(teeth) if isinstance(teeth, list) and len(teeth) == 2 else [None, None]
+
+    def whole(z):
+        return isinstance(z, (int, float)) and not isinstance(z, bool) and z > 0
+    if value is None and all(whole(z) for z in pair):
+        link.pop("teeth")
+        link.setdefault("speed_ratio", float(f"{pair[0] / pair[1]:.12g}"))
+        return new
+    pair[side] = value
+    if all(z is None for z in pair):
+        link.pop("teeth", None)
+    elif all(whole(z) for z in pair):
+        link["teeth"] = [int(z) if float(z).is_integer() else z for z in pair]
+        link.pop("speed_ratio", None)
+    else:
+        link["teeth"] = pair  # half given: the model names the missing count
+    return new
+
+
+MESH_DEFINITIONS = ("rigid", "stiffness", "tooth_data")
+
+
+def mesh_definition(link: dict) -> str:
+    if isinstance(link.get("mesh_stiffness"), dict):
+        return "tooth_data"
+    return "stiffness" if link.get("stiffness") is not None else "rigid"
+
+
+def set_mesh_definition(doc: dict, li: int, how: str) -> dict:
+    """A gear mesh rigid, with a torsional stiffness, or with its stiffness from the mesh
+    stiffness per face width, the face width and a base radius."""
+    new = copy.deepcopy(doc)
+    link = new["links"][li]
+    if mesh_definition(link) == how:
+        return new
+    link.pop("stiffness", None)
+    link.pop("mesh_stiffness", None)
+    if how == "stiffness":
+        link["stiffness"] = "300 MN*m/rad"
+    elif how == "tooth_data":
+        link["mesh_stiffness"] = {"c_gamma": "20 N/(mm*um)", "face_width": "80 mm", "base_radius_from": "100 mm"}
+    elif how != "rigid":
+        raise ValueError(how)
+    return new
+
+
+def set_either(doc: dict, path: tuple, key: str, other: str) -> dict:
+    """Give an object's value as ``key`` instead of ``other`` (stroke or crank radius, base radius
+    of either gear ...): the value moves across unchanged; the caller converts if needed."""
+    new = copy.deepcopy(doc)
+    obj = _container(new, tuple(path), False)
+    if isinstance(obj, dict) and other in obj and key not in obj:
+        value = obj.pop(other)
+        obj[key] = value
     return new

@@ -23,11 +23,13 @@ from PySide6 import QtCore, QtWidgets
 from core import units as u
 from core.materials import LIBRARY
 from core.model import GROUND, LINK_KINDS, MASS_MODELS
+from core.shafting import DESIGN_FACTORS, POSITIONS, SURFACE_FINISH
 
 from . import edits, theme
 from .canvas import link_stiffness_si
-from .editors import (CHOICE, NUMBER, TEXT, TIPS, Field, Spec, add_spec_rows, disc_choices, labelled,
-                      show_spec_value, stored_value, tip)
+from .editors import (CHOICE, FRACTION, NUMBER, PERCENT, TEXT, TIPS, TOLERANCE, Field, RowsEditor, Spec,
+                      add_spec_rows, disc_choices, labelled, problem_label, show_spec_value, stored_value, tip,
+                      with_default)
 from .editors import ERROR_STYLE, text_problem  # noqa: F401 (re-exported: forms used to define them)
 from .quantities import _read, display_text, read_si  # noqa: F401 (re-exported)
 
@@ -309,7 +311,11 @@ class LinkTable(DocTable):
                 note = ("from geometry: " + display_text(k, u.STIFFNESS, self.system)) if k else "from geometry"
                 return None, False, note
             if kind == "gear_mesh":
+                if isinstance(obj.get("mesh_stiffness"), dict):
+                    return None, False, "from tooth data"
                 return None, True, "rigid"
+            if kind == "coupling" and obj.get("damping") is not None:
+                return None, True, "none (damping only)"
         if key == "speed_ratio" and kind != "gear_mesh":
             return None, False, "—"
         if key == "mass" and kind != "shaft":
@@ -322,7 +328,7 @@ class LinkTable(DocTable):
         if self._updating:
             return
         meta = self._meta.get((item.row(), item.column()))
-        if meta and meta[0][-1] == "stiffness" and item.text() == "rigid":
+        if meta and meta[0][-1] == "stiffness" and item.text() in ("rigid", "none (damping only)"):
             return
         super()._item_changed(item)
 
@@ -334,11 +340,13 @@ def _shaft_or_given(key):
     return lambda obj: obj.get("kind") == "shaft" or obj.get(key) is not None
 
 
+TOLERANCE_HINT = "e.g. 20 %"  # the pair form is in the tooltip (a long hint is cut)
 DISC_SPECS = [
     Spec("id", "Id", TEXT, "id", optional=False),
     Spec("name", "Name", TEXT, "name"),
     Spec("inertia", "Inertia", u.INERTIA, "inertia", optional=False),
     Spec("damping", "Damping to ground", u.DAMPING, "disc.damping"),
+    Spec("inertia_tolerance", "Inertia tolerance", TOLERANCE, "inertia_tolerance", placeholder=TOLERANCE_HINT),
 ]
 LINK_HEAD_SPECS = [
     Spec("id", "Id", TEXT, "id", optional=False),
@@ -348,18 +356,122 @@ LINK_END_SPECS = [
     Spec("from", "From (input)", CHOICE, "from", choices=lambda doc: disc_choices(doc, [(GROUND, GROUND)])),
     Spec("to", "To (output)", CHOICE, "to", choices=lambda doc: disc_choices(doc, [(GROUND, GROUND)])),
 ]
+def _has_teeth(obj) -> bool:
+    return obj.get("teeth") is not None
+
+
 GEAR_SPECS = [
-    Spec("speed_ratio", "Speed ratio\n(output / input)", NUMBER, "speed_ratio", optional=False),
-    Spec("stiffness", "Mesh stiffness", u.STIFFNESS, "stiffness", placeholder="rigid"),
+    Spec("speed_ratio", "Speed ratio\n(output / input)", NUMBER, "speed_ratio", optional=False,
+         applies=lambda o: not _has_teeth(o) or o.get("speed_ratio") is not None),
 ]
+MESH_STIFFNESS_SPECS = [
+    Spec("c_gamma", "Mesh stiffness\nper face width c_γ", u.MESH_STIFFNESS, "mesh.c_gamma", optional=False),
+    Spec("face_width", "Face width", u.LENGTH, "mesh.face_width", optional=False),
+    Spec("base_radius_from", "Base radius,\n'from' gear", u.LENGTH, "mesh.base_radius_from",
+         enabled=lambda o: o.get("base_radius_to") is None, placeholder="or the 'to' gear's"),
+    Spec("base_radius_to", "Base radius,\n'to' gear", u.LENGTH, "mesh.base_radius_to",
+         enabled=lambda o: o.get("base_radius_from") is None, placeholder="or the 'from' gear's"),
+]
+#: how a gear mesh's stiffness is given (edits.MESH_DEFINITIONS)
+MESH_DEFINITION_LABELS = {"rigid": "rigid", "stiffness": "given stiffness", "tooth_data": "tooth data"}
 LINK_DAMPING_SPECS = [Spec("damping", "Viscous damping", u.DAMPING, "link.damping")]
 LINK_LIMIT_SPECS = [
     Spec("permissible_torque", "Permissible torque", u.TORQUE, "permissible_torque"),
+    Spec("permissible_torque_transient", "Permissible torque,\npassing through", u.TORQUE,
+         "permissible_torque_transient", placeholder="as continuous"),
     Spec("permissible_stress", "Permissible stress", u.STRESS, "permissible_stress",
          applies=_shaft_or_given("permissible_stress")),
+    Spec("permissible_stress_transient", "Permissible stress,\npassing through", u.STRESS,
+         "permissible_stress_transient", applies=_shaft_or_given("permissible_stress_transient"),
+         placeholder="as continuous"),
     Spec("stress_concentration", "Stress concen-\ntration factor", NUMBER, "stress_concentration",
          applies=_shaft_or_given("stress_concentration"), placeholder="1"),
 ]
+TOLERANCE_SPECS = [Spec("stiffness_tolerance", "Stiffness tolerance", TOLERANCE, "stiffness_tolerance",
+                        placeholder=TOLERANCE_HINT)]
+COUPLING_KEYS = ("nominal_torque", "maximum_torque", "permissible_power", "permissible_torque_frequency",
+                 "temperature_factor")
+COUPLING_SPECS = [
+    Spec("nominal_torque", "Nominal torque T_KN", u.TORQUE, "nominal_torque"),
+    Spec("maximum_torque", "Maximum torque T_Kmax", u.TORQUE, "maximum_torque"),
+    Spec("permissible_power", "Permissible power\nloss P_KV", u.POWER, "permissible_power"),
+    Spec("permissible_torque_frequency", "Permissible torque\nholds at", u.FREQUENCY,
+         "permissible_torque_frequency", placeholder="10 Hz", words=("none",)),
+    Spec("temperature_factor", "Temperature factor S_t", NUMBER, "temperature_factor", placeholder="1"),
+]
+
+
+def _label(key: str) -> str:
+    return key.replace("_", " ")
+
+
+FATIGUE_SPECS = [
+    Spec("criterion", "Criterion", CHOICE, "fatigue.criterion",
+         choices=lambda doc: [("goodman", "Goodman"), ("soderberg", "Soderberg")], default="goodman"),
+    Spec("surface", "Surface finish", CHOICE, "fatigue.surface",
+         choices=lambda doc: [(k, _label(k)) for k in SURFACE_FINISH], default="machined"),
+    Spec("reliability_percent", "Reliability, %", PERCENT, "fatigue.reliability_percent", placeholder="50"),
+    Spec("temperature_factor", "Temperature factor k_d", NUMBER, "fatigue.temperature_factor", placeholder="1"),
+    Spec("required_safety_factor", "Required safety\nfactor", NUMBER, "fatigue.required_safety_factor",
+         placeholder="1.5"),
+]
+DESIGN_FEATURE_CHOICES = [(k, _label(k)) for k in DESIGN_FACTORS]  # C_K in each item's tooltip
+PROPULSION_SPECS = [
+    Spec("position", "Propulsion shaft\nrule", CHOICE, "propulsion.position",
+         choices=lambda doc: with_default([(p, p) for p in POSITIONS], "not applied")),
+    Spec("design_feature", "Design feature", CHOICE, "propulsion.design_feature",
+         choices=lambda doc: with_default(DESIGN_FEATURE_CHOICES, "(or give C_K)"),
+         enabled=lambda o: o.get("shaft_design_factor") is None),
+    Spec("shaft_design_factor", "Shaft-design\nfactor C_K", NUMBER, "propulsion.shaft_design_factor",
+         enabled=lambda o: o.get("design_feature") is None, placeholder="from the feature"),
+    Spec("tensile_strength", "Tensile strength", u.STRESS, "propulsion.tensile_strength",
+         placeholder="the material's"),
+]
+SEGMENT_FEATURE_SPECS = [
+    Spec("design_feature", "Design feature", CHOICE, "segment.design_feature", width=110,
+         choices=lambda doc: with_default(DESIGN_FEATURE_CHOICES, "the shaft's"),
+         enabled=lambda o: isinstance(o, dict) and o.get("shaft_design_factor") is None),
+    Spec("shaft_design_factor", "C_K", NUMBER, "segment.shaft_design_factor", width=50,
+         enabled=lambda o: isinstance(o, dict) and o.get("design_feature") is None),
+]
+STRENGTH_SPECS = [
+    Spec("tensile_strength", "Tensile strength", u.STRESS, "tensile_strength"),
+    Spec("yield_strength", "Yield strength", u.STRESS, "yield_strength"),
+    Spec("torsional_endurance_limit", "Torsional endur-\nance limit", u.STRESS, "torsional_endurance_limit"),
+    Spec("steel", "Steel", CHOICE, "steel",
+         choices=lambda doc: with_default([("carbon", "carbon steel"), ("alloy", "alloy steel"),
+                                           ("stainless", "stainless steel")], "(not a steel / not given)")),
+]
+SN_SPECS = [
+    Spec("endurance_limit", "Endurance limit", u.STRESS, "sn.endurance_limit", optional=False),
+    Spec("slope", "Slope k", NUMBER, "sn.slope", optional=False),
+    Spec("knee_cycles", "Knee at cycles", NUMBER, "sn.knee_cycles", optional=False),
+    Spec("slope_after_knee", "Slope beyond\nthe knee", NUMBER, "sn.slope_after_knee", placeholder="none"),
+    Spec("source", "Source", TEXT, "sn.source"),
+]
+
+
+def gear_note(obj: dict, system: str) -> str:
+    """What the teeth and the mesh stiffness give, and which shaft the stiffness and torque are
+    referred to (core.gears), in words; '' where the values do not read yet."""
+    from core.gears import gear_mesh_fields, hunting_tooth_order
+    try:
+        k = u.parse(obj["stiffness"], u.STIFFNESS) if obj.get("stiffness") is not None else None
+        ratio, teeth, k = gear_mesh_fields(obj, "link", k)
+    except Exception:
+        return ""
+    out = []
+    if teeth is not None:
+        zf, zt = teeth
+        out.append(f"Teeth {zf}/{zt}: speed ratio {ratio:.6g}; mesh order {zf} of the 'from' shaft; "
+                   f"hunting-tooth order {hunting_tooth_order(zf, zt):.4g} of the 'from' shaft.")
+    if k is None:
+        out.append("Rigid mesh: the two gears turn together at the speed ratio.")
+    else:
+        out.append(f"Stiffness {display_text(k, u.STIFFNESS, system)} referred to the 'from' shaft "
+                   f"({display_text(k / ratio ** 2, u.STIFFNESS, system)} on the 'to' shaft); the mesh "
+                   "torque is reported on the 'from' shaft.")
+    return " ".join(out)
 #: how each material-damping key is offered (edits.DAMPING_KEYS)
 DAMPING_CHOICES = [(None, "none"), ("loss_factor", "loss factor η"),
                    ("relative_damping", "ψ (relative)"), ("dynamic_magnifier", "magnifier M")]
@@ -403,6 +515,7 @@ class PropertyForm(QtWidgets.QScrollArea):
         self._damping_choice: dict = {}  # link id -> damping key chosen while no value is given
         self._project = _NoProject
         self.damping_box = self.damping_note = None
+        self.segment_features = self.gear_note = None
         self._body = QtWidgets.QWidget()
         self.setWidget(self._body)
         QtWidgets.QVBoxLayout(self._body)
@@ -421,6 +534,7 @@ class PropertyForm(QtWidgets.QScrollArea):
         self._fields = []
         self._specs = []
         self.damping_box = self.damping_note = None
+        self.segment_features = self.gear_note = None
 
     def _placeholder(self):
         self._clear()
@@ -451,7 +565,8 @@ class PropertyForm(QtWidgets.QScrollArea):
             self._signature = sig
             self._build(obj, index, selection, project)
         for spec, w, _base in self._specs:
-            show_spec_value(w, spec, doc, obj, _get(doc, w.path), system,
+            holder = _get(doc, w.path[:-1])  # the object the key sits in (a nested one too)
+            show_spec_value(w, spec, doc, holder if isinstance(holder, dict) else {}, _get(doc, w.path), system,
                             self._model_problem(project, w.path), force)
         for f in self._fields:
             f.show_value(_get(doc, f.path), system, self._model_problem(project, f.path), force)
@@ -459,6 +574,15 @@ class PropertyForm(QtWidgets.QScrollArea):
             key = self._damping_key(obj)
             text = damping_equivalents(key, obj.get(key) if key else None)
             self.damping_note.setText(text or "equivalents: —")
+        if self.segment_features is not None:
+            element = f"link '{obj.get('id')}'"
+            self.segment_features.show_rows(
+                doc, ("links", index, "segments"), obj.get("segments") or [], system,
+                lambda r, key: project.error_at(f"{element} segment {r + 1}", key), force)
+        if self.gear_note is not None:
+            text = gear_note(obj, system)
+            self.gear_note.setText(text)
+            self.gear_note.setVisible(bool(text))
 
     @staticmethod
     def _find(doc, selection):
@@ -474,24 +598,55 @@ class PropertyForm(QtWidgets.QScrollArea):
         return edits.damping_key(obj) or self._damping_choice.get(obj.get("id"))
 
     def _structure(self, doc, obj, selection, index, system):
+        """What the form's layout depends on (it is rebuilt when this changes)."""
         segs = obj.get("segments")
         mat = obj.get("material")
-        shown = tuple(spec.key for spec in LINK_LIMIT_SPECS if spec.shown_for(obj))
+        shown = tuple(spec.key for spec in LINK_LIMIT_SPECS + GEAR_SPECS if spec.shown_for(obj))
         return (selection, index, system, obj.get("kind"), obj.get("stiffness") is None,
                 len(segs) if isinstance(segs, list) else None, isinstance(mat, dict),
                 mat if isinstance(mat, str) else None, obj.get("mass"), shown,
-                self._damping_key(obj) if selection[0] == "link" else None)
+                self._damping_key(obj) if selection[0] == "link" else None,
+                edits.mesh_definition(obj), _has_teeth(obj), self._shows_coupling(obj),
+                self._shows_fatigue(obj), isinstance(obj.get("propulsion_shaft"), dict),
+                self._segment_features(obj), self._sn_curve(doc, obj) is not None)
+
+    @staticmethod
+    def _shows_coupling(obj) -> bool:
+        return obj.get("kind") == "coupling" or any(obj.get(k) is not None for k in COUPLING_KEYS)
+
+    @staticmethod
+    def _geometric(obj) -> bool:
+        return obj.get("kind") == "shaft" and obj.get("stiffness") is None and obj.get("segments") is not None
+
+    def _shows_fatigue(self, obj) -> bool:
+        return self._geometric(obj) or obj.get("fatigue") is not None
+
+    @staticmethod
+    def _segment_features(obj) -> bool:
+        segs = obj.get("segments") if isinstance(obj.get("segments"), list) else []
+        return isinstance(obj.get("propulsion_shaft"), dict) or any(
+            isinstance(x, dict) and (x.get("design_feature") is not None or x.get("shaft_design_factor") is not None)
+            for x in segs)
+
+    @staticmethod
+    def _sn_curve(doc, obj):
+        curves = doc.get("sn_curves")
+        return curves.get(obj.get("id")) if isinstance(curves, dict) else None
 
     def _model_problem(self, project, path):
+        """The model's problem for the widget bound to ``path`` (core names nested keys
+        'fatigue.criterion', 'material.density', 'mesh_stiffness.c_gamma' ...)."""
         obj, _ = self._find(self._doc, self.selection)
         if obj is None:
             return None
+        if path[0] == "sn_curves":
+            return project.error_at(f"S-N curve of link '{path[1]}'", path[-1])
         element = f"{self.selection[0]} '{obj.get('id')}'"
         if len(path) >= 4 and path[2] == "segments":
             return project.error_at(f"{element} segment {path[3] + 1}", path[-1])
-        if len(path) >= 4 and path[2] == "material":
-            return project.error_at(element, f"material.{path[-1]}")
-        return project.error_at(element, path[-1])
+        if len(path) >= 3 and path[2] == "teeth":
+            return project.error_at(element, "teeth")
+        return project.error_at(element, ".".join(str(k) for k in path[2:]))
 
     def _add_specs(self, form, specs, base, obj):
         for spec, w in add_spec_rows(form, specs, base, obj, self.system, self._commit):
@@ -528,11 +683,16 @@ class PropertyForm(QtWidgets.QScrollArea):
             if value:
                 self.renameRequested.emit(self.selection[1], str(value))
             return
+        if path[-2:] == ("propulsion_shaft", "position") and value is None:
+            self.replaceRequested.emit(edits.set_at(self._doc, path[:-1], None),
+                                       f"No propulsion shafting rule for '{obj.get('id')}'")
+            return
         self.editRequested.emit(path, value, f"Edit {self.selection[0]} '{obj.get('id')}' {path[-1]}")
 
     @staticmethod
     def _section(lay, text):
         lab = QtWidgets.QLabel(text)
+        lab.setWordWrap(True)  # a narrow pane wraps the heading rather than widening the form
         lab.setFont(theme.font(theme.BASE_POINT_SIZE, bold=True))
         lay.addWidget(lab)
         form = _narrow_form()
@@ -560,6 +720,7 @@ class PropertyForm(QtWidgets.QScrollArea):
         self._combo(form, "Kind", list(LINK_KINDS), obj.get("kind"), "kind", self._change_kind)
         self._add_specs(form, LINK_END_SPECS, base, obj)
         lk = obj.get("kind")
+        tail = form  # where the stiffness tolerance goes: after the stiffness or the material
         if lk == "shaft":
             geometry = obj.get("stiffness") is None and obj.get("segments") is not None
             self._combo(form, "Defined by", ["given stiffness", "geometry"],
@@ -572,15 +733,20 @@ class PropertyForm(QtWidgets.QScrollArea):
                 names = list(LIBRARY) + ["custom"]
                 current = "custom" if isinstance(mat, dict) else (mat or "carbon_steel")
                 self._combo(form2, "Material", names, current, "material", self._change_material)
+                tail = form2
                 if isinstance(mat, dict):
                     self._add_field(form2, "Shear modulus", base + ("material", "shear_modulus"), u.MODULUS,
                                     "shear_modulus", optional=False)
                     self._add_field(form2, "Density", base + ("material", "density"), u.DENSITY, "density",
                                     optional=False)
+                    self._add_specs(form2, STRENGTH_SPECS, base + ("material",), mat)
                 elif mat in LIBRARY:
                     m = LIBRARY[mat]
+                    strengths = ""
+                    if getattr(m, "tensile_strength", None):
+                        strengths = f", R_m = {display_text(m.tensile_strength, u.STRESS, self.system)}"
                     note = QtWidgets.QLabel(f"G = {display_text(m.shear_modulus, u.MODULUS, self.system)}, "
-                                            f"ρ = {display_text(m.density, u.DENSITY, self.system)}")
+                                            f"ρ = {display_text(m.density, u.DENSITY, self.system)}{strengths}")
                     note.setToolTip(m.source)
                     note.setWordWrap(True)
                     note.setStyleSheet(f"color: {theme.INK_MUTED};")
@@ -591,15 +757,108 @@ class PropertyForm(QtWidgets.QScrollArea):
             else:
                 self._add_field(form, "Stiffness", base + ("stiffness",), u.STIFFNESS, "stiffness", optional=False)
         elif lk == "coupling":
-            self._add_field(form, "Stiffness", base + ("stiffness",), u.STIFFNESS, "stiffness", optional=False)
+            f = self._add_field(form, "Stiffness", base + ("stiffness",), u.STIFFNESS, "coupling.stiffness")
+            f.set_fixed_placeholder("none")
         else:
-            self._add_specs(form, GEAR_SPECS, base, obj)
+            self._gear(form, lay, obj, base)
+        self._add_specs(tail, TOLERANCE_SPECS, base, obj)
         damping = self._section(lay, "Damping")
         self._add_specs(damping, LINK_DAMPING_SPECS, base, obj)
         self._material_damping(damping, obj, base)
         limits = self._section(lay, "Limits")
         self._add_specs(limits, LINK_LIMIT_SPECS, base, obj)
+        if self._shows_coupling(obj):
+            ratings = self._section(lay, "Coupling ratings (data sheet)")
+            self._add_specs(ratings, COUPLING_SPECS, base, obj)
+        if self._shows_fatigue(obj):
+            fatigue = self._section(lay, "Fatigue check")
+            self._add_specs(fatigue, FATIGUE_SPECS, base + ("fatigue",), obj.get("fatigue") or {})
+        if self._geometric(obj) or obj.get("propulsion_shaft") is not None:
+            rule = self._section(lay, "Propulsion shafting")
+            prop = obj.get("propulsion_shaft") if isinstance(obj.get("propulsion_shaft"), dict) else {}
+            specs = PROPULSION_SPECS if isinstance(obj.get("propulsion_shaft"), dict) else PROPULSION_SPECS[:1]
+            self._add_specs(rule, specs, base + ("propulsion_shaft",), prop)
+            if self._segment_features(obj):
+                head = QtWidgets.QLabel("Per segment (empty: the shaft's)")
+                head.setWordWrap(True)
+                head.setStyleSheet(f"color: {theme.INK_MUTED};")
+                lay.addWidget(head)
+                self.segment_features = RowsEditor(SEGMENT_FEATURE_SPECS, "", "segment", fixed=True)
+                self.segment_features.committed.connect(self._commit)
+                lay.addWidget(self.segment_features)
+        if lk == "shaft" or self._sn_curve(self._doc, obj) is not None:
+            self._sn_section(lay, obj)
         lay.addStretch(1)
+
+    def _gear(self, form, lay, obj, base):
+        """Teeth, speed ratio, how the mesh stiffness is given, and what they give."""
+        li = base[1]
+        teeth = obj.get("teeth") if isinstance(obj.get("teeth"), list) else []
+        row = QtWidgets.QHBoxLayout()
+        row.setSpacing(4)
+        boxes = QtWidgets.QVBoxLayout()
+        boxes.setSpacing(1)
+        lab = QtWidgets.QLabel("Teeth\n('from' / 'to')")
+        for side, key in enumerate(("teeth.from", "teeth.to")):
+            f = Field(base + ("teeth", side), NUMBER, key, self.system)
+            f.set_fixed_placeholder("z_from" if side == 0 else "z_to")
+            f.setMinimumWidth(50)
+            f.committed.connect(lambda _p, v, side=side: self._teeth_changed(li, side, v))
+            row.addWidget(f)
+            self._fields.append(f)
+            if side == 0:
+                f.add_label(lab)
+        boxes.addLayout(row)
+        for f in self._fields[-2:]:
+            boxes.addWidget(f.problem_label)
+        form.addRow(lab, boxes)
+        self._add_specs(form, GEAR_SPECS, base, obj)
+        how = edits.mesh_definition(obj)
+        labels = list(MESH_DEFINITION_LABELS.values())
+        box = self._combo(form, "Mesh stiffness", labels, MESH_DEFINITION_LABELS[how], "stiffness",
+                          lambda t: self._mesh_definition(li, t))
+        box.setToolTip("How the mesh stiffness is given: none (a rigid mesh), a torsional stiffness "
+                       "referred to the 'from' shaft, or from the gears' tooth data.")
+        if how == "stiffness":
+            self._add_field(form, "Stiffness", base + ("stiffness",), u.STIFFNESS, "stiffness", optional=False)
+        elif how == "tooth_data":
+            self._add_specs(form, MESH_STIFFNESS_SPECS, base + ("mesh_stiffness",), obj.get("mesh_stiffness"))
+        self.gear_note = QtWidgets.QLabel()
+        self.gear_note.setWordWrap(True)
+        self.gear_note.setStyleSheet(f"color: {theme.INK_MUTED};")
+        form.addRow(self.gear_note)
+
+    def _sn_section(self, lay, obj):
+        form = self._section(lay, "S-N curve (transients)")
+        base = ("sn_curves", obj.get("id"))
+        curve = self._sn_curve(self._doc, obj)
+        if curve is None:
+            add = QtWidgets.QPushButton("Add an S-N curve")
+            add.setToolTip("Without one the shaft's material curve is used for the transients' fatigue count")
+            add.clicked.connect(lambda: self.replaceRequested.emit(
+                edits.set_at(self._doc, base, {"endurance_limit": "100 MPa", "slope": 8, "knee_cycles": 1e6}),
+                f"S-N curve of '{obj.get('id')}'"))
+            form.addRow(add)
+            return
+        self._add_specs(form, SN_SPECS, base, curve if isinstance(curve, dict) else {})
+        rm = QtWidgets.QPushButton("Remove the S-N curve")
+        rm.clicked.connect(lambda: self.replaceRequested.emit(edits.set_at(self._doc, base, None),
+                                                              f"Remove the S-N curve of '{obj.get('id')}'"))
+        form.addRow(rm)
+
+    def _teeth_changed(self, li, side, value):
+        link = self._doc["links"][li]
+        teeth = link.get("teeth") if isinstance(link.get("teeth"), list) else [None, None]
+        if len(teeth) == 2 and teeth[side] == value:
+            return
+        self.replaceRequested.emit(edits.set_gear_teeth(self._doc, li, side, value),
+                                   f"Teeth of '{link.get('id')}'")
+
+    def _mesh_definition(self, li, label):
+        how = next(k for k, v in MESH_DEFINITION_LABELS.items() if v == label)
+        link = self._doc["links"][li]
+        self.replaceRequested.emit(edits.set_mesh_definition(self._doc, li, how),
+                                   f"Mesh stiffness of '{link.get('id')}' as {label}")
 
     def _material_damping(self, form, obj, base):
         """One of loss factor, relative damping or dynamic magnifier; the equivalents shown."""
@@ -782,7 +1041,25 @@ OPERATING_LEFT = [
     Spec("description", "Description", TEXT, "description"),
     Spec("reference", "Reference disc", CHOICE, "reference", choices=lambda doc: disc_choices(doc)),
     Spec("margin_percent", "Required margin, %", NUMBER, "margin_percent", placeholder="10"),
+    Spec("weak_excitation_below", "Weak excitation\nbelow", FRACTION, "weak_excitation_below",
+         placeholder="e.g. 20 % (empty: none)"),
 ]
+
+
+def element_choices(doc: dict) -> list[tuple[str, str]]:
+    """(id, label) of every disc and every link that has a stiffness to choose (not a rigid
+    gear mesh), named as the design options show them."""
+    out = [(i, f"disc: {label}") for i, label in disc_choices(doc)]
+    for l in doc.get("links", []) or []:
+        if not isinstance(l, dict) or l.get("id") is None:
+            continue
+        if l.get("kind") == "gear_mesh" and edits.mesh_definition(l) == "rigid":
+            continue
+        out.append((l["id"], f"{str(l.get('kind', 'link')).replace('_', ' ')}: {l.get('name') or l['id']}"))
+    return out
+
+
+DESIGN_OPTION_SPECS = [Spec("", "Element", CHOICE, "design_options", choices=element_choices)]
 SPEED_SPECS = [
     Spec("name", "Range name", TEXT, "speed.name"),
     Spec("min", "Minimum speed", u.SPEED, "speed.min", optional=False),
@@ -817,6 +1094,18 @@ class OperatingForm(QtWidgets.QWidget):
             self._specs.append((spec, w))
         self.fields = [w for _s, w in self._specs if isinstance(w, Field)]
         self.reference = next(w for s, w in self._specs if s.key == "reference")
+        head = QtWidgets.QLabel("Design options: elements whose admissible values are shown "
+                                "(every coupling's are)")
+        head.setWordWrap(True)
+        head.setFont(theme.font(theme.BASE_POINT_SIZE, bold=True))
+        head.setToolTip(TIPS["design_options"])
+        outer.addWidget(head)
+        self.design_options = RowsEditor(DESIGN_OPTION_SPECS, "Add element", "element")
+        self.design_options.committed.connect(self._commit)
+        self.design_options.addRequested.connect(self._add_design_option)
+        self.design_options.removeRequested.connect(lambda r: self.replaceRequested.emit(
+            edits.list_remove(self._doc, ("design_options",), r), "Remove a design option"))
+        outer.addWidget(self.design_options)
         self.problem = QtWidgets.QLabel()
         self.problem.setWordWrap(True)
         self.problem.setStyleSheet(f"color: {theme.FAIL};")
@@ -825,15 +1114,35 @@ class OperatingForm(QtWidgets.QWidget):
         outer.addStretch(1)
 
     def _commit(self, path, value):
-        label = next((s.label for s, w in self._specs if w.path == tuple(path)), path[-1])
+        label = next((s.label for s, w in self._specs if w.path == tuple(path)), None)
+        label = label or ("design option" if path[0] == "design_options" else str(path[-1]))
         self.editRequested.emit(path, value, f"Edit {label.lower()}")
 
+    def _add_design_option(self):
+        taken = self._doc.get("design_options") if isinstance(self._doc.get("design_options"), list) else []
+        free = [i for i, _l in element_choices(self._doc) if i not in taken]
+        links = {l.get("id") for l in self._doc.get("links", []) or [] if isinstance(l, dict)}
+        free.sort(key=lambda i: i not in links)  # a link (a stiffness) first
+        if free:
+            self.replaceRequested.emit(edits.list_append(self._doc, ("design_options",), free[0]),
+                                       "Add a design option")
+
     def refresh(self, doc, project, system, force: bool = False):
+        import re
         self._doc, self.system = doc, system
         for spec, w in self._specs:
             key = ".".join(str(p) for p in w.path)
             problem = project.error_at("operating data", key) if w.path[0] != "title" else None
             show_spec_value(w, spec, doc, doc, _get(doc, w.path), system, problem, force)
+        options = doc.get("design_options") if isinstance(doc.get("design_options"), list) else []
+        option_problem = project.error_at("train", "design_options")
+        entry = re.search(r"entry (\d+)", option_problem or "")
+        self.design_options.show_rows(
+            doc, ("design_options",), options, system,
+            lambda r, key: option_problem if option_problem and (entry is None or int(entry.group(1)) == r + 1)
+            else None, force)
+        self.design_options.add_button.setEnabled(
+            any(i not in options for i, _l in element_choices(doc)))
         err = project.error
         msg = None
         if err is not None and err.element == "operating data" and not any(

@@ -21,6 +21,7 @@ from core.errors import ModelError
 from core.project import ProjectFileError, backup_paths, load_document
 
 from .. import formatting as fmt
+from ..wording import headline
 from . import edits, theme
 from .canvas import TrainCanvas
 from .compute import ResultsRunner
@@ -28,6 +29,8 @@ from .document import Project
 from .editors import Field, disc_choices
 from .excitations_form import ExcitationsForm
 from .forms import DiscTable, LinkTable, OperatingForm, PropertyForm
+from .loads_form import LoadCasesForm
+from .transients_form import TransientsForm
 
 SAMPLES_DIR = Path(__file__).resolve().parent.parent.parent / "sample_projects"
 DEFAULT_SAMPLE = SAMPLES_DIR / "compressor_train.json"
@@ -48,6 +51,38 @@ def modes_status(res) -> str:
         if m:
             text += f" ({m} above the screening limit)"
     return text
+
+
+def headline_summary(study) -> tuple[str, bool | None]:
+    """A status-bar verdict from the headline (:func:`app.wording.headline`): its first word
+    (PASS, FAIL, OPEN) with what it rests on, and its colour value."""
+    if study is None:
+        return "no results", None
+    try:
+        text, ok = headline(study)
+    except Exception as exc:  # never a traceback in the status bar
+        return f"no verdict ({type(exc).__name__})", None
+    word = text.split(" — ", 1)[0]
+    s = study.screening
+    if s is None or getattr(study, "screening_error", None) is not None:
+        return ("no screening (no operating data)" if s is None else "no verdict (cannot screen)"), None
+    parts = []
+    arg = getattr(study, "argument", None) if not s.passed else None
+    if arg is not None:
+        for basis, what in (("forced_response", "accepted on the forced response"), ("fail", "failing"),
+                            ("open", "not yet accepted")):
+            n = len(arg.forced_response) if basis == "forced_response" else sum(
+                1 for m in arg.modes if m.basis == basis)
+            if n:
+                parts.append(f"{n} mode{'s' if n != 1 else ''} {what}")
+    elif not s.passed:
+        parts.append(f"{len(s.failures)} inside the margin")
+    if ok is not True and getattr(study, "acceptance_failed", False):
+        n = len(study.acceptance.failures)
+        parts.append(f"{n} check{'s' if n != 1 else ''} fail{'' if n != 1 else 's'}")
+    if word == "PASS" and not parts:
+        return "PASS", True
+    return (f"{word} ({'; '.join(parts)})" if parts else word), ok
 
 
 def samples() -> list[Path]:
@@ -111,6 +146,71 @@ def _results_panel(parent):
         return ResultsPanel(parent, show_caution=False)
     except TypeError:
         return ResultsPanel(parent)
+
+
+# ----------------------------------------------------------------- forms tabs
+class FormsTabs(QtWidgets.QWidget):
+    """The forms' tabs with the tab bar across the whole forms area: the pages on the left
+    of ``split`` (a splitter the window adds the property form to), so the six tabs fit
+    over the tables and the property form together.  The part of the QTabWidget API the
+    window and its tests use."""
+
+    currentChanged = QtCore.Signal(int)
+
+    def __init__(self, parent=None):
+        super().__init__(parent)
+        lay = QtWidgets.QVBoxLayout(self)
+        lay.setContentsMargins(0, 0, 0, 0)
+        lay.setSpacing(0)
+        self.bar = QtWidgets.QTabBar()
+        self.bar.setDocumentMode(True)
+        self.bar.setExpanding(False)
+        self.bar.setUsesScrollButtons(True)  # only where even the whole width is too narrow
+        self.bar.setDrawBase(True)
+        lay.addWidget(self.bar)
+        self.stack = QtWidgets.QStackedWidget()
+        self.split = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
+        self.split.addWidget(self.stack)
+        lay.addWidget(self.split, 1)
+        self.bar.currentChanged.connect(self._changed)
+
+    def _changed(self, index):
+        self.stack.setCurrentIndex(index)
+        self.currentChanged.emit(index)
+
+    def addTab(self, widget, text: str) -> int:
+        self.stack.addWidget(widget)
+        return self.bar.addTab(text)
+
+    def setTabToolTip(self, index: int, text: str) -> None:
+        self.bar.setTabToolTip(index, text)
+
+    def tabBar(self) -> QtWidgets.QTabBar:
+        return self.bar
+
+    def count(self) -> int:
+        return self.bar.count()
+
+    def widget(self, index: int):
+        return self.stack.widget(index)
+
+    def indexOf(self, widget) -> int:
+        return self.stack.indexOf(widget)
+
+    def currentIndex(self) -> int:
+        return self.bar.currentIndex()
+
+    def setCurrentIndex(self, index: int) -> None:
+        self.bar.setCurrentIndex(index)
+
+    def currentWidget(self):
+        return self.stack.currentWidget()
+
+    def setCurrentWidget(self, widget) -> None:
+        self.bar.setCurrentIndex(self.stack.indexOf(widget))
+
+    def tabText(self, index: int) -> str:
+        return self.bar.tabText(index)
 
 
 # ----------------------------------------------------------------- main window
@@ -179,23 +279,33 @@ class MainWindow(QtWidgets.QMainWindow):
         self.link_table.disc_choices = lambda: disc_choices(self.project.doc)
         self.operating_form = OperatingForm()
         self.excitations_form = ExcitationsForm()
-        self.tabs = QtWidgets.QTabWidget()
-        self.tabs.setDocumentMode(True)
+        self.load_cases_form = LoadCasesForm()
+        self.transients_form = TransientsForm()
+        self.tabs = FormsTabs()
         self.tabs.addTab(self.disc_table, "Discs")
         self.tabs.addTab(self.link_table, "Links")
         self.tabs.addTab(self.operating_form, "Operation")
         self.tabs.addTab(self.excitations_form, "Excitations")
+        self.tabs.addTab(self.load_cases_form, "Loads")
+        self.tabs.addTab(self.transients_form, "Transients")
         self.tabs.setTabToolTip(0, "Inertia discs: double-click a cell to edit")
         self.tabs.setTabToolTip(1, "Shafts, couplings and gear meshes: double-click a cell to edit")
-        self.tabs.setTabToolTip(2, "Title, reference disc, speed range and margin")
+        self.tabs.setTabToolTip(2, "Title, reference disc, speed range, margin and design options")
         self.tabs.setTabToolTip(3, "Excitation sources: orders, amplitudes, phases, engine cylinders, "
-                                   "fixed frequencies")
+                                   "fixed frequencies, engines from their data, electric-drive lines")
+        self.tabs.setTabToolTip(4, "Load cases: the mean torque transmitted against speed, where it goes, "
+                                   "excitation factors and misfires")
+        self.tabs.setTabToolTip(5, "Transient events: torques at discs over time (start-ups, short "
+                                   "circuits, load steps)")
+        #: the forms tabs without a selected disc or link (they take the full width)
+        self.list_forms = (self.operating_form, self.excitations_form, self.load_cases_form,
+                           self.transients_form)
         self.property_form = PropertyForm()
         # the operating data have no selected element: give that tab the full width
         self.tabs.currentChanged.connect(self._forms_tab_changed)
 
-        forms = QtWidgets.QSplitter(QtCore.Qt.Horizontal)
-        forms.addWidget(self.tabs)
+        # the tab bar spans the tables and the property form, so all six tabs fit at 1366 x 768
+        forms = self.tabs.split
         forms.addWidget(self.property_form)
         forms.setStretchFactor(0, 3)
         forms.setStretchFactor(1, 2)
@@ -204,7 +314,7 @@ class MainWindow(QtWidgets.QMainWindow):
         ll = QtWidgets.QVBoxLayout(lower)
         ll.setContentsMargins(0, 0, 0, 0)
         ll.setSpacing(3)
-        ll.addWidget(forms, 1)
+        ll.addWidget(self.tabs, 1)
 
         left = QtWidgets.QSplitter(QtCore.Qt.Vertical)
         left.addWidget(canvas_box)
@@ -405,7 +515,7 @@ class MainWindow(QtWidgets.QMainWindow):
             t.rowSelected.connect(self.set_selection)
             t.editRequested.connect(self._edit)
             t.renameRequested.connect(self._rename)
-        for f in (self.property_form, self.operating_form, self.excitations_form):
+        for f in (self.property_form,) + self.list_forms:
             f.editRequested.connect(self._edit)
             f.replaceRequested.connect(self._replace)
         self.property_form.renameRequested.connect(self._rename)
@@ -421,6 +531,20 @@ class MainWindow(QtWidgets.QMainWindow):
             return
         path = tuple(path)
         old, selected = self.project.get(path), self.selection
+        if len(path) == 3 and path[0] == "links" and path[2] == "id":
+            # a link's new id reaches its S-N curve, the design options and the events' counts
+            new = (value or "").strip() if isinstance(value, str) else value
+            if not new or new == old:
+                self.refresh_views()
+                return
+            if new in edits.link_ids(self.project.doc):
+                self.statusBar().showMessage(f"link id '{new}' is already taken; not renamed", 6000)
+                self.refresh_views()
+                return
+            self.project.replace(edits.rename_link(self.project.doc, old, new), label)
+            if selected == ("link", old):
+                self.set_selection(("link", new))
+            return
         self.project.set_value(path, value, label)
         if path[0] == "links" and path[-1] == "id" and selected == ("link", old) and value:
             self.set_selection(("link", value))  # a renamed link stays selected
@@ -475,7 +599,7 @@ class MainWindow(QtWidgets.QMainWindow):
     def _forms_tab_changed(self, _index):
         shown = self.tabs.currentWidget()
         # the operating data and the excitations have no selected disc or link: full width
-        self.property_form.setVisible(shown not in (self.operating_form, self.excitations_form))
+        self.property_form.setVisible(shown not in self.list_forms)
         if shown in self._stale_forms:
             self._refresh_form(shown)
 
@@ -486,7 +610,7 @@ class MainWindow(QtWidgets.QMainWindow):
         self._stale_forms.discard(form)
         self._forced_forms.discard(form)
         doc, p = self.project.doc, self.project
-        if form in (self.operating_form, self.excitations_form):
+        if form in self.list_forms:
             form.refresh(doc, p, self.system, force)
         else:
             form.refresh(doc, p, self.system)
@@ -510,7 +634,7 @@ class MainWindow(QtWidgets.QMainWindow):
         self.canvas.select(self.selection)
         # the forms tab showing is refreshed now, the two hidden ones when they show
         # (a 200-link table or the excitations editor costs 1-3 ms a live edit)
-        self._stale_forms = {self.disc_table, self.link_table, self.operating_form, self.excitations_form}
+        self._stale_forms = {self.disc_table, self.link_table, *self.list_forms}
         if force:
             self._forced_forms = set(self._stale_forms)
         self._refresh_form(self.tabs.currentWidget(), force)
@@ -582,36 +706,40 @@ class MainWindow(QtWidgets.QMainWindow):
         self.act_sheet.setToolTip("Write the PDF review sheet of this project" if ok
                                   else "Not while the model has an error: fix it or undo first")
         if message is not None:
-            base = self._verdict_text()
-            self._set_status(self.status_verdict, f"{base} — last valid model", theme.STALE_STYLE)
+            # no verdict for a model with an error: never a PASS (or any verdict) of an older one
+            self._set_status(self.status_verdict, "no verdict — last valid model", theme.STALE_STYLE)
             self.status_verdict.setToolTip(message)
         elif self.results is not None:
-            self._set_status(self.status_verdict, self._verdict_text(), self._verdict_style())
-            self.status_verdict.setToolTip("Screening verdict of the model now showing")
+            self._show_verdict()
 
-    def _verdict_text(self) -> str:
+    def _show_verdict(self) -> None:
+        text, ok = self.verdict_summary()
+        self._set_status(self.status_verdict, text, theme.verdict_style(ok))
+        study = getattr(self.results, "study", None)
+        try:
+            full = headline(study)[0] if study is not None else ""
+        except Exception:  # a study a test or an older panel made without every part
+            full = ""
+        self.status_verdict.setToolTip(full or "Verdict of the model now showing")
+
+    def verdict_summary(self) -> tuple[str, bool | None]:
+        """The status bar's verdict and its colour (True pass, False fail, None open or none):
+        the results panel's own summary where it has one (the two never disagree), else the
+        first word of the headline (:func:`app.wording.headline`: PASS, FAIL or OPEN) and
+        what it rests on."""
         res = self.results
         if res is None:
-            return "—"
-        s = res.screening
-        study = getattr(res, "study", None)
-        exceeded = len(study.exceedances) if study is not None and study.response_failed else 0
-        reasons = []
-        if s is not None and not s.passed:
-            reasons.append(f"{len(s.failures)} inside the margin")
-        if exceeded:
-            reasons.append(f"{exceeded} permissible value{'s' if exceeded != 1 else ''} exceeded")
-        if reasons:
-            return f"FAIL ({'; '.join(reasons)})"
-        return "no screening (no operating data)" if s is None else "PASS"
+            return "—", None
+        panel = self.results_panel
+        if hasattr(panel, "verdict_summary") and getattr(panel, "study", None) is not None:
+            return panel.verdict_summary()
+        return headline_summary(getattr(res, "study", None))
+
+    def _verdict_text(self) -> str:
+        return self.verdict_summary()[0]
 
     def _verdict_style(self) -> str:
-        res = self.results
-        if res is None or res.screening is None:
-            return theme.verdict_style(None)
-        study = getattr(res, "study", None)
-        passed = study.passed if study is not None else res.screening.passed
-        return theme.verdict_style(passed)
+        return theme.verdict_style(self.verdict_summary()[1])
 
     def _show_results(self, res):
         if self._closing:
@@ -623,7 +751,7 @@ class MainWindow(QtWidgets.QMainWindow):
             panel.set_study(res.study, res.solve_time_s)
         else:
             panel.set_results(res.train, res.modes, res.screening, res.response, res.solve_time_s)
-        self._set_status(self.status_verdict, self._verdict_text(), self._verdict_style())
+        self._show_verdict()
         self.status_modes.setText(modes_status(res))
         self.status_time.setText(f"solved in {res.solve_time_s * 1e3:.1f} ms")
         if res.note:
@@ -709,7 +837,8 @@ class MainWindow(QtWidgets.QMainWindow):
         self.canvas._signature = None
         self.canvas._user_zoomed = False
         self.property_form.reset()
-        self.excitations_form.reset()
+        for form in (self.excitations_form, self.load_cases_form, self.transients_form):
+            form.reset()
         if hasattr(self.results_panel, "reset_view_state"):
             self.results_panel.reset_view_state()
         self.project.set_document(doc, path)

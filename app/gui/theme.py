@@ -203,4 +203,9 @@ def application_palette() -> QtGui.QPalette:
     p.setColor(role.ToolTipText, qcolor(INK))
     p.setColor(role.PlaceholderText, qcolor(INK_MUTED))
     p.setColor(role.Link, qcolor(ACCENT))
+    # a field that does not apply (the crank radius where the stroke is given) looks it
+    disabled = QtGui.QPalette.ColorGroup.Disabled
+    for r, colour in ((role.Base, PANEL), (role.Text, INK_MUTED), (role.WindowText, INK_MUTED),
+                      (role.ButtonText, INK_MUTED)):
+        p.setColor(disabled, r, qcolor(colour))
     return p
