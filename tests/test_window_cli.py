@@ -102,3 +102,26 @@ def test_without_tolerances_the_keys_stay_out(capsys, tmp_path):
     assert all("frequency_band_hz" not in m for m in data["modes"])
     data = json.loads(run(capsys, "check", str(path), "--json")[1])
     assert all("margin_percent_band" not in c for c in data["coincidences"])
+
+
+def test_solve_json_carries_the_damped_modes(capsys, tmp_path):
+    # two equal discs J on a spring k with a viscous dashpot c across it: the relative motion is
+    # one degree of freedom with J_eff = J/2, w_n = sqrt(k / J_eff), zeta = c / (2 sqrt(k J_eff)),
+    # w_d = w_n sqrt(1 - zeta^2) (any vibration text, e.g. Thomson, damped free vibration)
+    J, k, c = 1.0, 60e3, 50.0
+    doc = {"format": "twistwise-project", "version": 1, "title": "damped pair",
+           "discs": [{"id": "a", "inertia": J}, {"id": "b", "inertia": J}],
+           "links": [{"id": "s", "kind": "coupling", "from": "a", "to": "b", "stiffness": k, "damping": c}]}
+    path = tmp_path / "d.json"
+    path.write_text(json.dumps(doc))
+    code, out, err = run(capsys, "solve", str(path), "--json")
+    assert code == 0, err
+    (m,) = json.loads(out)["damped"]
+    j_eff = J / 2
+    zeta = c / (2 * math.sqrt(k * j_eff))
+    f_d = math.sqrt(k / j_eff) * math.sqrt(1 - zeta ** 2) / (2 * math.pi)
+    assert m["damping_ratio"] == pytest.approx(zeta, rel=1e-9)
+    assert m["frequency_hz"] == pytest.approx(f_d, rel=1e-9)
+    doc["links"][0].pop("damping")
+    path.write_text(json.dumps(doc))
+    assert "damped" not in json.loads(run(capsys, "solve", str(path), "--json")[1])

@@ -90,6 +90,13 @@ def write_modes_json(study, stream=None) -> None:
     head = {"title": modes.train.title, "requested": modes.requested,
             "screening_limit_hz": study.screening_limit_hz,
             "solve_time_s": modes.solve_time_s, "notes": list(study.notes), "caution": CAUTION}
+    if study.damped is not None:  # the train has damping: damped frequencies and ratios (issue 13)
+        head["damped"] = study.damped.to_json()
+        head["notes"] += [n for n in study.damped.notes if n not in head["notes"]]
+    if study.damper is not None:
+        head["damper"] = {"free_hz": [float(f) for f in study.damper.free_hz],
+                          "locked_hz": [float(f) for f in study.damper.locked_hz],
+                          "statement": study.damper.statement}
     text = json.dumps(head, allow_nan=False)
     stream.write(text[:-1] + ', "modes": [')
     for k, mode in enumerate(_mode_texts(study)):
@@ -122,6 +129,15 @@ def print_table(study, path: str) -> None:
         print(f"{int(modes.number[i]):>4}  {fmt.hz(modes.frequency_hz[i]):>10}  "
               f"{fmt.cpm(modes.frequency_hz[i]):>9}  {dom:<28} "
               f"{fmt.share(train.name_of(di), modes.kinetic_share[i].max())}{mark}")
+    if study.damped is not None and study.damped.modes:
+        print("Damped natural frequencies (complex eigenvalues with the train's damping):")
+        print(f"{'':>4}  {'Hz':>10}  {'damping ratio':>13}")
+        for m in study.damped.modes:
+            print(f"{'':>4}  {fmt.hz(m.frequency_hz):>10}  {m.damping_ratio:>13.4f}")
+    if study.damper is not None:
+        print(study.damper.statement)
+        print("  ring free:   " + ", ".join(fmt.hz(f) for f in study.damper.free_hz) + " Hz")
+        print("  ring locked: " + ", ".join(fmt.hz(f) for f in study.damper.locked_hz) + " Hz")
     if above.any():
         print(f"Modes above the screening limit ({fmt.hz(study.screening_limit_hz)} Hz) are shown "
               "but not screened: no excitation in the operating range comes near them.")
