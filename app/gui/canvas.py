@@ -28,6 +28,26 @@ from . import theme
 from .quantities import pretty_unit, read_si, short_quantity  # noqa: F401
 from ..schematic_layout import place_document
 
+
+def mesh_ratio(link: dict) -> float:
+    """A gear mesh's speed ratio as drawn: its speed_ratio, or z_from / z_to of its teeth
+    (1 while the entry is not yet readable)."""
+    teeth = link.get("teeth")
+    try:
+        if isinstance(teeth, list) and len(teeth) == 2 and link.get("speed_ratio") is None:
+            return float(teeth[0]) / float(teeth[1])
+        return float(u.parse_number(link.get("speed_ratio")))
+    except Exception:
+        return 1.0
+
+
+def mesh_ratio_text(link: dict) -> str:
+    """The ratio as the user gave it: '3.1', or '98/40' from tooth counts."""
+    teeth = link.get("teeth")
+    if isinstance(teeth, list) and len(teeth) == 2 and link.get("speed_ratio") is None:
+        return f"{teeth[0]}/{teeth[1]}"
+    return str(link.get("speed_ratio"))
+
 COL_W = 140.0  # scene units between disc columns
 ROW_H = 200.0
 DISC_W = 22.0
@@ -398,7 +418,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
 
         if kind == "gear_mesh":
             rows.append(f"speed ratio (output / input) = speed of '{ends[1]}' / speed of '{ends[0]}' "
-                        f"= {l.get('speed_ratio')}")
+                        f"= {mesh_ratio_text(l)}")
             if l.get("stiffness") is not None:
                 quantity("mesh stiffness", l.get("stiffness"))
             else:
@@ -462,10 +482,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
             self._polyline(group, zig, thin)
         else:  # gear mesh: two touching pitch circles
             self._polyline(group, pts, QtGui.QPen(color, 1.6, QtCore.Qt.DotLine))
-            try:
-                ratio = float(u.parse_number(l.get("speed_ratio")))
-            except Exception:
-                ratio = 1.0
+            ratio = mesh_ratio(l)
             r1 = 12.0
             r2 = max(5.0, min(18.0, r1 / ratio)) if ratio > 0 else r1
             cx = mid.x()
@@ -475,7 +492,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
                 c.setPen(QtGui.QPen(color, 1.8))
                 c.setBrush(theme.qcolor(theme.BACKGROUND))
                 group.addToGroup(c)
-            txt = QtWidgets.QGraphicsSimpleTextItem(f"×{l.get('speed_ratio')}")
+            txt = QtWidgets.QGraphicsSimpleTextItem(f"×{mesh_ratio_text(l)}")
             txt.setFont(theme.font(theme.SMALL_POINT_SIZE))
             txt.setBrush(color)
             txt.setPos(cx - txt.boundingRect().width() / 2, mid.y() + 2 * r2 + 2)
