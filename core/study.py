@@ -18,7 +18,7 @@ The one rule for how many modes are solved (:func:`choose_modes`):
 from __future__ import annotations
 
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from functools import cached_property
 
 import numpy as np
@@ -294,19 +294,36 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
         else:
             if options.max_frequency_hz is None and options.n_modes is None:
                 modes = screening.modes  # the same set, or more when the margin option raised the limit
-    design = None
-    if ("design" in parts or "sensitivities" in parts) and screening_error is None:
-        from .design import analyse_design
-        design = _timed(timings, "design", analyse_design, train, modes, screening,
-                        elements=None if "design" in parts else [])
     window = None
     if options.window_of is not None:
         from .design import element_window
         eid, quantity, value_range = options.window_of
         window = _timed(timings, "window", element_window, train, eid, quantity, value_range,
                         None if screening is None else screening.margin)
-    response, response_error = None, None
-    if "response" in parts and op is not None:
+    study = Study(train, options, modes, screening, screening_error=screening_error, window=window,
+                  notes=tuple(notes), timings=timings)
+    study = extend_study(study, parts)
+    return replace(study, solve_time_s=time.perf_counter() - t0)
+
+
+def extend_study(study: Study, parts) -> Study:
+    """``study`` with the analyses in ``parts`` added (those it already holds are kept): the
+    desktop program shows the modes and the screening at once and adds the slower parts
+    (windows, acceptance, damped modes) when they are ready, without solving anything twice.
+    Cached answers of the old study (peaks, the argument) are computed afresh on the new one."""
+    train, options, modes, screening = study.train, study.options, study.modes, study.screening
+    timings = dict(study.timings)
+    op = train.operating
+    t0 = time.perf_counter()
+    design = study.design
+    wants_windows = "design" in parts
+    if ("design" in parts or "sensitivities" in parts) and study.screening_error is None \
+            and (design is None or (wants_windows and not design.windows and _has_windows(train))):
+        from .design import analyse_design
+        design = _timed(timings, "design", analyse_design, train, modes, screening,
+                        elements=None if wants_windows else [])
+    response, response_error = study.response, study.response_error
+    if "response" in parts and op is not None and response is None and response_error is None:
         from . import response as core_response
         if core_response.has_amplitudes(train):
             speeds = None if options.speeds is None else np.asarray(options.speeds, float)
@@ -314,12 +331,12 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
                 response = _timed(timings, "response", core_response.forced_response, train, speeds)
             except ModelError as exc:
                 response_error = exc
-    acceptance = None
-    if "acceptance" in parts and response is not None:
+    acceptance = study.acceptance
+    if "acceptance" in parts and response is not None and acceptance is None:
         from .acceptance import analyse_acceptance
         acceptance = _timed(timings, "acceptance", analyse_acceptance, train, response)
-    damped, damper = None, None
-    if "damped" in parts:
+    damped, damper = study.damped, study.damper
+    if "damped" in parts and damped is None:
         from .damped import DampedModes, damped_modes, damper_bounds, has_damping
         if has_damping(train):
             shown = float(np.max(modes.frequency_hz)) if len(modes) else 0.0
@@ -332,8 +349,8 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
                 damped = _timed(timings, "damped", damped_modes, train, max_frequency_hz=cap)
             if cap > 0:
                 damper = _timed(timings, "damper", damper_bounds, train, cap)
-    transients = None
-    if "transients" in parts and train.transients:
+    transients = study.transients
+    if "transients" in parts and train.transients and transients is None:
         from .loads import load_torque_table
         from .ratings import transient_peak_limits
         from .transient import run_transients
@@ -342,7 +359,11 @@ def run_study(train: Train, options: StudyOptions = StudyOptions()) -> Study:
             return load_torque_table(train, name, disc_id)
         transients = _timed(timings, "transients", run_transients, train, options.events,
                             peak_limits=transient_peak_limits(train), load_case_torque=load_case_torque)
-    return Study(train, options, modes, screening, response, response_error, screening_error,
-                 design=design, window=window, acceptance=acceptance, damped=damped, damper=damper,
-                 transients=transients, notes=tuple(notes), solve_time_s=time.perf_counter() - t0,
-                 timings=timings)
+    return replace(study, design=design, response=response, response_error=response_error,
+                   acceptance=acceptance, damped=damped, damper=damper, transients=transients,
+                   timings=timings, solve_time_s=study.solve_time_s + time.perf_counter() - t0)
+
+
+def _has_windows(train: Train) -> bool:
+    from .design import design_elements
+    return bool(train.operating is not None and train.operating.excitations and design_elements(train))

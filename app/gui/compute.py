@@ -6,6 +6,12 @@ less than a frame last time runs at once on the GUI thread (a thread hop would
 cost more than it saves); a slower one runs on a QThreadPool worker so the
 window never freezes.  Every request carries a generation number and a
 result that is not the newest is dropped.
+
+The study comes in two stages: the modes, the screening, the sensitivities and the
+forced response first (what every edit changes and every view shows at once), then on
+the worker the slower parts — the windows of the design options, the acceptance checks,
+the damped modes — added to the same study (:func:`core.study.extend_study`) and shown
+when ready (``Results.complete``).
 """
 from __future__ import annotations
 
@@ -25,6 +31,7 @@ class Results:
     study: object  # core.study.Study
     solve_time_s: float
     note: str = ""
+    complete: bool = True  # False: the slower parts (windows, acceptance, damped modes) follow
 
     @property
     def train(self):
@@ -43,12 +50,17 @@ class Results:
         return self.study.response
 
 
-def compute(train) -> Results:
+FIRST_PARTS = frozenset({"screening", "sensitivities", "response"})
+
+
+def compute(train, first_stage: bool = False) -> Results:
     """The study of ``train`` (:func:`core.study.run_study`): the same modes, screening and
-    forced response as the command line and the sheet."""
+    forced response as the command line and the sheet; with ``first_stage`` only the
+    parts every edit shows at once (see the module docstring)."""
     from core.study import LIVE_PARTS, StudyOptions, run_study
     t0 = time.perf_counter()
-    study = run_study(train, StudyOptions(parts=LIVE_PARTS))
+    parts = FIRST_PARTS & LIVE_PARTS if first_stage else LIVE_PARTS
+    study = run_study(train, StudyOptions(parts=parts))
     import numpy as np
     if not np.all(np.isfinite(study.modes.frequency_hz)):
         # the study refuses these itself; this guard keeps a verdict from a non-number off the
@@ -56,12 +68,37 @@ def compute(train) -> Results:
         from core.errors import ModelError
         raise ModelError("the solve gave natural frequencies that are not finite numbers; check the "
                          "inertias, stiffnesses and speed ratios for extreme values", "train")
-    note = ""
+    return Results(study, time.perf_counter() - t0, _note(study), complete=not first_stage)
+
+
+def _note(study) -> str:
     if study.screening_error is not None:
-        note = f"not screened: {study.screening_error}"
-    elif study.response_error is not None:
-        note = f"forced response not computed: {study.response_error}"
-    return Results(study, time.perf_counter() - t0, note)
+        return f"not screened: {study.screening_error}"
+    if study.response_error is not None:
+        return f"forced response not computed: {study.response_error}"
+    return ""
+
+
+def complete(first: Results) -> Results:
+    """The first-stage results with the slower parts added (run on the worker)."""
+    from core.study import LIVE_PARTS, extend_study
+    t0 = time.perf_counter()
+    study = extend_study(first.study, LIVE_PARTS)
+    return Results(study, first.solve_time_s + time.perf_counter() - t0, _note(study), complete=True)
+
+
+def needs_second_stage(study) -> bool:
+    """True when the slower parts have anything to add for this study."""
+    train = study.train
+    op = train.operating
+    if study.response is not None:
+        return True  # acceptance checks
+    if op is not None and op.excitations and any(l.kind == "coupling" and l.stiffness for l in train.links):
+        return True  # windows
+    if train.design_options:
+        return True
+    from core.damped import has_damping
+    return has_damping(train)
 
 
 class _Signals(QtCore.QObject):
@@ -69,13 +106,18 @@ class _Signals(QtCore.QObject):
 
 
 class _Job(QtCore.QRunnable):
-    def __init__(self, generation: int, train, signals: _Signals):
+    """The first stage of a study (``train`` given) or the second (``first`` given)."""
+
+    def __init__(self, generation: int, train, signals: _Signals, first: Results | None = None):
         super().__init__()
-        self.generation, self.train, self.signals = generation, train, signals
+        self.generation, self.train, self.signals, self.first = generation, train, signals, first
 
     def run(self):
         try:
-            res, error = compute(self.train), ""
+            if self.first is not None:
+                res, error = complete(self.first), ""
+            else:
+                res, error = compute(self.train, first_stage=True), ""
         except Exception as exc:
             res, error = None, f"{type(exc).__name__}: {exc}"
         try:
@@ -141,7 +183,7 @@ class ResultsRunner(QtCore.QObject):
         self._pending = None
         if self.last_time_s < FRAME_S:
             try:
-                res = compute(train)
+                res = compute(train, first_stage=True)
             except Exception as exc:
                 self._finished(gen, None, f"{type(exc).__name__}: {exc}")
                 return
@@ -158,14 +200,20 @@ class ResultsRunner(QtCore.QObject):
         self._finished(generation, res, error)
 
     def _finished(self, generation: int, res, error: str) -> None:
-        if res is not None:
+        if res is not None and not res.complete:
             self.last_time_s = res.solve_time_s
         if generation != self._generation:
             return  # a newer edit is on its way: drop the stale result
         if res is None:
             self.failed.emit(error)
-        else:
-            self.resultsReady.emit(res)
+            return
+        if not res.complete and not needs_second_stage(res.study):
+            res.complete = True
+        self.resultsReady.emit(res)
+        if not res.complete:  # the slower parts follow on the worker
+            self._running += 1
+            self.busyChanged.emit(True)
+            self._pool.start(_Job(generation, None, self._signals, first=res))
 
     def wait(self, msecs: int = 10000) -> bool:
         return self._pool.waitForDone(msecs)
