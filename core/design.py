@@ -55,7 +55,7 @@ from .elimination import factor
 from .errors import ModelError
 from .model import Train
 from .screening import Screening, excitation_lines, screen, screening_cap_hz
-from .solver import DynamicSystem, Modes, _inverse_iteration, _map, _segment_energies, natural_modes
+from .solver import DynamicSystem, Modes, _inverse_iteration, _map, _segment_energies, natural_modes, zero_roots
 from .tolerance import corner_trains, frequency_bands, scaled_disc, scaled_link
 
 TWO_PI = 2.0 * np.pi
@@ -486,7 +486,7 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
     else:
         fam_low = fam_high = nominal
     families = [(fam_low, c_low), (fam_high, c_high), (nominal, 1.0)]
-    rb = 0 if nominal.system.asm.grounded else 1
+    rb = zero_roots(nominal.system.asm)  # rigid-body mode and free damper rings
     r_min, r_max = sorted((d * math.log(lo_v), d * math.log(hi_v)))
     forbidden = _forbidden(train, m)
     lines = [(lab, TWO_PI * lo, TWO_PI * hi) for lab, lo, hi in forbidden]

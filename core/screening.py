@@ -32,7 +32,7 @@ import numpy as np
 
 from .electric import line_band, line_crossings
 from .model import Operating, Train
-from .solver import DynamicSystem, Modes, natural_modes
+from .solver import DynamicSystem, Modes, natural_modes, zero_roots
 from .tolerance import corner_trains, frequency_bands
 
 TWO_PI = 2.0 * np.pi
@@ -321,7 +321,7 @@ def screen(train: Train, modes: Modes | None = None, margin: float | None = None
     if tol:
         # every mode whose low edge lies below the cap: the low corner's count there
         low_system = DynamicSystem(corner_trains(train)[0])
-        rb = 0 if low_system.asm.grounded else 1
+        rb = zero_roots(low_system.asm)  # rigid-body mode and free damper rings
         need = int(low_system.count(TWO_PI * max(cap, 1e-9))[0]) - rb
         if int(np.count_nonzero(modes.elastic)) < need:
             modes = natural_modes(train, n_modes=need)

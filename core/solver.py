@@ -758,6 +758,14 @@ def free_bodies(asm: Assembly) -> tuple[np.ndarray | None, list[np.ndarray]]:
     return comps[main], [comps[j] for j in free if j != main]
 
 
+def zero_roots(asm: Assembly) -> int:
+    """Number of zero natural frequencies of the undamped problem: the train's
+    rigid-body mode (when it is not grounded) and one for each ring joined to it
+    by damping alone.  Counting from this index gives the first elastic mode."""
+    train_body, rings = free_bodies(asm)
+    return (0 if train_body is None else 1) + len(rings)
+
+
 def natural_modes(train: Train, max_frequency_hz: float | None = None,
                   n_modes: int | None = None) -> Modes:
     """Natural frequencies and modes of ``train``.

@@ -28,7 +28,7 @@ import numpy as np
 
 from .materials import Material
 from .model import Disc, Link, Train
-from .solver import DynamicSystem, Modes, _find_roots, _upper_bound
+from .solver import DynamicSystem, Modes, _find_roots, _upper_bound, zero_roots
 
 TWO_PI = 2.0 * np.pi
 
@@ -72,7 +72,7 @@ def lowest_frequencies_hz(train: Train, n_elastic: int) -> np.ndarray:
     """The lowest ``n_elastic`` elastic natural frequencies (Hz), counted in order by
     the Wittrick-Williams count (no shapes); fewer when a lumped model has fewer."""
     system = DynamicSystem(train)
-    rb = 0 if system.asm.grounded else 1
+    rb = zero_roots(system.asm)  # rigid-body mode and free damper rings
     want = n_elastic + rb
     finite = system.asm.n_finite_modes
     if finite is not None:

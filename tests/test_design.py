@@ -744,3 +744,25 @@ def test_window_bad_input_names_element_and_field():
     with pytest.raises(ModelError) as err:
         element_window(build_train(d), "g")
     assert (err.value.element, err.value.field) == ("link 'g'", "stiffness")
+
+
+def test_bands_count_past_a_damper_ring_joined_by_damping_alone():
+    """A viscous damper's ring joined to its housing by damping alone is a second zero root of
+    the undamped problem: the band of mode 1 must be that of the first elastic mode, not the
+    ring's zero (each band holds its nominal frequency: monotonicity, issue text)."""
+    import pathlib
+
+    from core.project import load_train
+    from core.study import run_study
+    path = pathlib.Path(__file__).resolve().parent.parent / "sample_projects" / "engine_genset.json"
+    study = run_study(load_train(path))
+    m, bands = study.modes, study.design.bands
+    for i in np.flatnonzero(m.elastic):
+        assert bands[i, 0] > 0
+        assert bands[i, 0] <= m.frequency_hz[i] * (1 + 1e-9)
+        assert bands[i, 1] >= m.frequency_hz[i] * (1 - 1e-9)
+    # the screening's band margins and the window counts use the same count (core.solver.zero_roots)
+    # the screening's band margins use the same count: never larger than the nominal margin
+    for c in study.screening.coincidences:
+        if c.separation_band is not None:
+            assert c.separation_band <= c.separation + 1e-12

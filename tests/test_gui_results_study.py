@@ -219,7 +219,8 @@ def test_names_over_ids_in_every_table_plot_and_key(panel):
     assert [r.cells[0] for r in rv.peak_model.rows] == [names[l.id] for l in train.links]
     rv.set_checked_links(train.link_ids)
     assert sorted(c.name() for c in rv.plot.listDataItems() if c.name()) == sorted(names.values())
-    assert all(any(t.startswith(n) for n in names.values()) for t in rv.legend.texts)
+    assert all(any(t.startswith(n) for n in names.values()) for t in rv.curve_key_texts)
+    assert set(rv.curve_key_texts) <= set(rv.legend.texts)
     # no link id appears where a name exists ('coupling' is also a kind and a word of a name)
     shown = "\n".join(_texts(panel))
     for lid in ("motor_shaft", "pump_shaft"):

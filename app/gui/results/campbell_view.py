@@ -18,8 +18,10 @@ from app.gui import theme
 from core.screening import ExcitationLine, highest_excitation_hz, nearest_at_speed, pair_separation
 
 from . import rows as R
-from .label_layout import SOFT_PASS_LIMIT, Spot, place_labels_staged
-from .legend import FlowLegend
+from . import speed_axis as SA
+from .label_layout import (SOFT_PASS_LIMIT, STACK_GAP, Spot, box, place_labels, place_labels_staged,
+                           stack_close_labels)
+from .legend import FlowLegend, arrange_key
 from .plotting import PlotCanvas, new_plot, plot_over_table
 from .table import RowsModel, fit_columns, make_table_view
 
@@ -49,6 +51,30 @@ def margin_band_hz(f_n: float, margin: float) -> tuple[float, float] | None:
     return None if band is None else (float(band[0]), float(band[1]))
 
 
+#: pen width of an engine's minor orders beside its heavier major orders
+MINOR_WIDTH = 1.1
+
+
+def excitation_group(line) -> str:
+    """The excitation a line belongs to, for its colour and key entry: an electric drive's
+    lines ("Inverter: 6 × output frequency", "Inverter: |6 f_supply − 6 f_out|") share
+    the drive's colour; every other source is its own group."""
+    if line.formula is not None and ": " in line.source:
+        return line.source.split(": ", 1)[0]
+    return line.source
+
+
+def line_curve(line, x_max_rpm: float, n: int = 161):
+    """Points (rpm, Hz) of a line f = |a + b N| from standstill to ``x_max_rpm``, with
+    its zero (the V's tip) among them so that the tip is drawn sharp."""
+    xs = np.linspace(0.0, x_max_rpm, n)
+    if line.slope != 0.0:
+        tip = -line.offset_hz / line.slope / RPM
+        if 0.0 < tip < x_max_rpm:
+            xs = np.sort(np.append(xs, tip))
+    return xs, np.asarray(line.frequency(xs * RPM), float)
+
+
 def _line_end(slope_hz_per_rpm: float, x_max: float, y_max: float):
     """Where an order line leaves the plot window: (x, y, on the top edge?)."""
     y_at_right = slope_hz_per_rpm * x_max
@@ -74,6 +100,7 @@ class CampbellView(QtWidgets.QWidget):
         self._log_chosen_by_user = False
         self._window = None
         self._draw_pending = False  # new results arrived while the diagram was hidden
+        self._acceptance = None  # the study's acceptance: barred and gear-hammer ranges
         self._limits = None
 
         self.canvas = PlotCanvas(self)
@@ -94,6 +121,7 @@ class CampbellView(QtWidgets.QWidget):
                                                  "fill": theme.brush((255, 255, 255, 230)),
                                                  "anchors": [(0, 1), (0, 1)]})
         self.cursor.setZValue(50)
+        self._marks = SA.SpeedMarksLayer(self.plot)  # speed bands and ranges, kept between redraws
         self.cursor.setToolTip("Speed cursor: drag along the speed axis; the table on the right reads "
                                "out every excitation at this speed and its nearest natural frequency.")
         self.cursor.sigPositionChanged.connect(self._cursor_moved)
@@ -104,15 +132,6 @@ class CampbellView(QtWidgets.QWidget):
         self._legend_key, self._legend_samples, self.line_items = None, [], []
         self._shown_modes = []
         self._line_pool = []
-        self._range_region = pg.LinearRegionItem((0, 1), orientation="vertical", movable=False,
-                                                 brush=theme.brush(theme.OPERATING_BAND),
-                                                 pen=theme.pen(theme.PASS, theme.THIN_WIDTH))
-        self._range_line = pg.InfiniteLine(0.0, angle=90, pen=theme.pen(theme.OPERATING_BAND[:3] + (110,), 7.0))
-        self._trip_line = pg.InfiniteLine(0.0, angle=90, pen=theme.trip_pen())
-        for item, z in ((self._range_region, -20), (self._range_line, -20), (self._trip_line, -15)):
-            item.setZValue(z)
-            item.setVisible(False)
-            self.plot.addItem(item, ignoreBounds=True)
         self._band_item = QtWidgets.QGraphicsPathItem()
         self._band_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
         self._band_item.setBrush(theme.brush(theme.MARGIN_BAND))
@@ -154,6 +173,9 @@ class CampbellView(QtWidgets.QWidget):
         self.key_box.setToolTip("Show the key under the diagram (always included in exported images); "
                                 "untick it to give the diagram more room on a small screen.")
         self.key_box.toggled.connect(self._key_toggled)
+        self.above_bar = QtWidgets.QLabel(self)  # the note on modes above the window, when the plot has no room
+        self.above_bar.setStyleSheet(f"color: {theme.INK_MUTED};")
+        self.above_bar.hide()
         self.hover = QtWidgets.QLabel(self)
         self.hover.setStyleSheet(f"color: {theme.INK_MUTED};")
         self.hover.setMinimumWidth(40)
@@ -166,7 +188,7 @@ class CampbellView(QtWidgets.QWidget):
         self.message.setStyleSheet(f"color: {theme.INK_MUTED}; font-size: {theme.TITLE_POINT_SIZE}pt;")
         self.message.hide()
 
-        self.coincidence_model = RowsModel(R.COINCIDENCE_HEADERS, self, numeric_columns=(0, 1, 3, 4, 6),
+        self.coincidence_model = RowsModel(R.COINCIDENCE_HEADERS_SHOWN, self, numeric_columns=(0, 1, 3, 4, 6),
                                            status_column=5)
         self.coincidence_table = make_table_view(self.coincidence_model, self)
         self.coincidence_table.setToolTip("Excitations within twice the required margin of a natural "
@@ -219,6 +241,8 @@ class CampbellView(QtWidgets.QWidget):
         bar.addWidget(self.fit_button)
         bar.addWidget(self.key_box)
         bar.addSpacing(8)
+        bar.addWidget(self.above_bar)
+        bar.addSpacing(8)
         bar.addWidget(self.hover, 1)  # the pointer read-out beside the controls: no row of its own
         ul.addLayout(bar)
         ul.addWidget(self.canvas, 1)
@@ -267,32 +291,7 @@ class CampbellView(QtWidgets.QWidget):
         """The key below the plot, or beside it when that leaves the diagram the
         larger area of a 1.6:1 shape (a short wide canvas, e.g. on a 1366 x 768
         screen, loses a third of its height to a key below)."""
-        lg = self.legend
-        ax, ay = self.KEY_AXES_PX
-        side, side_w = False, None
-        if lg.texts and lg._shown and w > 300 and h > 150:
-            def score(pw, ph):
-                return min(pw, 1.6 * ph) if pw > 0 and ph > 0 else 0.0
-            best = score(w - ax, h - ay - lg.height_for(w - 16))
-            for cand in (190.0, 220.0, 250.0, 280.0, 310.0):
-                if cand > 0.42 * w or lg.height_for(cand) > h - 12:
-                    continue
-                sc = score(w - ax - cand, h - ay)
-                if sc > 1.05 * best:
-                    best, side, side_w = sc, True, cand
-        ci = self.canvas.ci
-        if side != self._key_side:
-            self._key_side = side
-            ci.removeItem(lg)
-            if side:
-                ci.addItem(lg, row=0, col=1)
-                ci.layout.setAlignment(lg, QtCore.Qt.AlignTop)
-                ci.layout.setColumnStretchFactor(0, 10)
-                ci.layout.setColumnStretchFactor(1, 0)
-                ci.layout.setHorizontalSpacing(14)
-            else:
-                ci.addItem(lg, row=1, col=0)
-        lg.set_fixed_width(side_w if side else None)
+        self._key_side = arrange_key(self.canvas, self.legend, w, h, self._key_side, self.KEY_AXES_PX)
 
     def _key_toggled(self, on: bool) -> None:
         self.legend.set_shown(on)
@@ -349,8 +348,9 @@ class CampbellView(QtWidgets.QWidget):
         for item in self._label_pool:
             item.setVisible(False)
         self._labels = []
-        for item in [self._band_item, self._mode_item, self.selected_line, self._range_region,
-                     self._range_line, self._trip_line] + self._line_pool:
+        self.above_bar.hide()
+        self._marks.clear()
+        for item in [self._band_item, self._mode_item, self.selected_line] + self._line_pool:
             item.setVisible(False)
         self.line_items = []
         self.rings.setVisible(False)
@@ -374,6 +374,7 @@ class CampbellView(QtWidgets.QWidget):
         if study.screening is None:
             self.clear("No operating data: " + self.NO_SCREENING + ".")
             return self.NO_SCREENING[0].upper() + self.NO_SCREENING[1:] + "."
+        self._acceptance = study.acceptance
         self.set_screening(study.screening, study.modes)
         return None
 
@@ -442,6 +443,9 @@ class CampbellView(QtWidgets.QWidget):
             return 0.0, y_max
         lows = self._modes_in_window(y_max)
         lows += [l.fixed_hz for l in s.lines if l.fixed_hz and l.fixed_hz <= y_max]
+        # every line shows where it runs in the operating range (a low order at its top speed)
+        lows += [hi for hi in (l.frequency_range(s.speed_min, s.speed_max)[1] for l in s.lines
+                               if l.fixed_hz is None) if 0 < hi <= y_max]
         low = min(0.5 * min(lows) if lows else y_max / 1000.0, y_max / 10.0)
         # live edits move the lowest mode a little: the axis keeps its bottom while that
         # mode stays between 2 and 4 times above it, so the diagram does not jump per edit
@@ -499,26 +503,12 @@ class CampbellView(QtWidgets.QWidget):
                                     f"{fmt.percent(s.margin)} %")
         legend = []  # (kind, style key, text)
 
-        # operating range (band, or a broad line for a single speed) and trip speed
-        lo, hi = s.speed_min / RPM, s.speed_max / RPM
-        wide = hi - lo > 1e-9 * max(hi, 1.0)
-        self._range_region.setVisible(wide)
-        self._range_line.setVisible(not wide)
-        if wide:
-            self._range_region.setRegion((lo, hi))
-            range_text = f"{op.range_name} ({fmt.rpm(s.speed_min)}–{fmt.rpm(s.speed_max)} rpm)"
-        else:
-            self._range_line.setValue(lo)
-            range_text = f"{op.range_name} ({fmt.rpm(s.speed_max)} rpm)"
-        self._range_region.setToolTip(range_text)
-        self._range_line.setToolTip(range_text)
-        legend.append(("band", theme.OPERATING_BAND, range_text))
-        self._trip_line.setVisible(bool(op.trip_speed))
-        if op.trip_speed:
-            self._trip_line.setValue(op.trip_speed / RPM)
-            self._trip_line.setToolTip(f"Trip speed {fmt.rpm(op.trip_speed)} rpm: drawn for reference, "
-                                       "not screened.")
-            legend.append(("trip", None, f"trip speed {fmt.rpm(op.trip_speed)} rpm (not screened)"))
+        # the speed bands (start-up/run-down, operating range, overspeed to trip), barred speed
+        # ranges and gear-hammer ranges, as on every speed axis (speed_axis.py)
+        marks = SA.speed_marks(s.train, self._acceptance)
+        self._marks.show(marks)
+        for m, text in SA.key_entries(marks):
+            legend.append(("mark", m.kind, text))
 
         # every screened natural frequency (up to the screening limit) with its margin band:
         # one path each; those above the window are reached by zooming out, and a note says so
@@ -542,7 +532,8 @@ class CampbellView(QtWidgets.QWidget):
             if f <= f_hi:
                 self._add_label(f"mode {int(m.number[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f)
         if above:
-            self._add_label(self.above_note(above), theme.INK_MUTED, font, "above", None)
+            self._add_label(self.above_note(above), theme.INK_MUTED, font, "above",
+                            (self.above_note(above), self.above_note(above, short=True)))
             self._labels[-1][0].setToolTip(self.above_tip(above))
         self._band_item.setPath(bands)
         self._mode_item.setPath(lines)
@@ -552,32 +543,52 @@ class CampbellView(QtWidgets.QWidget):
         legend.append(("nf", None, "natural frequency"))
         legend.append(("band", theme.MARGIN_BAND, margin_band_text(s.margin)))
 
-        # excitation lines: one colour per source, the order number beside the line
-        sources = list(dict.fromkeys(l.source for l in s.lines))
+        # excitation lines: one colour per excitation, each line drawn as what it is (a fixed
+        # frequency, an order through the origin, or a line f = |a + b N|) and labelled so
+        # (the frequency, the order, the formula); an engine's major orders heavier
+        groups = list(dict.fromkeys(excitation_group(l) for l in s.lines))
+        has_major = {excitation_group(l) for l in s.lines if l.major}
         # on a log axis an order line is a curve: 40 points a factor 1.27 apart keep each chord
         # within 0.003 decades (under a pixel) of log10(slope * x), and cost a quarter of 160 to paint
         xs_line = np.geomspace(x_max * 1e-4, x_max, 40) if self._log else np.array([0.0, x_max])
         bold = theme.font(theme.SMALL_POINT_SIZE, bold=True)
-        in_legend = set()
+        plain = theme.font(theme.SMALL_POINT_SIZE)
+        in_legend = {}
         self.line_items = []
         for line in s.lines:
-            k = sources.index(line.source)
+            group = excitation_group(line)
+            k = groups.index(group)
             color = theme.series_color(k)
+            kind = line.kind
             item = self._line_item(len(self.line_items))
-            if line.fixed_hz is not None:
-                pen = theme.pen(color, theme.LINE_WIDTH, QtCore.Qt.DashDotLine)
+            width = theme.BOLD_WIDTH if line.major else (MINOR_WIDTH if group in has_major else theme.LINE_WIDTH)
+            font = plain if group in has_major and not line.major else bold
+            if kind == "fixed":
+                pen = theme.pen(color, width, QtCore.Qt.DashDotLine)
                 item.setData([0.0, x_max], [line.fixed_hz, line.fixed_hz], pen=pen)
-                self._add_label(f"{line.fixed_hz:g} Hz", color, bold, "fixed", line.fixed_hz)
-            else:
-                pen = theme.pen(color, theme.LINE_WIDTH)
+                self._add_label(f"{line.fixed_hz:g} Hz", color, font, "fixed", line.fixed_hz)
+            elif kind == "order":
+                pen = theme.pen(color, width)
                 item.setData(xs_line, line.slope * RPM * xs_line, pen=pen)
-                self._add_label(f"{fmt.order(line.order)}×", color, bold, "order", line.slope * RPM)
-            item.setToolTip(line.label)
+                self._add_label(f"{R.line_order_text(line)}×", color, font, "order", line.slope * RPM)
+            else:  # f = |a + b N|: a V where it passes through zero, drawn point by point
+                pen = theme.pen(color, width)
+                xs, fs = line_curve(line, x_max)
+                item.setData(xs, np.maximum(fs, f_lo * 1e-3) if self._log else fs, pen=pen)
+                self._add_label(R.line_order_text(line), color, font, "line", line)
+            item.setToolTip(f"{line.label}: {R.line_words(line, s.train)}")
             item.setVisible(True)
             self.line_items.append((line, item))
-            if line.source not in in_legend:
-                in_legend.add(line.source)
-                legend.append(("fixed" if line.fixed_hz is not None else "order", k, line.source))
+            if group not in in_legend:
+                in_legend[group] = len(legend)
+                legend.append(("fixed" if kind == "fixed" else "order", k, group))
+        for group, i in in_legend.items():
+            kinds = {l.kind for l in s.lines if excitation_group(l) == group}
+            notes = ["major orders heavier"] if group in has_major else []
+            if "line" in kinds:
+                notes.append("orders and lines |a ± b·N|" if "order" in kinds else "lines |a ± b·N|")
+            if notes:
+                legend[i] = (legend[i][0], legend[i][1], f"{group} ({'; '.join(notes)})")
 
         # coincidences: a ring at the crossing (or at the worst speed when it does not cross)
         xs, ys, pens, sizes, data = [], [], [], [], []
@@ -616,11 +627,14 @@ class CampbellView(QtWidgets.QWidget):
             item.setVisible(False)
         self._layout_labels()
 
-    def above_note(self, above: list[int]) -> str:
-        """Note for the screened modes above the window (indices into modes)."""
+    def above_note(self, above: list[int], short: bool = False) -> str:
+        """Note for the screened modes above the window (indices into modes); ``short``:
+        without the frequencies (where the plot is too crowded for the whole note)."""
         m, s = self.modes, self.screening
         nums = [int(m.number[i]) for i in above]
         fs = [float(m.frequency_hz[i]) for i in above]
+        if short:
+            return f"↑ mode {nums[0]}" if len(nums) == 1 else f"↑ modes {nums[0]}–{nums[-1]}"
         what = (f"mode {nums[0]} ({fmt.hz(fs[0])} Hz)" if len(nums) == 1 else
                 f"modes {nums[0]}–{nums[-1]} ({fmt.hz(fs[0])}–{fmt.hz(fs[-1])} Hz)")
         return f"↑ {what}"
@@ -674,8 +688,8 @@ class CampbellView(QtWidgets.QWidget):
                 sample = pg.BarGraphItem(x=[0], height=[0], width=1, brush=theme.brush(style),
                                          pen=theme.pen(theme.PASS) if style == theme.OPERATING_BAND
                                          else pg.mkPen(None))
-            elif kind == "trip":
-                sample = pg.PlotDataItem(pen=theme.trip_pen())
+            elif kind == "mark":
+                sample = SA.legend_sample(style)
             elif kind == "nf":
                 sample = pg.PlotDataItem(pen=theme.natural_frequency_pen())
             elif kind == "ring":
@@ -729,9 +743,12 @@ class CampbellView(QtWidgets.QWidget):
         return (x, h - th - 0.02 * h, x + tw + 4, h)
 
     def _layout_labels(self, *_args) -> None:
-        """Place the mode, order and fixed-frequency labels where they do not
-        overlap (recomputed when the plot is resized or zoomed)."""
+        """Place the mode, line and fixed-frequency labels where they do not
+        overlap (recomputed when the plot is resized or zoomed).  Labels of mode
+        lines too close for a label each at one place are stacked in frequency
+        order (the highest on top, each next to its own line where there is room)."""
         if self.screening is None or not self._labels:
+            self.above_bar.hide()
             return
         vb = self.plot.vb
         w, h = float(vb.width()), float(vb.height())
@@ -747,20 +764,44 @@ class CampbellView(QtWidgets.QWidget):
         crowded = len(self._labels) > SOFT_PASS_LIMIT
         mode_xs = MODE_LABEL_X[::4] if crowded else MODE_LABEL_X
         mode_ays = (1.0, 0.0) if crowded else (1.0, 0.0, 0.5)
-        requests = []
+        requests, owners = [], []  # owners: label index, or [(label index, dy), ...] of a stack
+        sizes = []
         for item, kind, value in self._labels:
+            if kind == "above" and item.textItem.toPlainText() != value[0]:
+                item.setText(value[0])  # the whole note first; shortened below if it finds no room
             br = item.textItem.boundingRect()
-            tw, th = br.width(), br.height()
+            sizes.append((br.width(), br.height()))
+        mode_ys = {}
+        for n, (item, kind, value) in enumerate(self._labels):
+            if kind == "mode":
+                y = px(0, value)[1]
+                if -sizes[n][1] < y < h + sizes[n][1]:
+                    mode_ys[n] = y
+        stacks = stack_close_labels(mode_ys, sizes, gap=STACK_GAP) if not crowded else []
+        in_stack = {i for st in stacks for i, _dy in st[1]}
+        for top, members in stacks:
+            bw = max(sizes[i][0] for i, _dy in members)
+            bh = max(dy + sizes[i][1] for i, dy in members)
+            spots = [(fx * w, top + shift, 0.0, 0.0) for shift in (0.0, -0.5 * bh, 0.5 * bh)
+                     for fx in mode_xs]
+            requests.append((bw, bh, [[], spots]))  # with the single mode labels (stage 1)
+            owners.append(members)
+        for n, (item, kind, value) in enumerate(self._labels):
+            if n in in_stack:
+                continue
+            tw, th = sizes[n]
+            owners.append(n)
             if kind == "above":  # the note on modes above the window: along the top edge
                 spots = [Spot(2.0 + fx * (w - 4.0), y, fx, 0.0) for y in (2.0, 4.0 + th)
                          for fx in (0.0, 0.5, 0.25, 0.75, 1.0, 0.125, 0.375, 0.625, 0.875)]
-                requests.append((tw, th, [spots[:3], spots[3:]]))  # first with the lines' ends
+                # after the mode labels (they come first in the list): a mode's own label matters more
+                requests.append((tw, th, [[], spots]))
                 continue
             if kind == "mode":  # just above its line, else just below, else on it; left first
-                y = px(0, value)[1]
-                if not -th < y < h + th:  # its line is outside the view (zoomed or panned)
+                if n not in mode_ys:  # its line is outside the view (zoomed or panned)
                     requests.append((tw, th, []))
                     continue
+                y = mode_ys[n]
                 # plain tuples (x, y, ax, ay): a long train asks for thousands per redraw
                 spots = [(fx * w, y, 0.0, ay) for ay in mode_ays for fx in mode_xs]
                 requests.append((tw, th, [[], spots]))  # stage 1
@@ -772,6 +813,9 @@ class CampbellView(QtWidgets.QWidget):
                 for fx in (0.87, 0.75, 0.63, 0.51, 0.39, 0.27):
                     rest += [Spot(fx * w, y, 1.0, 1.0), Spot(fx * w, y, 1.0, 0.0)]
                 requests.append((tw, th, [first, [], rest]))
+                continue
+            if kind == "line":
+                requests.append((tw, th, self._curve_spots(value, w, h, vx0, vx1, vy1, sx, sy)))
                 continue
             # an order line: at its end (right or top edge), else beside the line further back
             slope = value  # Hz per rpm
@@ -792,23 +836,84 @@ class CampbellView(QtWidgets.QWidget):
                 # centred on the line, or beside it: above-left or below-right of the point
                 rest += [Spot(X, Y, 0.5, 0.5), Spot(X - 2, Y - 2, 1.0, 1.0), Spot(X + 2, Y + 2, 0.0, 0.0)]
             requests.append((tw, th, [first, [], rest]))
-        # stage 0: the note and the lines' ends; 1: the modes; 2: the lines' fall-backs
+        # stage 0: the lines' ends; 1: the modes, then the note; 2: the lines' fall-backs
         rings = []
         if self.rings.isVisible() and self._ring_xy is not None:
             # keep the coincidence rings clear of text where there is room
-            xs, ys, sizes = self._ring_xy
-            X, Y, r = (xs - vx0) * sx, (vy1 - ys) * sy, 0.5 * sizes + 1.0
+            xs, ys, ring_sizes = self._ring_xy
+            X, Y, r = (xs - vx0) * sx, (vy1 - ys) * sy, 0.5 * ring_sizes + 1.0
             rings = list(zip((X - r).tolist(), (Y - r).tolist(), (X + r).tolist(), (Y + r).tolist()))
         chosen = place_labels_staged(requests, w, h, blocked=[self._cursor_label_box(w, h, vx0, sx)],
                                      soft=rings)
-        for (item, _kind, _value), spot in zip(self._labels, chosen):
+
+        def put(n, spot):
+            item = self._labels[n][0]
             if spot is None:
                 item.setVisible(False)
-                continue
+                return
             x, y, ax, ay = spot
             item.setVisible(True)
             item.setAnchor((ax, ay))
             item.setPos(vx0 + x / sx, vy1 - y / sy)
+
+        for owner, spot in zip(owners, chosen):
+            if isinstance(owner, int):
+                put(owner, spot)
+                continue
+            for n, dy in owner:  # a stack: each label at its offset below the stack's top
+                put(n, None if spot is None else (spot[0], spot[1] + dy, 0.0, 0.0))
+        # the note on modes above the window, shortened to its mode numbers where the whole
+        # note finds no room (the frequencies stay in its tooltip)
+        for k, (owner, spot) in enumerate(zip(owners, chosen)):
+            if spot is not None or not isinstance(owner, int) or self._labels[owner][1] != "above":
+                continue
+            item, _kind, value = self._labels[owner]
+            item.setText(value[1])
+            br = item.textItem.boundingRect()
+            placed = [box(c, requests[j][0], requests[j][1]) for j, c in enumerate(chosen) if c is not None]
+            again = place_labels([(br.width(), br.height(), requests[k][2][-1])], w, h,
+                                 blocked=placed + [self._cursor_label_box(w, h, vx0, sx)])
+            put(owner, again[0])
+        # no room at all in a crowded plot: the note goes beside the controls above it
+        note = next(((item, value) for item, kind, value in self._labels if kind == "above"), None)
+        outside = note is not None and not note[0].isVisible()
+        if outside:
+            self.above_bar.setText(note[1][0])
+            self.above_bar.setToolTip(note[0].toolTip())
+        if self.above_bar.isVisibleTo(self) != outside:
+            self.above_bar.setVisible(outside)
+
+    def _curve_spots(self, line, w, h, vx0, vx1, vy1, sx, sy):
+        """Label spots of a line f = |a + b N| in stages: where it leaves the plot (its
+        right or top edge), else beside the line further back along it."""
+        x_lo = max(vx0, 0.0)
+        if vx1 <= x_lo:
+            return []
+        xs, fs = line_curve(line, vx1)
+        keep = xs >= x_lo
+        xs, fs = xs[keep], fs[keep]
+        ok = fs > 0
+        X = (xs - vx0) * sx
+        Y = np.full(xs.shape, np.inf)
+        Y[ok] = (vy1 - self._y(fs[ok])) * sy
+        inside = (X >= 0) & (X <= w) & (Y >= 0) & (Y <= h)
+        idx = np.flatnonzero(inside)
+        if not idx.size:
+            return []
+        last = int(idx[-1])
+        first = []
+        Xe, Ye = float(X[last]), float(Y[last])
+        if Xe >= w - 2:  # leaves through the right edge: beside its end, or just above / below
+            first += [Spot(w - 1, Ye, 1.0, 0.5), Spot(w - 1, Ye, 1.0, 1.0), Spot(w - 1, Ye, 1.0, 0.0)]
+        else:  # through the top (or bottom) edge
+            first.append(Spot(Xe, max(Ye, 1.0), 0.5, 0.0 if Ye < 0.5 * h else 1.0))
+        rest = []
+        for t in np.linspace(0.95, 0.1, 18):
+            k = int(idx[int(round(t * (idx.size - 1)))])
+            Xk, Yk = float(X[k]), float(Y[k])
+            rest += [Spot(Xk, Yk, 0.5, 0.5), Spot(Xk - 2, Yk - 2, 1.0, 1.0), Spot(Xk + 2, Yk + 2, 0.0, 0.0),
+                     Spot(Xk + 2, Yk - 2, 0.0, 1.0), Spot(Xk - 2, Yk + 2, 1.0, 0.0)]
+        return [first, [], rest]
 
     def _ring_tip(self, n: int) -> str:
         c = self.screening.coincidences[n]
@@ -849,7 +954,7 @@ class CampbellView(QtWidgets.QWidget):
             return
         rpm = float(self.cursor.value())
         self._cursor_rpm = rpm
-        self.cursor_model.set_rows(R.cursor_rows(nearest_at_speed(s, rpm * RPM), s.margin))
+        self.cursor_model.set_rows(R.cursor_rows(nearest_at_speed(s, rpm * RPM), s.margin, s.train))
         self.cursor_title.setText(f"At cursor speed {fmt.rpm(rpm * RPM)} rpm")
 
     def _mouse_moved(self, ev) -> None:

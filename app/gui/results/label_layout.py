@@ -31,6 +31,11 @@ def _box(spot, w: float, h: float, pad: float):
     return (left - pad, top - pad, left + w + pad, top + h + pad)
 
 
+def box(spot, w: float, h: float, pad: float = 1.5):
+    """The padded box a label of size (w, h) takes at ``spot`` (as the placement counts it)."""
+    return _box(spot, w, h, pad)
+
+
 def _overlap(a, b) -> bool:
     return a[0] < b[2] and b[0] < a[2] and a[1] < b[3] and b[1] < a[3]
 
@@ -123,3 +128,69 @@ def place_labels_staged(labels, width: float, height: float, pad: float = 1.5, b
         if all(c is not None for c in chosen):
             break
     return chosen
+
+
+#: px between the labels of a stack
+STACK_GAP = 1.0
+#: at most this many labels in one stack (a longer run of close lines is split)
+MAX_STACK = 5
+
+
+def _isotonic(values: list[float]) -> list[float]:
+    """Least-squares fit of a non-decreasing sequence to ``values`` (pool adjacent
+    violators; e.g. Barlow et al., Statistical Inference under Order Restrictions, 1972 —
+    from memory)."""
+    blocks = []  # [mean, weight]
+    for v in values:
+        blocks.append([v, 1.0])
+        while len(blocks) > 1 and blocks[-2][0] > blocks[-1][0]:
+            m2, w2 = blocks.pop()
+            m1, w1 = blocks.pop()
+            blocks.append([(m1 * w1 + m2 * w2) / (w1 + w2), w1 + w2])
+    out = []
+    for m, wgt in blocks:
+        out += [m] * int(wgt)
+    return out
+
+
+def stack_close_labels(line_y: dict, sizes, gap: float = STACK_GAP, max_stack: int = MAX_STACK):
+    """Stacks of labels whose horizontal lines lie too close for each to sit just above its
+    own line at one place.  ``line_y``: label index -> its line's y (px, downwards);
+    ``sizes``: (w, h) per label index.  Returns [(top, [(label index, dy), ...]), ...]: the
+    stack's top y and each member's offset below it, highest line first.
+
+    In a stack the top label sits just above its line, the bottom one just below its
+    own, those between on theirs, then moved apart as little as possible (least
+    squares) so that none overlaps the next: the labels keep their lines' order."""
+    order = sorted(line_y, key=lambda i: line_y[i])
+    runs, run = [], []
+    for i in order:
+        if run:
+            prev = run[-1]
+            # close: both labels just above their lines at one x would overlap
+            if line_y[i] - line_y[prev] < sizes[i][1] + gap and len(run) < max_stack:
+                run.append(i)
+                continue
+            runs.append(run)
+        run = [i]
+    if run:
+        runs.append(run)
+    out = []
+    for run in runs:
+        if len(run) < 2:
+            continue
+        hs = [sizes[i][1] for i in run]
+        # wanted top of each label: above its line (first), below (last), centred (others)
+        want = []
+        for k, i in enumerate(run):
+            y = line_y[i]
+            want.append(y - hs[k] if k == 0 else y if k == len(run) - 1 else y - 0.5 * hs[k])
+        # tops t_k with t_k+1 >= t_k + h_k + gap: shift out the cumulative heights, fit, shift back
+        cum = [0.0]
+        for k in range(len(run) - 1):
+            cum.append(cum[-1] + hs[k] + gap)
+        fitted = _isotonic([want[k] - cum[k] for k in range(len(run))])
+        tops = [fitted[k] + cum[k] for k in range(len(run))]
+        top = tops[0]
+        out.append((top, [(i, t - top) for i, t in zip(run, tops)]))
+    return out

@@ -165,3 +165,37 @@ class FlowLegend(pg.GraphicsWidget):
                 text.mapRectToScene(text.boundingRect()))
             out.append(r)
         return out
+
+
+def arrange_key(canvas, legend: FlowLegend, w: float, h: float, side_now: bool,
+                axes_px=(90.0, 70.0), shape: float = 1.6) -> bool:
+    """Put ``legend`` below the plot (row 1) or beside it (column 1) of ``canvas``,
+    whichever leaves the plot the larger area of a ``shape``:1 rectangle (a short wide
+    canvas, e.g. on a 1366 x 768 screen, loses a third of its height to a key below).
+    ``w``, ``h``: the canvas size; ``axes_px``: what the axes and their labels take
+    around the plot.  Returns whether the key is now beside the plot."""
+    ax, ay = axes_px
+    side, side_w = False, None
+    if legend.texts and legend._shown and w > 300 and h > 150:
+        def score(pw, ph):
+            return min(pw, shape * ph) if pw > 0 and ph > 0 else 0.0
+        best = score(w - ax, h - ay - legend.height_for(w - 16))
+        for cand in (190.0, 220.0, 250.0, 280.0, 310.0):
+            if cand > 0.42 * w or legend.height_for(cand) > h - 12:
+                continue
+            sc = score(w - ax - cand, h - ay)
+            if sc > 1.05 * best:
+                best, side, side_w = sc, True, cand
+    ci = canvas.ci
+    if side != side_now:
+        ci.removeItem(legend)
+        if side:
+            ci.addItem(legend, row=0, col=1)
+            ci.layout.setAlignment(legend, QtCore.Qt.AlignTop)
+            ci.layout.setColumnStretchFactor(0, 10)
+            ci.layout.setColumnStretchFactor(1, 0)
+            ci.layout.setHorizontalSpacing(14)
+        else:
+            ci.addItem(legend, row=1, col=0)
+    legend.set_fixed_width(side_w if side else None)
+    return side

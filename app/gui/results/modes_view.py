@@ -113,8 +113,44 @@ class ModesView(QtWidgets.QWidget):
         bottom.addWidget(self.hover)
         rl.addLayout(bottom)
 
+        # damped natural frequencies beside the undamped ones, where the study has them (a tab that
+        # shows only then: the tab bar hides itself with one tab)
+        self.damped_model = RowsModel(R.DAMPED_HEADERS, self, numeric_columns=(0, 1, 2, 3))
+        self.damped_table = make_table_view(self.damped_model, self)
+        self.damped_table.setToolTip("Damped natural frequencies and modal damping ratios from the complex "
+                                     "eigenvalues of the damped train")
+        self.damped_note = QtWidgets.QLabel(self)
+        self.damped_note.setWordWrap(True)
+        self.damped_note.setStyleSheet(f"color: {theme.INK_MUTED};")
+        self.damper_model = RowsModel(R.DAMPER_HEADERS, self, numeric_columns=(0, 1, 2))
+        self.damper_table = make_table_view(self.damper_model, self)
+        self.damper_note = QtWidgets.QLabel(self)
+        self.damper_note.setWordWrap(True)
+        damped_page = QtWidgets.QWidget(self)
+        dl = QtWidgets.QVBoxLayout(damped_page)
+        dl.setContentsMargins(0, 2, 0, 0)
+        dl.setSpacing(3)
+        pair = QtWidgets.QSplitter(QtCore.Qt.Horizontal, damped_page)
+        pair.setChildrenCollapsible(False)
+        pair.addWidget(self.damped_table)
+        pair.addWidget(self.damper_table)
+        pair.setStretchFactor(0, 4)
+        pair.setStretchFactor(1, 3)
+        for t in (self.damped_table, self.damper_table):
+            t.setMinimumHeight(2 * t.verticalHeader().defaultSectionSize() + 30)
+        dl.addWidget(pair, 1)
+        for label in (self.damped_note, self.damper_note):
+            label.setSizePolicy(QtWidgets.QSizePolicy.Preferred, QtWidgets.QSizePolicy.Minimum)
+            dl.addWidget(label)
+        self.damped_page = damped_page
+        self.left_tabs = QtWidgets.QTabWidget(self)
+        self.left_tabs.setDocumentMode(True)
+        self.left_tabs.setTabBarAutoHide(True)
+        self.left_tabs.addTab(self.table, "Natural frequencies")
+        self.damped = None
+
         split = QtWidgets.QSplitter(QtCore.Qt.Horizontal, self)
-        split.addWidget(self.table)
+        split.addWidget(self.left_tabs)
         split.addWidget(right)
         split.setStretchFactor(0, 2)
         split.setStretchFactor(1, 3)
@@ -145,7 +181,40 @@ class ModesView(QtWidgets.QWidget):
         elif self.modes is not None and 0 <= self._index < len(self.modes):
             keep = R.mode_index(study.modes, int(self.modes.number[self._index]))
         self.set_modes(study.modes, study.above_screening_limit, keep, screened=study.screening is not None)
+        self.set_damped(getattr(study, "damped", None), getattr(study, "damper", None))
         return None
+
+    def set_damped(self, damped, damper=None) -> None:
+        """Damped natural frequencies and damping ratios (core.damped.DampedModes) and, where the
+        train has a viscous damper, its free and locked frequencies (core.damped.DamperBounds), in
+        a tab beside the undamped frequencies; None: no such tab."""
+        self.damped = damped
+        i = self.left_tabs.indexOf(self.damped_page)
+        if damped is None:
+            if i >= 0:
+                self.left_tabs.removeTab(i)
+            self.damped_model.set_rows([])
+            self.damper_model.set_rows([])
+            return
+        if i < 0:
+            self.left_tabs.addTab(self.damped_page, "Damped")
+            i = self.left_tabs.indexOf(self.damped_page)
+        self.left_tabs.setTabToolTip(i, "Damped natural frequencies and modal damping ratios"
+                                        + ("; the viscous damper free and locked" if damper is not None else ""))
+        self.damped_model.set_rows(R.damped_rows(damped))
+        fit_columns(self.damped_table, max_width=200)
+        self.damped_note.setText(R.damped_note(damped))
+        self.damped_note.setVisible(bool(self.damped_note.text()))
+        has_damper = damper is not None
+        self.damper_note.setVisible(has_damper)
+        self.damper_table.setVisible(has_damper)
+        if has_damper:
+            names = ", ".join(self.modes.train.name_of(l) if self.modes is not None else l for l in damper.links)
+            self.damper_note.setText(f"Viscous damper ({names}): {damper.statement}")
+            self.damper_model.set_rows(R.damper_rows(damper))
+            fit_columns(self.damper_table, max_width=200)
+        else:
+            self.damper_model.set_rows([])
 
     def set_unit_system(self, system: str) -> None:
         """Modal torque axis and tips in the display unit system."""
@@ -185,6 +254,7 @@ class ModesView(QtWidgets.QWidget):
         self.select_mode(select)
 
     def clear(self, message: str = "") -> None:
+        self.set_damped(None)
         self.modes, self._line, self._index = None, None, -1
         self._line_key = None
         self.table_model.set_rows([])

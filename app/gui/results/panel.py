@@ -1,8 +1,10 @@
 """ResultsPanel: every result view of the desktop program in one widget.
 
-A verdict line on top, then one tab per result view (natural frequencies and
-mode shapes, the interference diagram, the forced response, and the views
-later analyses add) and the screening-only caution at the bottom.  The main
+A verdict line on top (the headline every view states, :func:`app.wording.headline`),
+then one tab per result view (natural frequencies and mode shapes with the damped
+ones where the study has them, the interference diagram, the forced response with
+the acceptance checks, the transients run on request, and the views later analyses
+add) and the screening-only caution at the bottom.  The main
 window feeds it one :class:`core.study.Study` after every solve
 (``set_study``); the panel only shows what the study holds.
 
@@ -31,6 +33,7 @@ import numpy as np
 from PySide6 import QtCore, QtGui, QtWidgets
 
 from app import formatting as fmt
+from app import wording
 from app.gui import theme
 from core.about import CAUTION
 
@@ -38,9 +41,10 @@ from . import rows as R
 from .campbell_view import CampbellView
 from .modes_view import ModesView
 from .response_view import ResponseView
+from .transient_view import TransientView
 from .table import write_csv
 
-TAB_MODES, TAB_CAMPBELL, TAB_RESPONSE = 0, 1, 2
+TAB_MODES, TAB_CAMPBELL, TAB_RESPONSE, TAB_TRANSIENTS = 0, 1, 2, 3
 
 # the look of a tab that cannot show anything (greyed text, not just unresponsive),
 # and of views that show the last valid model; theme.py is the natural home of these
@@ -96,6 +100,10 @@ class ResultsPanel(QtWidgets.QWidget):
         self.add_view("response", self.response_view, "Forced response",
                       "Damped vibratory torque and stress against speed")
         self.response_tip = self.result_tabs[TAB_RESPONSE].tip
+        self.transient_view = TransientView(self)
+        self.add_view("transients", self.transient_view, "Transients",
+                      "Start-ups, short circuits and load steps in the time domain: torque and speed against "
+                      "time, peak torques and the fatigue each event spends (run on request)")
 
         self.caution = QtWidgets.QLabel(CAUTION, self)
         self.caution.setWordWrap(True)
@@ -194,6 +202,9 @@ class ResultsPanel(QtWidgets.QWidget):
         if message == self.stale_message:
             return
         self.stale_message = message
+        for tab in self.result_tabs:
+            if hasattr(tab.view, "set_stale"):
+                tab.view.set_stale(message)
         if message is None:
             self.tabs.setGraphicsEffect(None)
         else:
@@ -230,6 +241,13 @@ class ResultsPanel(QtWidgets.QWidget):
     def current_mode_index(self) -> int:
         return self.modes_view.current_index() if self.modes is not None else -1
 
+    def shutdown(self, msecs: int = 3000) -> None:
+        """The window is closing: cancel a transient run and wait for the workers (the main
+        window calls this before it goes)."""
+        self.transient_view.cancel()
+        self.transient_view.wait(msecs)
+        self.response_view._pool.waitForDone(msecs)
+
     def set_caution_visible(self, visible: bool) -> None:
         """The main window may hide this copy when it shows the caution itself."""
         self.caution.setVisible(visible)
@@ -248,10 +266,11 @@ class ResultsPanel(QtWidgets.QWidget):
             ("Natural frequencies as CSV…", "csv", self.export_frequency_csv, "natural_frequencies.csv"),
             ("Coincidences as CSV…", "csv", self.export_coincidence_csv, "coincidences.csv"),
             ("Forced response peaks as CSV…", "csv", self.export_response_csv, "forced_response.csv"),
+            ("Transient peaks and damage as CSV…", "csv", self.export_transient_csv, "transient.csv"),
             (None, None, None, None),
         ]
         for name, key in (("Mode shape plot", "modes"), ("Interference diagram", "campbell"),
-                          ("Forced response plot", "response")):
+                          ("Forced response plot", "response"), ("Transient plot", "transients")):
             for ext in ("png", "svg"):
                 items.append((f"{name} as {ext.upper()}…", ext,
                               (lambda path, k=key: self.export_plot(k, path)), f"{key}.{ext}"))
@@ -319,11 +338,20 @@ class ResultsPanel(QtWidgets.QWidget):
         title = f"Forced response peaks: {self.train.title}; {judged}"
         write_csv(path, title, R.response_headers(self.unit_system, one_line=True), rv.peak_model.rows)
 
-    def export_plot(self, which: str, path: str) -> None:
-        """``which``: 'modes', 'campbell' or 'response'; format from the extension (.png / .svg)."""
+    def export_transient_csv(self, path: str) -> None:
+        """The transient peak and damage table of the event shown (units of the display system)."""
         self._check_exportable()
+        if self.transient_view.results is None:
+            raise ValueError("no transient has been run on this model (Transients tab, Run)")
+        self.transient_view.export_csv(path)
+
+    def export_plot(self, which: str, path: str) -> None:
+        """``which``: 'modes', 'campbell', 'response' or 'transients'; format from the extension (.png / .svg)."""
+        self._check_exportable()
+        if which == "transients" and self.transient_view.results is None:
+            raise ValueError("no transient has been run on this model (Transients tab, Run)")
         canvas = {"modes": self.modes_view.canvas, "campbell": self.campbell_view.canvas,
-                  "response": self.response_view.canvas}[which]
+                  "response": self.response_view.canvas, "transients": self.transient_view.canvas}[which]
         if which == "campbell" and self.screening is None:
             raise ValueError("there is no interference diagram (no operating data)")
         if which == "response" and self.response is None:
@@ -355,49 +383,54 @@ class ResultsPanel(QtWidgets.QWidget):
 
     def verdict_text(self) -> tuple[str, bool | None]:
         """The verdict line of the study shown and its colour (True green, False red,
-        None grey): the separation screening and the forced response together."""
-        st, s = self.study, self.screening
-        if s is None:
-            text, ok = "Natural frequencies only: no operating data to screen against.", None
-        elif not s.passed:
-            w = s.failures[0]
-            n = len(s.failures)
-            text, ok = (f"FAIL: {n} coincidence{'s' if n > 1 else ''} inside the "
-                        f"{fmt.percent(s.margin)} % margin; worst mode {w.mode} "
-                        f"({fmt.hz(w.frequency_hz)} Hz) with {w.line.label}, "
-                        f"{fmt.percent(w.separation)} %."), False
-        else:
-            text, ok = (f"PASS: every excitation keeps at least {fmt.percent(s.margin)} % "
-                        "separation from the natural frequencies in the operating range."), True
-        ex = st.exceedances if st is not None and st.response is not None else ()
-        if ex:
-            e = ex[0]
-            more = f"; the forced response exceeds {len(ex)} permissible value(s), first " \
-                   f"{self.train.name_of(e.link_id)} ({e.quantity}) at {fmt.rpm(e.speed)} rpm"
-            if ok:
-                text, ok = "FAIL: separation passes" + more + ".", False
-            else:
-                text = text.rstrip(".") + more + "."
-        elif st is not None and st.response_error is not None and st.has_amplitudes:
+        None grey): the headline every view states (:func:`app.wording.headline`) —
+        the separation verdict where every mode clears, else the acceptance argument."""
+        st = self.study
+        if st is None:
+            return "No results yet.", None
+        text, ok = wording.headline(st)
+        if st.response_error is not None and st.has_amplitudes:
             text = text.rstrip(".") + f" (forced response not computed: {st.response_error})."
         return text, ok
 
     def verdict_summary(self) -> tuple[str, bool | None]:
         """A short verdict for a status bar and its colour (True green, False red,
-        None grey) that follows the panel: no PASS while the model on screen has errors."""
-        if self.study is None:
+        None grey) that follows the headline: its first word (PASS, FAIL, OPEN) and
+        what it rests on; no PASS while the model on screen has errors."""
+        st = self.study
+        if st is None:
             return "no results", None
         if self.is_stale:
             return "no verdict (the model has an error)", None
+        if st.screening_error is not None:
+            return "no verdict (cannot screen)", None
         text, ok = self.verdict_text()
-        if self.screening is None and ok is None:
+        s = st.screening
+        if s is None:
+            if st.acceptance_failed or st.response_failed:
+                return "FAIL (forced response)", False
             return "no screening (no operating data)", None
-        if ok:
+        word = text.split(" — ", 1)[0]
+        arg = st.argument if not s.passed else None
+        n_checks = len(st.acceptance.failures) if st.acceptance is not None else len(st.exceedances)
+        parts = []
+        if arg is not None:
+            accepted = len(arg.forced_response)
+            failed = sum(1 for m in arg.modes if m.basis == "fail")
+            open_ = sum(1 for m in arg.modes if m.basis == "open")
+            if accepted:
+                parts.append(f"{accepted} mode{'s' if accepted != 1 else ''} accepted on the forced response")
+            if failed:
+                parts.append(f"{failed} mode{'s' if failed != 1 else ''} failing")
+            if open_:
+                parts.append(f"{open_} mode{'s' if open_ != 1 else ''} not yet accepted")
+        elif not s.passed:
+            parts.append(f"{len(s.failures)} inside the margin")
+        if n_checks and ok is not True:
+            parts.append(f"{n_checks} check{'s' if n_checks != 1 else ''} fail{'' if n_checks != 1 else 's'}")
+        if word == "PASS" and not parts:
             return "PASS", True
-        n = len(self.screening.failures) if self.screening is not None else 0
-        ex = len(self.study.exceedances) if self.study.response is not None else 0
-        parts = ([f"{n} inside the margin"] if n else []) + ([f"{ex} over a permissible value"] if ex else [])
-        return f"FAIL ({', '.join(parts)})", False
+        return (f"{word} ({'; '.join(parts)})" if parts else word), ok
 
     def _show_verdict(self) -> None:
         m = self.modes

@@ -8,7 +8,9 @@ core already computes: separations, crossings and bands come from
 """
 from __future__ import annotations
 
+import functools
 import math
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -22,9 +24,12 @@ FREQUENCY_HEADERS = ("Mode", "Hz", "cpm", "Rigid body", "Largest strain energy",
 FREQUENCY_HEADERS_SHOWN = ("Mode", "Hz", "cpm", "Rigid\nbody", "Largest strain\nenergy",
                            "Largest kinetic\nenergy", "Screening")
 SCREENED, ABOVE_LIMIT, NOT_SCREENED_RIGID = "screened", "above the screening limit", "not screened"
-COINCIDENCE_HEADERS = ("Mode", "Natural Hz", "Excitation", "Order", "Margin %", "Status",
+COINCIDENCE_HEADERS = ("Mode", "Natural Hz", "Excitation", "Order / line", "Margin %", "Status",
                        "Crossing rpm", "Band rpm")
-CURSOR_HEADERS = ("Excitation", "Order", "Excitation Hz", "Nearest mode", "Natural Hz",
+#: the same on screen, on two lines, so that a line's formula fits beside the excitation's name
+COINCIDENCE_HEADERS_SHOWN = ("Mode", "Natural\nHz", "Excitation", "Order /\nline", "Margin\n%", "Status",
+                             "Crossing\nrpm", "Band\nrpm")
+CURSOR_HEADERS = ("Excitation", "Order / line", "Excitation Hz", "Nearest mode", "Natural Hz",
                   "Separation %")
 
 
@@ -115,6 +120,44 @@ def band_text(band) -> str:
     return f"{fmt.rpm(lo)}–{fmt.rpm(hi)}"
 
 
+_DECIMAL = re.compile(r"\d+\.\d{4,}")
+
+
+def _short_numbers(text: str) -> str:
+    """Numbers in a formula to four significant digits ('12.0968' -> '12.1', '24.1935' ->
+    '24.19'): a table cell or a plot label stays short; the tooltip gives the full text."""
+    if "." not in text:
+        return text
+    return _DECIMAL.sub(lambda m: f"{float(m.group()):.4g}", text)
+
+
+@functools.lru_cache(maxsize=4096)
+def line_order_text(line) -> str:
+    """What an excitation line is, in a table's "Order / line" column: "fixed" for a
+    fixed frequency, the order ("2", "0.5") for an order line, and the formula
+    ("|300 Hz − 12.1·N|") for a line f = |a + b·N| (an inverter or interharmonic line)."""
+    kind = line.kind
+    if kind == "fixed":
+        return "fixed"
+    if kind == "order":
+        return _short_numbers(fmt.order(line.order if line.order is not None else line.slope))
+    text = line.formula or line.label
+    return _short_numbers(text[4:] if text.startswith("f = ") else text)
+
+
+def line_words(line, train=None) -> str:
+    """The line in words for a tooltip: a fixed frequency, an order of a named shaft, or
+    a line by its formula with what N is."""
+    kind = line.kind
+    if kind == "fixed":
+        return f"the fixed frequency {line.fixed_hz:g} Hz"
+    shaft = name_of(train, line.at)
+    if kind == "order":
+        return f"order {line_order_text(line)} of {shaft}" + (" (a major order)" if line.major else "")
+    formula = line.formula or line_order_text(line)
+    return f"the line {formula} (N: speed of {shaft} in rev/s)"
+
+
 def coincidence_rows(screening, modes=None) -> list[Row]:
     """Coincidences in core's order (worst first)."""
     modes = modes if modes is not None else screening.modes
@@ -124,30 +167,30 @@ def coincidence_rows(screening, modes=None) -> list[Row]:
         index.setdefault(int(number), i)
     for c in screening.coincidences:
         idx = index.get(int(c.mode))
-        where = ("fixed frequency" if c.order is None else
-                 f"order {fmt.order(c.order)} of {name_of(screening.train, c.line.at)}")
+        where = line_words(c.line, screening.train)
         tip = (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
                f"smallest separation {fmt.percent(c.separation)} % over the operating range "
                f"(required {fmt.percent(screening.margin)} %) at {fmt.rpm(c.worst_speed)} rpm. "
                "Click to show this mode.")
-        rows.append(Row([str(c.mode), fmt.hz(c.frequency_hz), c.source, fmt.order(c.order),
+        rows.append(Row([str(c.mode), fmt.hz(c.frequency_hz), c.source, line_order_text(c.line),
                          fmt.percent(c.separation), c.status.upper(), fmt.rpm(c.crossing_speed),
                          band_text(c.band)], tip, c.status, idx, {"coincidence": c}))
     return rows
 
 
-def cursor_rows(nearest: list[dict], margin: float) -> list[Row]:
+def cursor_rows(nearest: list[dict], margin: float, train=None) -> list[Row]:
     """Speed-cursor read-out from :func:`core.screening.nearest_at_speed`."""
     rows = []
     for r in nearest:
         line = r["line"]
         sep = r["separation"]
         status = None if sep is None else ("fail" if sep < margin else "pass")
-        rows.append(Row([line.source, fmt.order(line.order), fmt.hz(r["excitation_hz"]),
+        tip = f"{line.source}: {line_words(line, train)}"
+        rows.append(Row([line.source, line_order_text(line), fmt.hz(r["excitation_hz"]),
                          "—" if r["mode"] is None else str(r["mode"]),
                          "—" if r["natural_hz"] is None else fmt.hz(r["natural_hz"]),
                          "—" if sep is None else fmt.percent(sep)],
-                        "", status, r["mode"], {"nearest": r}))
+                        tip, status, r["mode"], {"nearest": r}))
     return rows
 
 
@@ -210,3 +253,163 @@ def _converted(value, kind, unit: str) -> str:
         return f"{v:.0f}"
     digits = max(0, 2 - math.floor(math.log10(abs(v))))
     return f"{round(v, digits):.{digits}f}".rstrip("0").rstrip(".") if digits else f"{v:.0f}"
+
+
+# ------------------------------------------------------------ acceptance (issue 12)
+ACCEPTANCE_HEADERS = ("Link", "Criterion", "Load case", "Speed band", "Utilisation", "Found / limit", "at rpm",
+                      "Status")
+#: the same on screen, short enough for a 1366-pixel screen
+ACCEPTANCE_HEADERS_SHOWN = ("Link", "Criterion", "Load case", "Band", "Utilisation", "Found / limit", "at\nrpm",
+                            "Status")
+#: a speed band in a table cell (app.wording.speed_band in the row's tooltip)
+SHORT_BANDS = {"operating": "operating", "transient": "start-up", "overspeed": "overspeed"}
+
+
+def check_quantity(check) -> str:
+    """Which curve of the forced response shows a check: 'torque' or 'stress'
+    (a safety factor rests on the stress, a dissipated power on the torque)."""
+    return "stress" if check.unit in ("Pa", "1") else "torque"
+
+
+def check_value_text(value: float, unit: str, unit_system: str = "SI", limit: bool = False) -> str:
+    """A check's value (or limit) with its unit in the display unit system: a torque,
+    a stress, a power, or a safety factor (the limit of a safety factor is the factor
+    asked for: '≥ 1.5')."""
+    if value is None or not math.isfinite(value):
+        return "—"
+    torque, stress, tu, su = torque_stress_formats(unit_system)
+    if unit == "N*m":
+        return f"{torque(value)} {tu}"
+    if unit == "Pa":
+        return f"{stress(value)} {su}"
+    if unit == "W":
+        if unit_system == "SI":
+            return f"{fmt.power_kw(value)} kW"
+        pu = units.display_unit(units.POWER, unit_system)
+        return f"{_converted(value, units.POWER, pu)} {pretty(pu)}"
+    text = f"{value:.3g}"
+    return f"≥ {text}" if limit else f"safety factor {text}"
+
+
+def acceptance_rows(acceptance, train=None, unit_system: str = "SI", load_case: str | None = None) -> list[Row]:
+    """Acceptance checks (:attr:`core.acceptance.Acceptance.checks`), worst utilisation
+    first — all, or those of one ``load_case``: the link by name (and its segment), the
+    criterion in words (:func:`app.wording.criterion`), load case, speed band,
+    utilisation (drawn as a bar on screen), what was found against its limit, the speed of
+    the worst point, and pass or fail.  ``key``: the check;
+    ``extra['utilisation']``: the fraction."""
+    from app import wording
+    rows = []
+    for c in acceptance.worst_first():
+        if load_case is not None and c.load_case != load_case:
+            continue
+        link = name_of(train, c.link) + (f", segment {c.segment + 1}" if c.segment is not None else "")
+        status = "pass" if c.passed else "fail"
+        crit = wording.criterion(c.criterion)
+        band = wording.speed_band(c.speed_band)
+        u = float(c.utilisation)
+        found = check_value_text(c.value, c.unit, unit_system)
+        limit = check_value_text(c.limit, c.unit, unit_system, limit=True)
+        if c.unit in ("N*m", "Pa", "W"):  # one unit for both: '17.5 / 5 kN·m'
+            unit = found.rsplit(" ", 1)[-1]
+            pair = f"{found.rsplit(' ', 1)[0]} / {limit.rsplit(' ', 1)[0]} {unit}"
+        else:  # a safety factor found against the one asked for
+            pair = f"{float(c.value):.3g} / {limit}" if math.isfinite(c.value) else f"— / {limit}"
+        tip = (f"{link}: {crit} — {fmt.percent(u)} % of its limit ({found} against {limit}) at "
+               f"{fmt.rpm(c.at)} rpm, {band}" + (f", load case {c.load_case}" if c.load_case else "")
+               + (f". {c.note[0].upper()}{c.note[1:]}" if c.note else "")
+               + f". {status.upper()}. Click to show this link's curve at this speed.")
+        rows.append(Row([link, crit, c.load_case or "—", SHORT_BANDS.get(c.speed_band, band),
+                         f"{fmt.percent(u)} %", pair, fmt.rpm(c.at), status.upper()],
+                        tip, status, c, {"utilisation": u, "check": c}))
+    return rows
+
+
+def band_peak_rows(band_peaks, band: str, train=None, unit_system: str = "SI", acceptance=None,
+                   link_ids=None) -> list[Row]:
+    """Per link, the peaks of one speed band (:attr:`core.study.Study.band_peaks`: polished
+    between computed speeds), the columns of :func:`response_headers`: peak torque and
+    stress (sum of order amplitudes) with their speeds, the permissible values the
+    acceptance judged this band against (transient values outside the operating
+    range where given), and the acceptance's verdict on them (``key``: the link id)."""
+    torque, stress, tu, su = torque_stress_formats(unit_system)
+    peaks = {}
+    for p in band_peaks:
+        if p.band == band and p.combination == "sum" and p.quantity in ("torque", "stress"):
+            peaks[(p.link_id, p.quantity)] = p
+    limits, verdict = {}, {}
+    if acceptance is not None:
+        for c in acceptance.checks:
+            if c.speed_band != band or c.criterion not in ("permissible_torque", "permissible_stress"):
+                continue
+            q = "torque" if c.criterion == "permissible_torque" else "stress"
+            limits[(c.link, q)] = c.limit
+            verdict.setdefault(c.link, []).append(bool(c.passed))
+    ids = link_ids if link_ids is not None else list(dict.fromkeys(p.link_id for p in band_peaks))
+    rows = []
+    from app import wording
+    for lid in ids:
+        t, s = peaks.get((lid, "torque")), peaks.get((lid, "stress"))
+        if t is None and s is None:
+            continue
+        checks = verdict.get(lid)
+        status = None if not checks else ("pass" if all(checks) else "fail")
+        name = name_of(train, lid)
+        kind = (t or s).kind
+        polished = any(p is not None and p.refined for p in (t, s))
+        rows.append(Row([name, kind, torque(t.peak if t else None), fmt.rpm(t.speed if t else None),
+                         torque(limits.get((lid, "torque"))), stress(s.peak if s else None),
+                         fmt.rpm(s.speed if s else None), stress(limits.get((lid, "stress"))),
+                         "—" if status is None else status.upper()],
+                        f"{name}: peaks in the {wording.speed_band(band)} (sum of order amplitudes"
+                        + (", polished between the computed speeds" if polished else "")
+                        + f"), torque in {tu}, stress in {su}.", status, lid))
+    return rows
+
+
+
+# ------------------------------------------------------------ damped modes (issue 13 item 4)
+DAMPED_HEADERS = ("#", "Damped\nHz", "Damping\nratio ζ, %", "Undamped-\nequivalent Hz")
+DAMPER_HEADERS = ("Mode", "Damper\nfree Hz", "Damper\nlocked Hz")
+
+
+def damped_rows(damped) -> list[Row]:
+    """One row per oscillating damped mode (:class:`core.damped.DampedModes`), lowest first:
+    damped natural frequency Im(lambda) / 2 pi, modal damping ratio -Re(lambda) / |lambda|
+    and the undamped-equivalent |lambda| / 2 pi."""
+    rows = []
+    for k, d in enumerate(damped.modes, start=1):
+        zeta = float(d.damping_ratio)
+        rows.append(Row([str(k), fmt.hz(d.frequency_hz), fmt.percent(zeta), fmt.hz(d.natural_frequency_hz)],
+                        f"Damped mode {k}: {fmt.hz(d.frequency_hz)} Hz, damping ratio ζ = {zeta:.4g} "
+                        f"({fmt.percent(zeta)} % of critical); undamped-equivalent {fmt.hz(d.natural_frequency_hz)} Hz.",
+                        None, k))
+    return rows
+
+
+def damped_note(damped) -> str:
+    """What the damped table rests on: overdamped motions, the damping model's notes."""
+    parts = []
+    rates = list(getattr(damped, "overdamped_rates", ()) or ())
+    if rates:
+        parts.append(f"{len(rates)} overdamped motion{'s' if len(rates) != 1 else ''} (decay rate"
+                     f"{'s' if len(rates) != 1 else ''} {', '.join(f'{r:.3g}' for r in rates)} 1/s), e.g. a "
+                     "damper ring creeping against its housing")
+    parts += [str(n) for n in getattr(damped, "notes", ()) or ()]
+    if not damped.modes and not parts:
+        parts.append("no oscillating damped mode")
+    text = "; ".join(parts)
+    return text[:1].upper() + text[1:] + ("." if text and not text.endswith(".") else "")
+
+
+def damper_rows(bounds) -> list[Row]:
+    """Elastic natural frequencies with the viscous damper's ring free and locked
+    (:class:`core.damped.DamperBounds`), mode by mode."""
+    n = max(len(bounds.free_hz), len(bounds.locked_hz))
+    rows = []
+    for k in range(n):
+        free = bounds.free_hz[k] if k < len(bounds.free_hz) else None
+        locked = bounds.locked_hz[k] if k < len(bounds.locked_hz) else None
+        rows.append(Row([str(k + 1), "—" if free is None else fmt.hz(free), "—" if locked is None else fmt.hz(locked)],
+                        "", None, k))
+    return rows

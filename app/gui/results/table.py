@@ -190,3 +190,18 @@ def write_csv(path: str, title: str, headers, rows: list[Row]) -> None:
         w.writerow([h.replace("\n", " ") for h in headers])
         for r in rows:
             w.writerow(list(r.cells))
+
+
+class ElidingComboBox(QtWidgets.QComboBox):
+    """A combo box whose current text, when longer than the box, ends in an ellipsis instead
+    of being cut off (the list shows every entry whole; the tooltip carries the current one)."""
+
+    def paintEvent(self, event):
+        painter = QtWidgets.QStylePainter(self)
+        opt = QtWidgets.QStyleOptionComboBox()
+        self.initStyleOption(opt)
+        painter.drawComplexControl(QtWidgets.QStyle.CC_ComboBox, opt)
+        room = self.style().subControlRect(QtWidgets.QStyle.CC_ComboBox, opt,
+                                           QtWidgets.QStyle.SC_ComboBoxEditField, self).width()
+        opt.currentText = self.fontMetrics().elidedText(opt.currentText, QtCore.Qt.ElideRight, max(room - 2, 10))
+        painter.drawControl(QtWidgets.QStyle.CE_ComboBoxLabel, opt)
