@@ -506,3 +506,19 @@ def test_renamed_link_stays_selected(qtbot, window):
     type_into(qtbot, field_at(window, ("links", 1, "id")), "disc_pack")
     assert window.project.doc["links"][1]["id"] == "disc_pack"
     assert window.selection == ("link", "disc_pack")
+
+
+def test_closing_the_window_cancels_a_transient_run(qtbot, window):
+    """A start-up simulation still running when the user quits is cancelled and waited for:
+    no worker outlives its widgets (a late result after quit used to be a traceback)."""
+    open_sample(qtbot, window, next(p for p in SAMPLES if p.name == "sync_motor_compressor.json"))
+    panel = window.results_panel
+    qtbot.waitUntil(lambda: getattr(window.results, "complete", True), timeout=30000)
+    panel.tabs.setCurrentIndex(panel.tab_index("transients"))
+    view = panel.transient_view
+    assert view.run_button.isEnabled()
+    view.run()
+    assert view.is_running()
+    window.project.undo_stack.setClean()
+    window.close()
+    assert not view.is_running()

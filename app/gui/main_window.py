@@ -963,6 +963,9 @@ class MainWindow(QtWidgets.QMainWindow):
             self.runner.stop()
             self.remove_recovery()
             self.runner.wait(3000)
+            shutdown = getattr(self.results_panel, "shutdown", None)
+            if shutdown is not None:  # a transient run or a response worker still going
+                shutdown()
             event.accept()
         else:
             event.ignore()
