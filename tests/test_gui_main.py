@@ -472,6 +472,21 @@ def test_screenshot_command_writes_a_png(qtbot, tmp_path):
     assert out.stat().st_size > 10_000 and (image.width(), image.height()) == (1200, 750)
 
 
+def test_screenshot_shows_the_results_view_asked_for(qtbot, tmp_path, monkeypatch):
+    """--tab picks the results view in the picture (README images of the interference diagram)."""
+    shown = []
+    real = mw.render_window
+
+    def spy(*args, **kwargs):
+        shown.append(kwargs.get("results_tab"))
+        return real(*args, **kwargs)
+
+    monkeypatch.setattr(mw, "render_window", spy)
+    out = tmp_path / "diagram.png"
+    assert cli_main(["screenshot", str(PUMP), "-o", str(out), "--size", "900x600", "--tab", "interference"]) == 0
+    assert shown == ["campbell"] and out.stat().st_size > 10_000
+
+
 @pytest.mark.parametrize("argv", [
     ["screenshot", "missing.json", "-o", "x.png"],
     ["screenshot", str(PUMP), "-o", "x.png", "--size", "big"],

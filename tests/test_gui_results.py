@@ -478,3 +478,28 @@ def test_dragging_the_speed_cursor_with_the_mouse(panel, qtbot):
     assert rpm == pytest.approx(target, rel=0.03)
     expected = nearest_at_speed(s, rpm * RPM)
     assert [r.cells[2] for r in cv.cursor_model.rows] == [fmt.hz(e["excitation_hz"]) for e in expected]
+
+
+@pytest.mark.parametrize("name", ["fan_drive", "sync_motor_compressor"])
+def test_tolerance_bands_drawn_as_strips(panel, name):
+    """Each natural frequency with a tolerance band is drawn as a shaded strip over exactly
+    [f_low, f_high] of the screening (the corner trains' frequencies, core.tolerance), and the
+    key says what it is; a train without tolerances draws none."""
+    train, modes, s = _solve(SAMPLES[IDS.index(name)])
+    panel.set_results(train, modes, s)
+    panel.tabs.setCurrentIndex(1)
+    cv = panel.campbell_view
+    keys = " ".join(cv.legend.texts)
+    if s.bands is None:
+        assert not cv._tol_item.isVisible()
+        assert "tolerance band" not in keys
+        return
+    assert cv._tol_item.isVisible() and "tolerance band" in keys
+    path = cv._tol_item.path()
+    rects = [path.toSubpathPolygons()[k].boundingRect() for k in range(len(path.toSubpathPolygons()))]
+    f_top = cv.window_top_hz()
+    want = [(s.bands[i, 0], s.bands[i, 1]) for i in cv._shown_modes if s.bands[i, 1] > s.bands[i, 0]]
+    assert len(rects) == len(want)
+    for r, (lo, hi) in zip(rects, want):
+        y0, y1 = sorted((float(cv._y(lo)), float(cv._y(min(hi, 10 * f_top)))))
+        assert (r.top(), r.bottom()) == pytest.approx((y0, y1), rel=1e-9, abs=1e-9)

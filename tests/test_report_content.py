@@ -199,7 +199,8 @@ def test_reader_items_on_the_sample_sheets(sample_sheets):
         assert "from memory" not in text and "common practice" not in text and "no source" not in text
         assert program_line() in text
         assert "Speed ratio (output / input)" in text
-        assert "f_n/1.1 to f_n/0.9" in text
+        # the margin band says what it is: around f_n, or around the tolerance band's edges
+        assert "f_n/1.1 to f_n/0.9" in text or "f_low/1.1 to f_high/0.9" in text
         # sources as a reader expects them, and the edition to confirm
         assert "Wittrick" in text and "Quarterly Journal of Mechanics and Applied Mathematics" in text
         assert "API Standard 617" in text and "confirm the edition" in text
@@ -379,3 +380,31 @@ def test_mode_shape_envelope_keeps_the_extremes():
         assert py[k] == sel.min() and py[k + 1] == sel.max()
     short = np.linspace(0.0, 160.0, 50)
     assert charts.envelope(short, np.sin(short))[0] is short
+
+
+@pytest.mark.parametrize("name", ["fan_drive", "sync_motor_compressor"])
+def test_campbell_draws_the_tolerance_bands(name):
+    """Each screened mode's tolerance band [f_low, f_high] (core.tolerance: the corner trains'
+    frequencies) is a shaded strip of exactly that height; the key names it; none without
+    tolerances."""
+    from reportlab.graphics.shapes import Rect
+
+    from app.report.styles import register_fonts
+    from core.screening import screen
+    register_fonts()
+    s = screen(build_train(load_document(SAMPLE[name])))
+    top = campbell.panel_tops(s)[0]
+    d = campbell.campbell_drawing(s, 500, 300, top)
+    strips = [r for r in d.contents if isinstance(r, Rect) and r.fillColor == charts.TOLERANCE_FILL
+              and r.width > 100]  # not the small sample in the key
+    keys = " ".join(item[3] for item in campbell.legend_items(s, False))
+    if s.bands is None:
+        assert not strips and "tolerance band" not in keys
+        return
+    assert "tolerance band" in keys
+    want = [(lo, min(hi, top)) for (lo, hi), f, e in zip(s.bands, s.modes.frequency_hz, s.modes.elastic)
+            if e and 0 < f <= min(s.cap_hz, top) and hi > lo and lo < top]
+    assert len(strips) == len(want)  # the samples' bands do not overlap
+    # heights in points: the plot maps 0..top Hz onto 300 points
+    for r, (lo, hi) in zip(sorted(strips, key=lambda r: r.y), sorted(want)):
+        assert r.height == pytest.approx((hi - lo) / top * 300, rel=1e-6)

@@ -1,5 +1,5 @@
-"""``twistwise screenshot FILE -o PNG [--size WxH]``: the main window with the
-project's results, rendered offscreen (README pictures, visual checks)."""
+"""``twistwise screenshot FILE -o PNG [--size WxH] [--units SI|US] [--tab VIEW]``: the
+main window with the project's results, rendered offscreen (README pictures, visual checks)."""
 from __future__ import annotations
 
 import os
@@ -15,7 +15,14 @@ def add_parser(sub):
     sc.add_argument("-o", "--output", required=True, metavar="PNG")
     sc.add_argument("--size", default="1600x1000", metavar="WxH")
     sc.add_argument("--units", choices=("SI", "US"), default="SI", help="unit system shown")
+    sc.add_argument("--tab", choices=tuple(TABS), default="modes",
+                    help="results view shown (default: modes)")
     return sc
+
+
+# the --tab words and the results panel's keys for its views
+TABS = {"modes": "modes", "interference": "campbell", "response": "response",
+        "transients": "transients", "design": "design"}
 
 
 def parse_size(text: str) -> tuple[int, int]:
@@ -39,7 +46,9 @@ def run(args) -> int:
     if not os.environ.get("DISPLAY") and not os.environ.get("WAYLAND_DISPLAY"):
         os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
     from ..gui.main_window import render_window
-    image = render_window(doc, args.file, size, getattr(args, "units", "SI") or "SI")
+    tab = TABS[getattr(args, "tab", None) or "modes"]
+    image = render_window(doc, args.file, size, getattr(args, "units", "SI") or "SI",
+                          results_tab=None if tab == "modes" else tab)
     if image.isNull() or not image.save(str(out), "PNG"):
         raise InputError(f"could not write {out}")
     print(f"wrote {out} ({size[0]}x{size[1]})")

@@ -1361,7 +1361,9 @@ def run_gui(path_or_none=None) -> int:
 def render_window(doc, path, size, system: str = "SI", mode_number: int | None = 1,
                   results_tab: int | None = None, selection=None) -> QtGui.QImage:
     """The main window with the project's results, rendered offscreen to an image
-    (``results_tab``: index of the results tab to show; ``selection``: element to select)."""
+    (``results_tab``: index or key of the results tab to show — 'modes', 'campbell',
+    'response', 'transients', ... as the results panel names its views; ``selection``:
+    element to select)."""
     application()
     settings = QtCore.QSettings(str(Path(QtCore.QDir.tempPath()) / "twistwise-screenshot.ini"),
                                 QtCore.QSettings.IniFormat)
@@ -1380,7 +1382,9 @@ def render_window(doc, path, size, system: str = "SI", mode_number: int | None =
                 win.results_panel.select_mode(idx[0])
                 win._show_mode_colour()
     tabs = getattr(win.results_panel, "tabs", None)
-    if results_tab is not None and tabs is not None:
+    if isinstance(results_tab, str) and hasattr(win.results_panel, "tab_index"):
+        results_tab = win.results_panel.tab_index(results_tab)
+    if results_tab is not None and results_tab >= 0 and tabs is not None:
         tabs.setCurrentIndex(results_tab)
     if selection is not None:
         win.set_selection(selection)

@@ -39,6 +39,7 @@ WARN_FILL = "#fbeccc"
 # plot roles
 NATURAL_FREQUENCY = "#1c2430"      # horizontal lines of the natural frequencies
 MARGIN_BAND = (31, 95, 153, 34)    # RGBA fill of a mode's margin band (accent, faint)
+TOLERANCE_BAND = (31, 95, 153, 110)  # RGBA fill of a mode's tolerance band (same hue, denser)
 OPERATING_BAND = (27, 115, 64, 30)  # RGBA fill of the operating speed range
 TRIP_LINE = "#56606e"              # trip / overspeed: dashed, not screened
 CURSOR = "#b3261e"                 # speed cursor

@@ -37,7 +37,8 @@ from core.bands import speed_bands
 
 from .. import formatting as fmt
 
-from .charts import (BAND_COLOURS, BAND_FILL, BARRED_EDGE, BARRED_FILL, OFFSET_DASH, RANGE_EDGE, RANGE_FILL, Plot,
+from .charts import (BAND_COLOURS, BAND_FILL, BARRED_EDGE, BARRED_FILL, OFFSET_DASH, RANGE_EDGE, RANGE_FILL,
+                     TOLERANCE_FILL, Plot,
                      band_strip, bands_text, barred_bands, drawing, excitation_groups, fit_text, line_segments,
                      source_colours)
 from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PASS_INK
@@ -187,9 +188,18 @@ def legend_items(s, above_drawn: bool, acceptance=None) -> list[tuple]:
             items.append(("line", colour[l.source], (3, 2) if fixed else None, _source_text(s.train, l.source, s.lines)))
     items.append(("line", GREY, None, "natural frequency, mode number at the left edge"))
     lo_div, hi_div = f"{1 + m:g}", f"{1 - m:g}"
-    items.append(("fill", BAND_FILL, None,
-                  f"margin band f_n/{lo_div} to f_n/{hi_div}: an excitation frequency f_e inside it is closer "
-                  f"to the natural frequency f_n than {fmt.percent(m)}\u00a0% of f_e"))
+    if getattr(s, "bands", None) is not None:
+        items.append(("fill", BAND_FILL, None,
+                      f"margin band f_low/{lo_div} to f_high/{hi_div}: an excitation frequency f_e inside it is "
+                      f"closer to the nearest edge of the tolerance band than {fmt.percent(m)}\u00a0% of f_e"))
+    else:
+        items.append(("fill", BAND_FILL, None,
+                      f"margin band f_n/{lo_div} to f_n/{hi_div}: an excitation frequency f_e inside it is closer "
+                      f"to the natural frequency f_n than {fmt.percent(m)}\u00a0% of f_e"))
+    if getattr(s, "bands", None) is not None:
+        items.append(("fill", TOLERANCE_FILL, None,
+                      "tolerance band: the natural frequency with the stiffness and inertia tolerances "
+                      "(from the train with every tolerance at its softening end to the one at its stiffening end)"))
     items.append(("line", LIMIT_INK, (4, 1.5, 1, 1.5),
                   f"screening limit, {fmt.hz(s.cap_hz)} Hz: modes above it are listed, not screened"))
     if above_drawn:
@@ -307,6 +317,11 @@ def campbell_drawing(screening, width: float, plot_height: float, y_max_hz: floa
     screened = [(n, f) for n, f in shown if f <= s.cap_hz]
     above = [(n, f) for n, f in shown if f > s.cap_hz]
     barred = barred_ranges(acceptance)
+    # each screened mode's tolerance band [f_low, f_high] (core.tolerance), else f_n itself
+    row_of = {int(modes.number[i]): i for i in range(len(modes))}
+    tol = s.bands if getattr(s, "bands", None) is not None else None
+    edges = {n: ((float(tol[row_of[n], 0]), float(tol[row_of[n], 1])) if tol is not None else (f, f))
+             for n, f in screened}
 
     # labels in data terms first: they decide the right margin
     right, top_edge = [], []
@@ -350,8 +365,13 @@ def campbell_drawing(screening, width: float, plot_height: float, y_max_hz: floa
     p.vband(fmt.rad_s_to_rpm(s.speed_min), fmt.rad_s_to_rpm(s.speed_max), RANGE_FILL, RANGE_EDGE)
     barred_bands(p, barred)
     from .charts import merged_intervals
-    for lo, hi in merged_intervals([(f / (1 + m), f / (1 - m) if m < 1 else y_max_hz) for _, f in screened]):
+    # the margin band runs from the tolerance band's low edge / (1 + m) to its high edge / (1 - m):
+    # the separation is measured from the band edge nearest the excitation
+    for lo, hi in merged_intervals([(edges[n][0] / (1 + m), edges[n][1] / (1 - m) if m < 1 else y_max_hz)
+                                    for n, _ in screened]):
         p.hband(lo, hi, BAND_FILL)  # merged, so that overlapping bands do not darken each other
+    for lo, hi in merged_intervals([edges[n] for n, _ in screened if edges[n][1] > edges[n][0]]):
+        p.hband(lo, min(hi, y_max_hz), TOLERANCE_FILL)
     p.draw_axes()
     band_strip(p, speed_bands(op))
     if op.trip_speed:

@@ -18,6 +18,7 @@ from .. import formatting as fmt
 from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PALETTE, RULE
 
 BAND_FILL = colors.Color(0.55, 0.55, 0.55, alpha=0.18)
+TOLERANCE_FILL = colors.Color(0.12, 0.37, 0.6, alpha=0.35)  # a mode's tolerance band, denser
 RANGE_FILL = colors.Color(0.25, 0.5, 0.85, alpha=0.14)
 RANGE_EDGE = colors.Color(0.25, 0.5, 0.85, alpha=0.9)
 

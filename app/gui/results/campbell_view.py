@@ -136,6 +136,12 @@ class CampbellView(QtWidgets.QWidget):
         self._band_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
         self._band_item.setBrush(theme.brush(theme.MARGIN_BAND))
         self._band_item.setZValue(-30)
+        # the tolerance band of each natural frequency (stiffness and inertia tolerances):
+        # the frequencies the mode can take, between the corner trains' (core.tolerance)
+        self._tol_item = QtWidgets.QGraphicsPathItem()
+        self._tol_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
+        self._tol_item.setBrush(theme.brush(theme.TOLERANCE_BAND))
+        self._tol_item.setZValue(-20)
         self._mode_item = QtWidgets.QGraphicsPathItem()
         self._mode_item.setPen(theme.natural_frequency_pen())
         self._mode_item.setZValue(-5)
@@ -143,7 +149,7 @@ class CampbellView(QtWidgets.QWidget):
                                    "frequencies it lies within the required margin of")
         self.selected_line = pg.InfiniteLine(0.0, angle=0, pen=theme.natural_frequency_pen(True))
         self.selected_line.setZValue(-4)
-        for item in (self._band_item, self._mode_item, self.selected_line):
+        for item in (self._band_item, self._tol_item, self._mode_item, self.selected_line):
             item.setVisible(False)
             self.plot.addItem(item, ignoreBounds=True)
         self._ring_xy = None  # (x, y, size) of the rings drawn, for the label placement
@@ -350,7 +356,7 @@ class CampbellView(QtWidgets.QWidget):
         self._labels = []
         self.above_bar.hide()
         self._marks.clear()
-        for item in [self._band_item, self._mode_item, self.selected_line] + self._line_pool:
+        for item in [self._band_item, self._tol_item, self._mode_item, self.selected_line] + self._line_pool:
             item.setVisible(False)
         self.line_items = []
         self.rings.setVisible(False)
@@ -518,11 +524,21 @@ class CampbellView(QtWidgets.QWidget):
         self._shown_modes = shown
         above = [i for i in shown if m.frequency_hz[i] > f_hi]
         x_lo, x_hi = -0.1 * x_max, 3.0 * x_max
-        bands, lines = QtGui.QPainterPath(), QtGui.QPainterPath()
+        bands, lines, strips = QtGui.QPainterPath(), QtGui.QPainterPath(), QtGui.QPainterPath()
         font = theme.font(theme.SMALL_POINT_SIZE)
+        tol = s.bands if getattr(s, "bands", None) is not None and s.modes is m else None
         for i in shown:
             f = float(m.frequency_hz[i])
             band = margin_band_hz(f, s.margin)
+            if tol is not None and tol[i, 1] > tol[i, 0]:
+                # the separation is measured from the band edge nearest the excitation, so the
+                # margin band runs from the low edge's lower bound to the high edge's upper one
+                f_a, f_b = float(tol[i, 0]), float(tol[i, 1])
+                lo_b, hi_b = margin_band_hz(f_a, s.margin), margin_band_hz(f_b, s.margin)
+                if lo_b is not None and hi_b is not None:
+                    band = (lo_b[0], hi_b[1])
+                t0, t1 = float(self._y(max(f_a, 1e-12))), float(self._y(min(f_b, 10 * f_hi)))
+                strips.addRect(QtCore.QRectF(x_lo, t0, x_hi - x_lo, t1 - t0))
             if band is not None:
                 b0, b1 = float(self._y(band[0])), float(self._y(min(band[1], 10 * f_hi)))
                 bands.addRect(QtCore.QRectF(x_lo, b0, x_hi - x_lo, b1 - b0))
@@ -536,12 +552,17 @@ class CampbellView(QtWidgets.QWidget):
                             (self.above_note(above), self.above_note(above, short=True)))
             self._labels[-1][0].setToolTip(self.above_tip(above))
         self._band_item.setPath(bands)
+        self._tol_item.setPath(strips)
+        self._tol_item.setVisible(tol is not None and bool(shown))
         self._mode_item.setPath(lines)
         self._band_item.setVisible(bool(shown))
         self._mode_item.setVisible(bool(shown))
         self._place_selected_line()
         legend.append(("nf", None, "natural frequency"))
         legend.append(("band", theme.MARGIN_BAND, margin_band_text(s.margin)))
+        if tol is not None:
+            legend.append(("band", theme.TOLERANCE_BAND,
+                           "tolerance band of f_n"))
 
         # excitation lines: one colour per excitation, each line drawn as what it is (a fixed
         # frequency, an order through the origin, or a line f = |a + b N|) and labelled so

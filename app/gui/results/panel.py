@@ -149,6 +149,9 @@ class ResultsPanel(QtWidgets.QWidget):
         return next(t.view for t in self.result_tabs if t.key == key)
 
     def tab_index(self, key: str) -> int:
+        """Index of the view registered under ``key``; -1 when there is none."""
+        if not any(t.key == key for t in self.result_tabs):
+            return -1
         return self.tabs.indexOf(self.view(key))
 
     def _show_in(self, tab: ResultTab) -> None:
