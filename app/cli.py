@@ -97,3 +97,7 @@ def main(argv: list[str] | None = None) -> int:
         except (BrokenPipeError, OSError):
             pass
         return EXIT_INTERNAL
+
+
+if __name__ == "__main__":  # python3 -m app.cli ..., the same as python3 -m app ...
+    sys.exit(main())

@@ -4,6 +4,7 @@ desktop canvas and the review sheet).
 Discs get integer columns (left to right along the power flow) and rows (the
 main line on row 0, every branch on a row of its own below).  The longest
 line from an end disc runs straight across, as an engineer sketches a train.
+Links in parallel between the same two discs get lanes, to be drawn side by side.
 """
 from __future__ import annotations
 
@@ -19,6 +20,15 @@ class Placement:
     grounds: list = field(default_factory=list)  # (link id, disc id, side -1 left / +1 right)
     n_columns: int = 0
     n_rows: int = 0
+    # links in parallel between the same two discs: link id -> (lane, lanes), lanes >= 2;
+    # drawn side by side, lane 0 on top (see lane_offset)
+    lanes: dict = field(default_factory=dict)
+
+    def lane_offset(self, link_id, spacing: float) -> float:
+        """Offset across the line for a link drawn in parallel with others, centred on the
+        line between its discs: 0 for a link alone, else (lane - (lanes - 1) / 2) * spacing."""
+        lane, lanes = self.lanes.get(link_id, (0, 1))
+        return (lane - (lanes - 1) / 2.0) * spacing
 
 
 def place(discs: list[str], links: list[tuple[str, str, str]]) -> Placement:
@@ -30,15 +40,23 @@ def place(discs: list[str], links: list[tuple[str, str, str]]) -> Placement:
     known = set(discs)
     adj: dict[str, list[str]] = {d: [] for d in discs}
     grounded = []
+    pairs: dict[frozenset, list] = {}  # links between each pair of discs, in file order
     for lid, a, b in links:
         if a == GROUND and b in known:
             grounded.append((lid, b))
         elif b == GROUND and a in known:
             grounded.append((lid, a))
         elif a in known and b in known and a != b:
-            adj[a].append(b)
-            adj[b].append(a)
+            same = pairs.setdefault(frozenset((a, b)), [])
+            same.append(lid)
+            if len(same) == 1:  # links in parallel add no neighbour
+                adj[a].append(b)
+                adj[b].append(a)
     p = Placement()
+    for same in pairs.values():
+        if len(same) > 1:
+            for i, lid in enumerate(same):
+                p.lanes[lid] = (i, len(same))
     if not discs:
         return p
     seen: set[str] = set()

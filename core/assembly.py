@@ -14,6 +14,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .elimination import RowSum
 from .model import GROUND, Train
 
 
@@ -42,6 +43,24 @@ class Assembly:
     member_edge: np.ndarray  # edge index of each member, -1 for grounded members
     grounded: bool
     distributed: bool
+    # some edge carries more than one member (links in parallel between the same two
+    # discs): an edge's off-diagonal is then the sum of its members' (see edge_sum);
+    # without, edge j is tree member j and the sum is the identity (the fast path)
+    parallel: bool = False
+
+    def edge_sum(self, values):
+        """Off-diagonal per edge from values over the tree members (members with b >= 0,
+        in member order), shape (n_tree_members, ...) -> (n_edges, ...): the dynamic
+        stiffnesses of members in parallel add (they share both end angles)."""
+        if not self.parallel:
+            return values
+        summer = self.__dict__.get("_edge_summer")
+        if summer is None:
+            tree = self.members.b >= 0
+            summer = RowSum(self.member_edge[tree], np.arange(int(tree.sum())),
+                            (len(self.edges_a), int(tree.sum())))
+            self.__dict__["_edge_summer"] = summer
+        return summer @ values
 
     @property
     def n_finite_modes(self) -> int | None:
@@ -140,10 +159,22 @@ def assemble(train: Train) -> Assembly:
     members = Members(ma, mb, mk, mlc, mlink, msc, flip)
     tree = members.b >= 0
     member_edge = np.full(len(ma), -1, np.int64)
-    member_edge[tree] = np.arange(int(tree.sum()))
-    return Assembly(n_nodes + extra, np.asarray(inertia, float), disc_node, s, members,
-                    members.a[tree], members.b[tree], member_edge,
-                    bool(np.any(~tree)), bool(dist.any()))
+    ta, tb = members.a[tree], members.b[tree]
+    n_all = n_nodes + extra
+    pair = np.minimum(ta, tb) * n_all + np.maximum(ta, tb)
+    first_of, inv = np.unique(pair, return_index=True, return_inverse=True)[1:]
+    parallel = len(first_of) < len(pair)
+    if parallel:  # one edge per pair of nodes, in the order of its first member
+        order = np.argsort(first_of, kind="stable")
+        rank = np.empty_like(order)
+        rank[order] = np.arange(len(order))
+        member_edge[tree] = rank[inv.ravel()]
+        ea, eb = ta[first_of[order]], tb[first_of[order]]
+    else:
+        member_edge[tree] = np.arange(int(tree.sum()))
+        ea, eb = ta, tb
+    return Assembly(n_all, np.asarray(inertia, float), disc_node, s, members, ea, eb, member_edge,
+                    bool(np.any(~tree)), bool(dist.any()), parallel)
 
 
 def member_stiffness(members: Members, omega):

@@ -258,8 +258,9 @@ def _ring_side(train: Train, link: Link) -> set[str]:
     """Discs on the smaller side of ``link`` (the ring of a damper): the side with fewer
     discs, or less inertia when equal."""
     adj = {d: [] for d in train.disc_ids}
+    pair = {link.from_id, link.to_id}
     for l in train.links:
-        if l is link or l.grounded:
+        if l.grounded or {l.from_id, l.to_id} == pair:  # the link and any in parallel with it
             continue
         adj[l.from_id].append(l.to_id)
         adj[l.to_id].append(l.from_id)
@@ -281,9 +282,17 @@ def _ring_side(train: Train, link: Link) -> set[str]:
 
 def damper_locked_train(train: Train) -> Train:
     """The train with every damping-only link made rigid (ring locked to its housing):
-    each becomes a rigid speed-ratio-1 joint, so the discs keep their ids."""
-    links = tuple(replace(l, kind="gear_mesh", stiffness=None, damping=0.0, speed_ratio=1.0)
-                  if l.damping_only else l for l in train.links)
+    each becomes a rigid speed-ratio-1 joint, so the discs keep their ids.  A link in
+    parallel with a locked damper is locked with it (its two ends turn together, so it
+    carries nothing); a shaft's own inertia stays, half at each end."""
+    locked = {frozenset((l.from_id, l.to_id)) for l in train.links if l.damping_only and not l.grounded}
+
+    def lock(l):
+        mass = "lumped" if l.mass != "none" else "none"
+        return replace(l, kind="gear_mesh", stiffness=None, damping=0.0, speed_ratio=1.0, mass=mass)
+
+    links = tuple(lock(l) if l.damping_only or (not l.grounded and frozenset((l.from_id, l.to_id)) in locked)
+                  else l for l in train.links)
     return replace(train, links=links, speed_factor=dict(train.speed_factor))
 
 
@@ -376,14 +385,16 @@ def damper_suggestion(train: Train, link_id: str, mode: int | None = None) -> Da
     where = f"link '{link_id}'"
     if link.kind != "coupling" or link.grounded:
         raise ModelError("a damper is a coupling between its housing and its ring", where, "kind")
-    touching = {d: sum(1 for l in train.links if d in (l.from_id, l.to_id)) for d in (link.from_id, link.to_id)}
-    rings = [d for d, n in touching.items() if n == 1]
+    pair = {link.from_id, link.to_id}
+    group = [l for l in train.links if {l.from_id, l.to_id} == pair]  # the link and any in parallel
+    touching = {d: sum(1 for l in train.links if d in (l.from_id, l.to_id)) for d in pair}
+    rings = [d for d, n in touching.items() if n == len(group)]
     if not rings:
         raise ModelError("neither end is a ring (a disc joined only by this link)", where, "to")
     ring = link.to_id if link.to_id in rings else rings[0]
     housing = link.from_id if ring == link.to_id else link.to_id
     rest = replace(train, discs=tuple(d for d in train.discs if d.id != ring),
-                   links=tuple(l for l in train.links if l.id != link_id),
+                   links=tuple(l for l in train.links if all(l is not g for g in group)),
                    speed_factor={k: v for k, v in train.speed_factor.items() if k != ring})
     modes = natural_modes(rest, n_modes=max(mode or 1, 6))
     h = rest.disc_ids.index(housing)
@@ -406,7 +417,8 @@ def damper_suggestion(train: Train, link_id: str, mode: int | None = None) -> Da
     J_d = train.disc(ring).inertia
     mu = J_d / J_eff
     wn = TWO_PI * float(modes.frequency_hz[pick])
-    k_now = 0.0 if link.stiffness is None else link.stiffness
+    # links in parallel between ring and housing act as one damper: stiffnesses and dampings add
+    k_now = sum(l.total_stiffness for l in group)
     if k_now > 0:
         f, zeta, peak = tuned_optimum(mu)
         k_opt = J_d * (f * wn) ** 2
@@ -416,4 +428,4 @@ def damper_suggestion(train: Train, link_id: str, mode: int | None = None) -> Da
         k_opt = None
         kind = "viscous"
     return DamperSuggestion(link_id, ring, housing, kind, int(modes.number[pick]), wn / TWO_PI, J_d, J_eff,
-                            mu, k_now, link.damping, k_opt, 2.0 * zeta * J_d * wn, peak)
+                            mu, k_now, sum(l.damping for l in group), k_opt, 2.0 * zeta * J_d * wn, peak)

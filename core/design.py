@@ -227,6 +227,14 @@ class _Family:
         slot_of = s.schedule.slot_of_edge
         self.slot = np.full(len(E), -1, np.int64)
         self.slot[self.tree] = slot_of[a.member_edge[E][self.tree]]
+        # members of other links on the same edge (links in parallel): the edge's
+        # off-diagonal is the sum over them all, so theirs is added to this link's
+        self.partners = [np.zeros(0, np.int64)] * len(E)
+        if a.parallel:
+            for j, m in enumerate(E):
+                if self.tree[j]:
+                    shared = np.flatnonzero((a.member_edge == a.member_edge[m]) & (mem.link != li))
+                    self.partners[j] = shared
         # members condensed at a free massless end (see DynamicSystem._condensable)
         self.cond_far = np.full(len(E), -1, np.int64)
         self.cond_leaf = np.full(len(E), -1, np.int64)
@@ -263,7 +271,12 @@ class _Family:
             D[self.pa[j]] += kaa1[j] - kaa0[j]
             if self.tree[j]:
                 D[self.pb[j]] += kaa1[j] - kaa0[j]
-                W[self.slot[j]] = kab1[j] * kab1[j] if squared else kab1[j]
+                kab = kab1[j]
+                if len(self.partners[j]):  # links in parallel: sum first, then square
+                    mem = self.system.asm.members
+                    p = self.partners[j]
+                    kab = kab + end_stiffness(mem.k[p][:, None], mem.L_over_c[p][:, None] * w[None, :])[1].sum(0)
+                W[self.slot[j]] = kab * kab if squared else kab
 
     def _count_piece(self, v, w):
         s = self.system

@@ -28,7 +28,9 @@ shaft, the side its stiffness and torque are referred to), i.e. T x speed ratio
 through every stage, and the branch split by the shares (power balance, any
 machine-design text).  Sign: positive when the link passes power from its
 `from` disc to its `to` disc.  Links to ground carry no mean torque (a support or
-a dashpot to ground transmits no power).
+a dashpot to ground transmits no power).  Links in parallel between the same two
+discs share the pair's power in proportion to their static stiffness
+(:func:`parallel_shares`).
 
 Load cases may also scale the excitations (``excitation_scale``: one factor for
 all, or per excitation name) and reduce one engine cylinder's excitation
@@ -323,13 +325,36 @@ def power_flow(train: Train, load_case: LoadCase) -> np.ndarray:
                 order.append(e)
     below = dict(net)
     flow = np.zeros(len(train.links))
+    pairs: dict[frozenset, list[int]] = {}  # links in parallel between the same two discs
+    for li, l in enumerate(train.links):
+        if not l.grounded:
+            pairs.setdefault(frozenset((l.from_id, l.to_id)), []).append(li)
     for d in reversed(order[1:]):
         p, li = parent[d]
         below[p] += below[d]
-        link = train.links[li]
-        # power leaving the subtree of d through li, in the link's from -> to sense
-        flow[li] = below[d] if link.to_id == d else -below[d]
+        group = pairs[frozenset((p, d))]
+        for lj, share in zip(group, parallel_shares(train, group)):
+            link = train.links[lj]
+            # power leaving the subtree of d through lj, in the link's from -> to sense
+            flow[lj] = share * (below[d] if link.to_id == d else -below[d])
     return flow
+
+
+def parallel_shares(train: Train, group: list[int]) -> np.ndarray:
+    """Fractions of the power (and of the static torque on a common shaft) that links in
+    parallel between the same two discs carry: they share one static twist, so each
+    carries in proportion to its static stiffness referred to one shaft (k s^2, s its
+    own shaft's speed factor; statics of springs in parallel).  A link without stiffness
+    (a damper of damping alone) carries none; when no link has stiffness, in proportion
+    to damping, else equally."""
+    if len(group) == 1:
+        return np.ones(1)
+    links = [train.links[li] for li in group]
+    s = np.array([train.speed_factor[l.from_id if l.from_id != GROUND else l.to_id] for l in links])
+    k = np.array([l.total_stiffness for l in links]) * s * s
+    c = np.array([l.damping for l in links]) * s * s
+    w = k if k.sum() > 0 else c if c.sum() > 0 else np.ones(len(links))
+    return w / w.sum()
 
 
 def link_shaft_speed(train: Train, link) -> float:

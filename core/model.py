@@ -219,11 +219,40 @@ class Train:
         return self.speed_factor[disc_id] / self.speed_factor[reference]
 
 
+def _ratio(link: Link, from_id: str) -> float:
+    """Speed of the other end per unit speed of ``from_id``'s end (1 for a shaft or coupling)."""
+    r = link.speed_ratio if link.kind == "gear_mesh" else 1.0
+    return r if link.from_id == from_id else 1.0 / r
+
+
+def _check_parallel(link: Link, first: Link) -> None:
+    """A link between the same two discs as ``first``: both must turn the discs at one
+    speed ratio, and neither may be a rigid mesh (it would lock the discs together and
+    leave the torque split between it and the other link undetermined)."""
+    where = f"link '{link.id}'"
+    for rigid, other in ((link, first), (first, link)):
+        if rigid.is_rigid:
+            raise ModelError(f"a rigid gear mesh cannot run in parallel with link '{other.id}' between "
+                             f"'{link.from_id}' and '{link.to_id}'; give the mesh a stiffness",
+                             f"link '{rigid.id}'", "stiffness")
+    r_new, r_old = _ratio(link, link.from_id), _ratio(first, link.from_id)
+    if not math.isclose(r_new, r_old, rel_tol=1e-9):
+        field_ = "speed_ratio" if link.kind == "gear_mesh" else "kind"
+        raise ModelError(f"runs in parallel with link '{first.id}' between '{link.from_id}' and "
+                         f"'{link.to_id}', which turns them at a speed ratio of {r_old:.6g}, not "
+                         f"{r_new:.6g}; parallel links must share one speed ratio", where, field_)
+
+
 def check_topology(discs, links) -> dict[str, float]:
     """Validate the tree and return each disc's speed factor (first disc = 1).
 
+    Links may run in parallel (two or more between the same two discs: a shaft
+    and a coupling, a spring and a damper); their dynamic stiffnesses add.  The
+    discs and the pairs they form must still make a tree.
+
     Raises ModelError for duplicate or reserved ids, unknown ids, a link from a
-    disc to itself, a loop, or a disconnected disc.
+    disc to itself, a loop through three or more discs, parallel links of
+    different speed ratios or with a rigid mesh, or a disconnected disc.
     """
     if not discs:
         raise ModelError("the train has no discs", "train", "discs")
@@ -244,6 +273,7 @@ def check_topology(discs, links) -> dict[str, float]:
         return i
 
     adjacency: dict[str, list[tuple[str, float]]] = {i: [] for i in ids}
+    pairs: dict[frozenset, list[Link]] = {}  # links already joining each pair of discs
     for l in links:
         where = f"link '{l.id}'"
         if l.id in link_ids:
@@ -258,6 +288,12 @@ def check_topology(discs, links) -> dict[str, float]:
             if l.kind == "gear_mesh":
                 raise ModelError("a gear mesh cannot run to ground", where, "to")
             continue
+        same = pairs.setdefault(frozenset((l.from_id, l.to_id)), [])
+        if same:  # in parallel with a link between the same two discs: legal, checked
+            _check_parallel(l, same[0])
+            same.append(l)
+            continue
+        same.append(l)
         a, b = find(l.from_id), find(l.to_id)
         if a == b:
             raise ModelError(f"closes a loop between '{l.from_id}' and '{l.to_id}'; "

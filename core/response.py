@@ -656,7 +656,7 @@ def _solve_chunk(train, st: _Setup, w, forcing, forced):
     D = D.astype(complex, copy=False)
     W = np.empty((sch.n_slots, m), complex)
     if len(sch.slot_of_edge):
-        W[sch.slot_of_edge] = kab[st.tree]
+        W[sch.slot_of_edge] = st.asm.edge_sum(kab[st.tree])  # members in parallel add
     rhs = np.asarray(st.disc_to_node_e[:, forced] @ forcing, complex)
     _, _, factors = factor(sch, D, W, st.tiny, logdet=False, keep=True)
     phi = solve_factored(sch, factors, rhs)[st.position]  # back to node order

@@ -96,12 +96,12 @@ class DynamicSystem:
             self._incidence_count = RowSum(rows[keep], cols[keep], (a.n_nodes, len(mem.a)))
             self._free_far_pos = np.where(far_is_a, pa[fe], pb[fe])
             self._free_slot = sch.slot_of_edge[a.member_edge[fe]]
-        self._slot = sch.slot_of_edge[a.member_edge[t]]
-        self._edge_slot = np.empty(0, np.int64)
+        # slot of every edge; without parallel members edge j is tree member j
+        self._slot = sch.slot_of_edge
         self._pa, self._pb = pa, pb
         if not a.distributed:
             self._Kd = self._incidence @ mem.k
-            self._Wd = -mem.k[t]
+            self._Wd = a.edge_sum(-mem.k[t])  # members in parallel: their stiffnesses add
         # points per elimination pass: bounds the working arrays to a few MB
         self.chunk = int(np.clip(2 ** 21 // max(a.n_nodes, 1), 16, 1024))
 
@@ -131,7 +131,7 @@ class DynamicSystem:
             cond = len(self._free_end) and not exact
             D = (self._incidence_count if cond else self._incidence) @ kaa
             D -= self.J[:, None] * (w * w)[None, :]
-            kab = kab[self._tree]
+            kab = self.asm.edge_sum(kab[self._tree])  # sum members in parallel, then square
             Wp[self._slot] = kab * kab if squared else kab
             if cond:
                 mem = self.asm.members

@@ -10,7 +10,8 @@ the review sheet).  Drawing conventions of this program:
   carries a small dot at mid-span;
 * coupling: two flange bars with a spring zig-zag between them;
 * gear mesh: two touching pitch circles, the speed ratio written beside;
-* ground: a hatched support block.
+* ground: a hatched support block;
+* links in parallel between the same two discs: side by side, each on its own lane.
 
 The canvas draws documents that do not build yet (unknown values get a
 neutral size) so the user sees the train while still typing.
@@ -50,6 +51,7 @@ def mesh_ratio_text(link: dict) -> str:
 
 COL_W = 140.0  # scene units between disc columns
 ROW_H = 200.0
+LANE_H = 64.0  # scene units between links drawn in parallel (room for a mesh's pitch circles)
 DISC_W = 22.0
 DISC_H_MIN, DISC_H_MAX = 22.0, 84.0
 PEN_MIN, PEN_MAX = 1.2, 6.0
@@ -152,6 +154,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         self.context_actions: list = []
         self._press_pos = None
         self._names: dict = {}  # disc id -> name shown
+        self._lane_offset: dict = {}  # link id -> offset of its lane (links in parallel)
 
     # ---------------------------------------------------------------- drawing
     def set_document(self, doc: dict, system: str = "SI", error_elements=()) -> None:
@@ -173,6 +176,7 @@ class TrainCanvas(QtWidgets.QGraphicsView):
             if d["id"] in placement.column:
                 pos[d["id"]] = (placement.column[d["id"]] * COL_W, placement.row[d["id"]] * ROW_H)
         ground_side = {lid: side for lid, _d, side in placement.grounds}
+        self._lane_offset = {lid: placement.lane_offset(lid, LANE_H) for lid in placement.lanes}
         bad = set(error_elements)
         self._names = {d["id"]: str(d.get("name") or d["id"]) for d in discs}
 
@@ -180,7 +184,8 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         for l in links:
             key = ("link", l.get("id"))
             sig = ((repr(l), pos.get(l.get("from")), pos.get(l.get("to")),
-                    ground_side.get(l.get("id")), f"link '{l.get('id')}'" in bad, system,
+                    ground_side.get(l.get("id")), self._lane_offset.get(l.get("id")),
+                    f"link '{l.get('id')}'" in bad, system,
                     self._names.get(l.get("from")), self._names.get(l.get("to"))), widths.get(l.get("id")))
             wanted.setdefault(key, []).append((sig, l))
         for d in discs:
@@ -390,12 +395,21 @@ class TrainCanvas(QtWidgets.QGraphicsView):
                 pa, pb = pb, pa
             start = QtCore.QPointF(pa.x() + DISC_W / 2, pa.y())
             end = QtCore.QPointF(pb.x() - DISC_W / 2, pb.y())
-            if abs(pa.y() - pb.y()) < 1e-6:
-                path = [start, end]
-            else:  # branch: across, down to the branch row, across into the disc
-                xm = pa.x() + DISC_W / 2 + 14
-                path = [start, QtCore.QPointF(xm, pa.y()), QtCore.QPointF(xm, pb.y()), end]
-            self._link_body(group, kind, l, path, width, color)
+            off = self._lane_offset.get(lid, 0.0)
+            same_row = abs(pa.y() - pb.y()) < 1e-6
+            xm = start.x() + 14
+            if not off:
+                path = [start, end] if same_row else [  # branch: across, down to its row, across
+                    start, QtCore.QPointF(xm, pa.y()), QtCore.QPointF(xm, pb.y()), end]
+                run = len(path) - 2
+            else:  # in parallel with other links: its own lane, off the line between the discs
+                y = pb.y() + off
+                head = [start, QtCore.QPointF(xm, pa.y())] if same_row else [
+                    start, QtCore.QPointF(xm, pa.y()), QtCore.QPointF(xm, pb.y())]
+                xe = end.x() - 14
+                path = head + [QtCore.QPointF(xm, y), QtCore.QPointF(xe, y), QtCore.QPointF(xe, pb.y()), end]
+                run = len(head)
+            self._link_body(group, kind, l, path, width, color, run)
         tip = self._link_tooltip(l, self._names)
         for child in group.childItems():
             child.setData(0, key)
@@ -442,7 +456,8 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         group.addToGroup(item)
         return item
 
-    def _link_body(self, group, kind, l, pts, width, color):
+    def _link_body(self, group, kind, l, pts, width, color, run=None):
+        """The link's line through ``pts``, its symbol on the segment ``run`` (default the last)."""
         key = ("link", l.get("id"))
         weighted = self._width_items.setdefault(key, [])
 
@@ -450,7 +465,8 @@ class TrainCanvas(QtWidgets.QGraphicsView):
             weighted.append((self._polyline(group, points, self._width_pen(role, color, width)), role, color))
 
         thin = QtGui.QPen(color, 1.3)
-        last_a, last_b = pts[-2], pts[-1]
+        run = len(pts) - 2 if run is None else run
+        last_a, last_b = pts[run], pts[run + 1]
         mid = QtCore.QPointF((last_a.x() + last_b.x()) / 2, last_b.y())
         if kind == "shaft":
             if l.get("mass") == "distributed":
@@ -467,8 +483,8 @@ class TrainCanvas(QtWidgets.QGraphicsView):
         elif kind == "coupling":
             gap = 26.0
             x0, x1 = mid.x() - gap / 2, mid.x() + gap / 2
-            weighted_line(pts[:-1] + [QtCore.QPointF(x0, mid.y())], "main")
-            weighted_line([QtCore.QPointF(x1, mid.y()), last_b], "main")
+            weighted_line(pts[:run + 1] + [QtCore.QPointF(x0, mid.y())], "main")
+            weighted_line([QtCore.QPointF(x1, mid.y())] + pts[run + 1:], "main")
             y = mid.y()
             for x in (x0, x1):  # flange bars
                 bar = QtWidgets.QGraphicsLineItem(x, y - 11, x, y + 11)

@@ -54,19 +54,29 @@ def blank_document() -> dict:
     }
 
 
-def _downstream_link(doc: dict, disc: str) -> int | None:
-    """Index of the link leaving ``disc`` along its own row of the schematic (None at a line end)."""
+def _downstream_links(doc: dict, disc: str) -> list[int]:
+    """Indices of the links leaving ``disc`` along its own row of the schematic to the next
+    disc (several when links run in parallel; empty at a line end)."""
     placement = place_document(doc)
     col, row = placement.column.get(disc), placement.row.get(disc)
+    out, nxt = [], None
     for i, l in enumerate(doc.get("links", [])):
         if not isinstance(l, dict) or disc not in (l.get("from"), l.get("to")):
             continue
         other = l.get("to") if l.get("from") == disc else l.get("from")
-        if other == GROUND:
+        if other == GROUND or other == disc or nxt not in (None, other):
             continue
         if placement.column.get(other) == (col or 0) + 1 and placement.row.get(other) == row:
-            return i
-    return None
+            out.append(i)
+            nxt = other
+    return out
+
+
+def _parallel_to(links: list, link: dict) -> list[dict]:
+    """The other links between the same two discs as ``link`` (links in parallel)."""
+    ends = {link.get("from"), link.get("to")}
+    return [l for l in links if isinstance(l, dict) and l is not link and GROUND not in ends
+            and {l.get("from"), l.get("to")} == ends]
 
 
 def insert_after(doc: dict, selection: tuple[str, str] | None, kind: str) -> tuple[dict, tuple[str, str]]:
@@ -75,7 +85,9 @@ def insert_after(doc: dict, selection: tuple[str, str] | None, kind: str) -> tup
     ``selection`` is ("disc", id), ("link", id) or None (append after the last
     disc).  After a disc in the middle of a line, the line's next link is moved
     to start at the new disc; after a link A->B, the link is split:
-    the new link A->new comes first, then the selected link runs new->B.  Returns (new document, selection of the new disc).
+    the new link A->new comes first, then the selected link runs new->B.  Links in
+    parallel with the one moved (between the same two discs) move with it, so the
+    train stays a tree.  Returns (new document, selection of the new disc).
     """
     if kind not in NEW_LINK_DEFAULTS:
         raise ValueError(kind)
@@ -91,6 +103,8 @@ def insert_after(doc: dict, selection: tuple[str, str] | None, kind: str) -> tup
         old = links[li]
         a, b = old.get("from"), old.get("to")
         template = _disc_template(new, a if a != GROUND else b)
+        for other in _parallel_to(links, old):  # links in parallel follow: they now end on the new disc
+            other["from" if other.get("from") == a else "to"] = d_id
         old["from"] = d_id  # the selected link now runs new disc -> b
         disc_index = ids.index(a) + 1 if a in ids else len(discs)
         discs.insert(disc_index, {"id": d_id, "name": "New disc", "inertia": template})
@@ -100,18 +114,48 @@ def insert_after(doc: dict, selection: tuple[str, str] | None, kind: str) -> tup
     if anchor is None:
         discs.append({"id": d_id, "name": "New disc", "inertia": NEW_DISC_INERTIA})
         return new, ("disc", d_id)
-    nxt = _downstream_link(new, anchor)
+    nxt = _downstream_links(new, anchor)
     discs.insert(ids.index(anchor) + 1, {"id": d_id, "name": "New disc",
                                          "inertia": _disc_template(new, anchor)})
     link = {"id": l_id, "kind": kind, "from": anchor, "to": d_id, **NEW_LINK_DEFAULTS[kind]}
-    if nxt is None:
+    if not nxt:
         links.append(link)
     else:
-        moved = links[nxt]
-        end = "from" if moved.get("from") == anchor else "to"
-        moved[end] = d_id
-        links.insert(nxt, link)
+        for i in nxt:  # the next link (and any in parallel with it) now starts at the new disc
+            moved = links[i]
+            end = "from" if moved.get("from") == anchor else "to"
+            moved[end] = d_id
+        links.insert(nxt[0], link)
     return new, ("disc", d_id)
+
+
+def insert_parallel(doc: dict, selection: tuple[str, str] | None, kind: str | None = None
+                    ) -> tuple[dict, tuple[str, str]]:
+    """Add a link between the same two discs as the selected link (in parallel with it:
+    a second shaft, a damper beside a coupling).  ``kind``: the new link's kind, by
+    default the selected link's; a gear mesh beside a mesh takes its speed ratio or teeth.
+    Returns (new document, selection of the new link); the document is returned
+    unchanged when no link is selected."""
+    new = copy.deepcopy(doc)
+    links = new.setdefault("links", [])
+    if not selection or selection[0] != "link" or selection[1] not in link_ids(new):
+        return new, selection
+    old = links[link_ids(new).index(selection[1])]
+    kind = kind or old.get("kind")
+    if kind not in NEW_LINK_DEFAULTS:
+        kind = "coupling"
+    l_id = unique_id(kind, link_ids(new))
+    link = {"id": l_id, "kind": kind, "from": old.get("from"), "to": old.get("to"), **NEW_LINK_DEFAULTS[kind]}
+    if kind == "gear_mesh" and old.get("kind") == "gear_mesh":
+        link.pop("speed_ratio")
+        for key in ("speed_ratio", "teeth"):
+            if key in old:
+                link[key] = copy.deepcopy(old[key])
+        link["stiffness"] = copy.deepcopy(old.get("stiffness", "1 GN*m/rad"))
+    elif kind == "gear_mesh":
+        link["speed_ratio"] = 1.0  # beside a shaft or coupling both ends turn at one speed
+    links.insert(link_ids(new).index(selection[1]) + 1, link)
+    return new, ("link", l_id)
 
 
 def _disc_template(doc: dict, disc: str | None) -> str:
@@ -150,7 +194,8 @@ def delete_report(doc: dict, selection: tuple[str, str]) -> tuple[dict, list[str
     new["discs"] = [d for d in new.get("discs", []) if not (isinstance(d, dict) and d.get("id") == ident)]
     touching = [l for l in links if isinstance(l, dict) and ident in (l.get("from"), l.get("to"))]
     changes: list[str] = []
-    if len(touching) == 2:
+    ends = [l.get("from") if l.get("to") == ident else l.get("to") for l in touching]
+    if len(touching) == 2 and ends[0] != ends[1]:  # not two links in parallel to one disc
         first, beyond = touching
         near = first.get("from") if first.get("to") == ident else first.get("to")
         end = "from" if beyond.get("from") == ident else "to"

@@ -402,6 +402,10 @@ class MainWindow(QtWidgets.QMainWindow):
                                           "Ctrl+Alt+C", "Insert a disc joined by a coupling after the selection")
         self.act_ins_mesh = self._act("Insert disc + &gear mesh", lambda: self.insert("gear_mesh"),
                                       "Ctrl+Alt+G", "Insert a disc joined by a gear mesh after the selection")
+        self.act_ins_parallel = self._act("Add link in &parallel", self.insert_parallel, None,
+                                          "Add a link between the same two discs as the selected link "
+                                          "(a second shaft, a damper beside a coupling); their "
+                                          "stiffnesses add")
         self.act_delete = self._act("&Delete selected", self.delete_selected, K.Delete,
                                     "Delete the selected disc or link", S.SP_TrashIcon)
         self.act_fit = self._act("&Fit train to view", self._fit, "Ctrl+0", "Show the whole train")
@@ -451,7 +455,7 @@ class MainWindow(QtWidgets.QMainWindow):
         m.addAction(self.act_quit)
         e = mb.addMenu("&Edit")
         for a in (self.act_undo, self.act_redo, None, self.act_ins_shaft, self.act_ins_coupling,
-                  self.act_ins_mesh, self.act_delete):
+                  self.act_ins_mesh, self.act_ins_parallel, self.act_delete):
             e.addSeparator() if a is None else e.addAction(a)
         v = mb.addMenu("&View")
         for a in (self.act_fit, self.act_zoom_in, self.act_zoom_out, None, self.act_colour, None,
@@ -497,8 +501,8 @@ class MainWindow(QtWidgets.QMainWindow):
         self.unit_box.currentTextChanged.connect(self.set_unit_system)
         tb.addWidget(QtWidgets.QLabel(" Units "))
         tb.addWidget(self.unit_box)
-        self.canvas.context_actions = [self.act_ins_shaft, self.act_ins_coupling, self.act_ins_mesh, None,
-                                       self.act_delete, None, self.act_fit]
+        self.canvas.context_actions = [self.act_ins_shaft, self.act_ins_coupling, self.act_ins_mesh,
+                                       self.act_ins_parallel, None, self.act_delete, None, self.act_fit]
         self._update_recent_menu()
 
     def _connect(self):
@@ -567,6 +571,14 @@ class MainWindow(QtWidgets.QMainWindow):
     def insert(self, kind):
         new, sel = edits.insert_after(self.project.doc, self.selection, kind)
         self.project.replace(new, f"Insert disc + {kind.replace('_', ' ')}")
+        self.set_selection(sel)
+
+    def insert_parallel(self):
+        if not self.selection or self.selection[0] != "link":
+            self.statusBar().showMessage("Select a link to add another beside it", 4000)
+            return
+        new, sel = edits.insert_parallel(self.project.doc, self.selection)
+        self.project.replace(new, f"Add link in parallel with '{self.selection[1]}'")
         self.set_selection(sel)
 
     def delete_selected(self):

@@ -24,6 +24,7 @@ DISC_FILL = colors.HexColor("#c9d6e8")
 DISC_EDGE = colors.HexColor("#2b4a73")
 PITCH, MIN_PITCH = 60.0, 40.0
 ROW_H = 50.0
+LANE = 18.0  # points between links drawn in parallel
 MAX_DETAIL_COLUMNS = 240  # about two pages of bands; beyond, one overview drawing
 H_MIN, H_MAX = 7.0, 28.0
 
@@ -132,6 +133,7 @@ def _detailed(pl, train, width: float) -> list[Drawing]:
             d.add(String(4, height - 9, f"part {k + 1} of {len(bands)} (columns {c0 + 1}–{c1} of {n_cols})",
                          fontName=FONT, fontSize=6, fillColor=GREY))
         bw = min(14.0, pitch * 0.3)
+        taken: list[tuple[float, float, float, float]] = []  # label boxes (disc labels keep clear)
         # links first, so that the blocks sit on top of the lines
         for l in train.links:
             if l.grounded:
@@ -165,6 +167,20 @@ def _detailed(pl, train, width: float) -> list[Drawing]:
                 x_start, x_end = margin_l - 6, X(cb) - bw / 2
                 y = yb
             width_line = 1.8 if l.kind == "shaft" else 1.0
+            # links in parallel between the same discs run side by side, first on top,
+            # joined at each end by a short upright bar
+            off = -pl.lane_offset(l.id, LANE)
+            lane, lanes = pl.lanes.get(l.id, (0, 1))
+            x_left = max(x_start, X(cb) - pitch + bw / 2) if (a_in and b_in and rows_of[a] != rows_of[b]) \
+                else x_start
+            if off:
+                for xe, inside in ((x_left + 1.5, a_in or rows_of[a] != rows_of[b]), (x_end - 1.5, b_in)):
+                    if inside:
+                        d.add(Line(xe, y, xe, y + off, strokeColor=INK, strokeWidth=1.0))
+                if x_left > x_start:  # a branch: its drop meets the lanes' bar
+                    d.add(Line(x_start, y, x_left + 1.5, y, strokeColor=INK, strokeWidth=width_line))
+                    x_start = x_left + 1.5
+                y = y + off
             d.add(Line(x_start, y, x_end, y, strokeColor=INK, strokeWidth=width_line))
             if a_in and not b_in:
                 _arrow(d, x_end + 4, y)
@@ -176,9 +192,14 @@ def _detailed(pl, train, width: float) -> list[Drawing]:
             _symbol(d, l.kind, xm, y, rigid=l.is_rigid)
             gap = x_end - max(x_start, X(cb) - pitch + bw / 2)
             label = fit_text(l.label, gap - 2, 5.0, ITALIC)
-            if gap > 18 and len(label) >= min(4, len(l.label)):
-                d.add(String(xm, y + 7.5, label, fontName=ITALIC, fontSize=5.0, fillColor=GREY,
+            if gap > 18 and len(label) >= min(4, len(l.label)) and (lanes < 3 or lane in (0, lanes - 1)):
+                below = lanes > 1 and lane == lanes - 1  # the lowest lane: name under its symbol
+                ly = y - 12.5 if below else y + 7.5
+                d.add(String(xm, ly, label, fontName=ITALIC, fontSize=5.0, fillColor=GREY,
                              textAnchor="middle"))
+                if below:
+                    w = text_width(label, 5.0, ITALIC)
+                    taken.append((xm - w / 2 - 1.5, ly - 1.5, xm + w / 2 + 1.5, ly + 5.0))
         for lid, disc, side in pl.grounds:
             c = pl.column[disc]
             if not c0 <= c < c1:
@@ -191,7 +212,6 @@ def _detailed(pl, train, width: float) -> list[Drawing]:
             _ground(d, xg, y, side)
         # disc blocks and their labels
         inertia = {disc.id: disc.inertia for disc in train.discs}
-        taken: list[tuple[float, float, float, float]] = []
         for x_id in sorted(in_band, key=lambda v: (pl.column[v], rows_of[v])):
             c, r = pl.column[x_id], rows_of[x_id]
             h = heights[x_id]
@@ -302,9 +322,10 @@ def overview_drawing(pl, train, width: float, frame_h: float) -> Drawing:
         for l in marks:
             if l.from_id not in pl.column or l.to_id not in pl.column:
                 continue
-            x = 0.5 * (X(pl.column[l.from_id]) + X(pl.column[l.to_id]))
-            y = Y(pl.row[l.to_id])
             rr = min(2.6, row_h * 0.3)
+            # links in parallel: their marks side by side along the line
+            x = 0.5 * (X(pl.column[l.from_id]) + X(pl.column[l.to_id])) + pl.lane_offset(l.id, 3 * rr)
+            y = Y(pl.row[l.to_id])
             if l.kind == "gear_mesh":
                 d.add(Circle(x, y, rr, fillColor=colors.white, strokeColor=INK, strokeWidth=0.6))
             else:
