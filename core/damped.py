@@ -314,10 +314,11 @@ DAMPER_STATEMENT = ("Undamped natural frequencies treat a viscous damper's ring 
 
 def damper_bounds(train: Train, max_frequency_hz: float) -> DamperBounds | None:
     """Damper-free and damper-locked elastic frequencies up to ``max_frequency_hz``; None
-    when the train has no link of damping alone."""
-    from .solver import natural_modes
+    when the train has no ring joined by damping alone (a damping-only link beside a
+    spring between the same discs holds no free ring: the spring carries the torque)."""
+    from .solver import free_bodies, natural_modes
     dl = damper_links(train)
-    if not dl:
+    if not dl or not free_bodies(assemble(train))[1]:
         return None
     free = natural_modes(train, max_frequency_hz=max_frequency_hz)
     locked = natural_modes(damper_locked_train(train), max_frequency_hz=max_frequency_hz)

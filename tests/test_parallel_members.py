@@ -105,10 +105,8 @@ def test_a_spring_beside_a_pure_damper_has_the_springs_undamped_frequency_and_ex
     # and the closed form of the relative coordinate: zeta = c / (2 sqrt(k J_r)) (Thomson -- from memory)
     Jr = J1 * J2 / (J1 + J2)
     assert got[0].damping_ratio == pytest.approx(c / (2 * math.sqrt(k * Jr)), rel=1e-10)
-    # the damper locked: the two discs become one body with no elastic mode left
-    bounds = damper_bounds(train, 10 * f)
-    assert bounds.free_hz == pytest.approx((f,), rel=1e-12)
-    assert bounds.locked_hz == ()
+    # no ring joined by damping alone (the spring holds it): no free / locked statement
+    assert damper_bounds(train, 10 * f) is None
 
 
 def test_parallel_compliant_meshes_of_one_ratio_add_referred_stiffness():
@@ -542,3 +540,14 @@ def test_desktop_edits_add_a_link_in_parallel_and_keep_the_tree_when_inserting(q
         win.runner.wait()
         win.close()
         win.deleteLater()
+
+
+def test_a_damper_beside_a_spring_holds_no_free_ring():
+    """A damping-only link in parallel with a spring joins nothing by damping alone: the spring
+    carries the torque, so there is no damper ring to free or lock and no such statement."""
+    from core.damped import damper_bounds
+    from core.project import build_train
+    doc = {"title": "spring and damper", "discs": [{"id": "a", "inertia": "1 kg*m^2"}, {"id": "b", "inertia": "0.2 kg*m^2"}],
+           "links": [{"id": "k", "kind": "coupling", "from": "a", "to": "b", "stiffness": "1000 N*m/rad"},
+                     {"id": "c", "kind": "coupling", "from": "a", "to": "b", "damping": "5 N*m*s/rad"}]}
+    assert damper_bounds(build_train(doc), 100.0) is None
