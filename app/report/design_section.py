@@ -399,7 +399,8 @@ def window_rows(ctx: Ctx, windows, links, discs) -> tuple[list, dict]:
 def window_block(ctx: Ctx, design, links, discs) -> list:
     st = styles()
     s = ctx.study.screening
-    out = heading("Windows: the values of one element that clear every excitation", 2, room=200)
+    out = heading("Windows: the values of one element that clear every excitation", 2,
+                  room=200 if s is not None and design.windows else 60)
     if s is None:
         out.append(Paragraph("The windows need excitations: give the operating data (reference shaft, operating "
                              "speed and excitations) to have every coupling windowed.", st["body"]))

@@ -917,7 +917,7 @@ def method_block(ctx: Ctx):
                 "moves omega² by the change of its energy with the mode shape held (the same first-order result as "
                 f"the eigenvalue derivative {cite('foxkapoor')}): half the strain-energy share for a stiffness, minus "
                 "half the kinetic-energy share for an inertia.")
-        if design.bands is not None:
+        if design.bands is not None and study.screening is not None:
             text += (" Tolerance bands from the two corner trains: each natural frequency, counted in order, rises "
                      "with every stiffness and falls with every inertia (max–min characterisation of eigenvalues "
                      f"{cite('courant')}), so the corners give the band edges exactly.")
