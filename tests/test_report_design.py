@@ -75,32 +75,39 @@ def drawings(flowables):
     return [f for f in flat(flowables) if isinstance(f, Drawing)]
 
 
+def plain_text(flowables) -> str:
+    """The words of the section's flowables: paragraphs and every table cell."""
+    parts = []
+    for f in flat(flowables):
+        if hasattr(f, "getPlainText"):
+            parts.append(f.getPlainText())
+        elif isinstance(f, LongTable):
+            parts += [" ".join(f._s["head"])] + [" ".join(r) for r in f.text_rows()]
+    return squash(" ".join(parts))
+
+
 @pytest.fixture(scope="module")
 def sheets(tmp_path_factory):
-    """Sheets written once for the module: every sample with couplings (SI) and the fan drive in US."""
+    """The fan drive's sheet in SI and in US units, written once for the module."""
     folder = tmp_path_factory.mktemp("design_sheets")
     out = {}
-    for p in WITH_COUPLINGS:
-        pdf = folder / f"{p.stem}.pdf"
-        write_sheet(load_document(p), p, pdf)
-        out[p.stem, "SI"] = sheet_text(pdf)
-    pdf = folder / "fan_drive_US.pdf"
-    write_sheet(load_document(SAMPLE["fan_drive"]), SAMPLE["fan_drive"], pdf, unit_system="US")
-    out["fan_drive", "US"] = sheet_text(pdf)
+    for system in ("SI", "US"):
+        pdf = folder / f"fan_drive_{system}.pdf"
+        write_sheet(load_document(SAMPLE["fan_drive"]), SAMPLE["fan_drive"], pdf, unit_system=system)
+        out["fan_drive", system] = sheet_text(pdf)
     return out
 
 
 # ----------------------------------------------------------------- every sample with couplings
 @pytest.mark.parametrize("sample", WITH_COUPLINGS, ids=lambda p: p.stem)
-def test_every_sample_with_couplings_has_the_section_and_a_window_per_coupling(sample, sheets):
-    text = sheets[sample.stem, "SI"]
-    train = build_train(load_document(sample))
-    assert "Design options" in text
+def test_every_sample_with_couplings_has_the_section_and_a_window_per_coupling(sample):
+    flowables, ctx = section(load_document(sample))
+    text = plain_text(flowables)
+    train = ctx.train
+    assert text.startswith("Design options")
     assert "Sensitivities: what moves each mode" in text
     assert "Windows: the values of one element that clear every excitation" in text
     assert "d ln f / d ln value" in text
-    # the section stands after the coincidences and before the method
-    assert text.index("Coincidences, worst first") < text.index("Design options") < text.index("Method and assumptions")
     for l in train.links:
         if l.kind == "coupling" and l.stiffness:
             assert f"{l.label} (coupling)" in text
@@ -108,6 +115,16 @@ def test_every_sample_with_couplings_has_the_section_and_a_window_per_coupling(s
         assert "Tolerance bands and band margins" in text and "Courant–Fischer" in text
     else:
         assert "there are no tolerance bands" in text
+    # a sensitivity table for every failing mode and for the closest other one
+    s = ctx.study.screening
+    failing = {c.mode for c in s.failures}
+    for n in failing:
+        assert f"Mode {n}, " in text
+
+
+def test_the_section_prints_after_the_coincidences_and_before_the_method(sheets):
+    text = sheets["fan_drive", "SI"]
+    assert text.index("Coincidences, worst first") < text.index("Design options") < text.index("Method and assumptions")
 
 
 def test_sources_are_cited_as_a_reader_expects(sheets):
@@ -330,3 +347,20 @@ def test_many_failing_modes_keep_the_body_short_and_put_the_rest_in_the_appendix
     assert modes_listed == [str(n) for n, _, _ in focus[2:]]
     text = " ".join(f.getPlainText() for f in flat(flowables) if hasattr(f, "getPlainText"))
     assert f"and {len(focus) - 2} more failing modes" in text
+
+
+def test_a_screening_that_cannot_complete_leaves_no_design_options_but_says_so():
+    # an invented 2000-disc chain so soft that hundreds of modes fall below the screening limit
+    discs = [{"id": f"d{i}", "inertia": "1 kg*m^2"} for i in range(2000)]
+    links = [{"id": f"s{i}", "kind": "coupling" if i % 100 == 0 else "shaft", "from": f"d{i}", "to": f"d{i + 1}",
+              "stiffness": "2 MN*m/rad"} for i in range(1999)]
+    doc = {"title": "Too fine", "discs": discs, "links": links, "reference": "d0",
+           "operating_speed": {"min": "1000 rpm", "max": "3000 rpm"},
+           "excitations": [{"name": "1x and 2x", "at": "d0", "orders": [1, 2]}]}
+    from core.study import run_study
+    from app.report.sheet import SheetData
+    study = run_study(build_train(doc))
+    assert study.screening_error is not None and study.design is None
+    flowables, _ = section(doc, data=SheetData(doc, study))
+    text = " ".join(f.getPlainText() for f in flowables if hasattr(f, "getPlainText"))
+    assert "Design options" in text and "the screening could not be completed" in text

@@ -23,10 +23,12 @@ their tables in the appendix), so a long train costs no more here than a short o
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 from reportlab.graphics.shapes import Group, Line, Polygon, PolyLine, Rect, String
 from reportlab.lib import colors
+from reportlab.lib.styles import ParagraphStyle
 from reportlab.platypus import KeepTogether, Paragraph, Spacer, Table, TableStyle
 
 from core import units as u
@@ -159,24 +161,40 @@ def lead(ctx: Ctx, focus, design) -> list:
             "moves the lowest elastic mode is given below.", st["body"]))
         return out
     if not focus:
-        out.append(Paragraph("No elastic mode lies below the screening limit: nothing to move.", st["body"]))
-    intro = ("What controls the modes that fail" if any(r == "fails" for _, r, _ in focus)
-             else "What controls the mode that comes closest to an excitation")
+        out.append(Paragraph("No elastic mode lies below the screening limit: no mode to move.", st["body"]))
+    n_fail = sum(1 for _, r, _ in focus if r == "fails")
+    if n_fail:
+        intro = "What controls the mode that fails" if n_fail == 1 else f"What controls the {n_fail} modes that fail"
+        if len(focus) > n_fail:
+            intro += " and the one closest to an excitation"
+    else:
+        intro = "What controls the mode that comes closest to an excitation"
     if focus:
-        out.append(Paragraph(intro + ", and what the windows offer:", st["body"]))
+        out.append(Paragraph(intro + (", and what the windows offer:" if design.windows else ":"), st["body"]))
     for n, role, pair in focus[:BODY_MODES]:
         text = control_sentence(ctx, n, role, pair, s.margin)
         if text:
-            out.append(Paragraph(text, st["body"], bulletText="•"))
+            out.append(bullet(text))
     if len(focus) > BODY_MODES:
-        out.append(Paragraph(f"… and {len(focus) - BODY_MODES} more failing modes (their tables are in the "
-                             "appendix).", st["body"]))
+        out.append(Paragraph(f"… and {len(focus) - BODY_MODES} more failing modes (their sensitivity tables are "
+                             "in the appendix).", st["body"]))
     for w in design.windows[:MAX_CHARTS]:
-        out.append(Paragraph(remedy_sentence(ctx, w), st["body"], bulletText="•"))
+        out.append(bullet(remedy_sentence(ctx, w)))
     if len(design.windows) > MAX_CHARTS:
         out.append(Paragraph(f"… and {len(design.windows) - MAX_CHARTS} more elements (see the window table).",
                              st["body"]))
     return out
+
+
+@lru_cache(maxsize=1)
+def _bullet_style() -> ParagraphStyle:
+    # the bullet in the embedded font (reportlab's default bullet font is a non-embedded Helvetica)
+    return ParagraphStyle("design_bullet", parent=styles()["body"], bulletFontName=FONT, leftIndent=9,
+                          bulletIndent=0)
+
+
+def bullet(text: str) -> Paragraph:
+    return Paragraph(text, _bullet_style(), bulletText="•")
 
 
 def _clip(text, n: int) -> str:
@@ -202,6 +220,13 @@ def _element_value(ctx: Ctx, quantity: str, eid: str, links, discs) -> tuple[str
     return KINDS[link.kind], f"{U.value(lo, u.LENGTH)}–{U.value(hi, u.LENGTH)}\u00a0{U.unit(u.LENGTH)}"
 
 
+def sensitivity_text(x: float) -> str:
+    """'+0.383', '-0.085'; a value that would print as 0.000 keeps its size: '-2.1e-05'."""
+    if x == 0:
+        return "0"
+    return f"{x:+.3f}" if abs(x) >= 5e-4 else f"{x:+.1e}"
+
+
 def sensitivity_rows(ctx: Ctx, sens, number: int, links, discs) -> list[list[str]]:
     rows = []
     try:
@@ -216,7 +241,7 @@ def sensitivity_rows(ctx: Ctx, sens, number: int, links, discs) -> list[list[str
             share = f"{fmt.percent(-2.0 * x)} % of kinetic"
         else:
             share = "—"
-        rows.append([ctx.name(eid), kind, QUANTITIES[quantity], value, f"{x:+.3f}", share])
+        rows.append([ctx.name(eid), kind, QUANTITIES[quantity], value, sensitivity_text(x), share])
     return rows
 
 
@@ -248,6 +273,8 @@ def sensitivity_block(ctx: Ctx, focus, design, links, discs) -> list:
         m = ctx.study.modes
         el = np.flatnonzero(m.elastic)
         focus = [(int(m.number[el[0]]), "lowest", None)] if len(el) else []
+    if not focus:
+        return []
     for n, role, pair in focus[:BODY_MODES]:
         rows = sensitivity_rows(ctx, sens, n, links, discs)
         if not rows:
@@ -674,7 +701,7 @@ def window_drawing(w, name: str, units, width: float, height: float):
     for a, b in w.admissible:
         p.vband(a * f, b * f, ADMISSIBLE_FILL)
     p.axes(fit_text(f"{w.quantity} of '{name}' ({units.unit(kind)})", p.w, 6.0), "natural frequency (Hz)")
-    for a, b in w.admissible:  # a bar along the foot: the admissible values at a glance
+    for a, b in w.admissible:  # a strip along the foot: the admissible values at a glance
         a, b = max(a * f, x_range[0]), min(b * f, x_range[1])
         if b > a:
             x0, x1 = p.sx(a), p.sx(b)
@@ -745,7 +772,7 @@ def legend_drawing(width: float, tolerances: bool):
         items.append(("fill", colors.Color(PALETTE[0].red, PALETTE[0].green, PALETTE[0].blue, alpha=0.16), None,
                       "its tolerance band (corner trains)"))
     items += [("fill", FORBIDDEN_FILL, None, "within the margin of an excitation frequency (forbidden)"),
-              ("fill", ADMISSIBLE_FILL, None, "admissible values (green bar along the foot)"),
+              ("fill", ADMISSIBLE_FILL, None, "admissible values (also a green strip along the foot)"),
               ("line", CURRENT_INK, None, "current value"),
               ("line", ADMISSIBLE_INK, (3, 1.6), "nearest admissible value")]
     h, placed = legend_layout(items, width, 6.5)
