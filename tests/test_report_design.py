@@ -9,7 +9,6 @@ conversions use the exact definitions of NIST SP 811, appendix B (1 lbf = 4.4482
 """
 from __future__ import annotations
 
-import copy
 import math
 import re
 import time

@@ -15,7 +15,8 @@ with :func:`~app.report.base.heading`) and its plots as drawings, then put its
 name in :data:`SECTIONS` where it should print.  Nothing else changes.  The
 sections of the later analyses live in their own modules: excitation physics
 (engines, electric lines, gear meshes, damped modes) in :mod:`.physics`, the
-acceptance checks in :mod:`.acceptance`, transient events in :mod:`.transients`;
+acceptance checks in :mod:`.acceptance`, transient events in :mod:`.transients`, the design
+options (sensitivities, tolerance bands, windows) in :mod:`.design_section`;
 the shared helpers (:class:`Units`, :class:`Ctx`, :func:`num`) in :mod:`.base`.
 """
 from __future__ import annotations
