@@ -15,7 +15,8 @@ with :func:`~app.report.base.heading`) and its plots as drawings, then put its
 name in :data:`SECTIONS` where it should print.  Nothing else changes.  The
 sections of the later analyses live in their own modules: excitation physics
 (engines, electric lines, gear meshes, damped modes) in :mod:`.physics`, the
-acceptance checks in :mod:`.acceptance`, transient events in :mod:`.transients`;
+acceptance checks in :mod:`.acceptance`, transient events in :mod:`.transients`, the design
+options (sensitivities, tolerance bands, windows) in :mod:`.design_section`;
 the shared helpers (:class:`Units`, :class:`Ctx`, :func:`num`) in :mod:`.base`.
 """
 from __future__ import annotations
@@ -31,7 +32,7 @@ from core.about import CAUTION, program_line
 
 from .. import formatting as fmt
 from .. import wording
-from . import acceptance, campbell, charts, physics, transients
+from . import acceptance, campbell, charts, design_section, physics, transients
 from .schematic import legend_drawing, schematic_drawings
 from .styles import FAIL_FILL, FAIL_INK, FONT, GREY, INK, NEUTRAL_FILL, OPEN_FILL, OPEN_INK, PASS_FILL, \
     PASS_INK, escape, styles
@@ -774,6 +775,14 @@ SOURCES = {
     "miner": "M. A. Miner, Cumulative damage in fatigue, Journal of Applied Mechanics 12 (1945) A159–A164",
     "fkm": ("FKM guideline, Analytical Strength Assessment of Components, VDMA Verlag, Frankfurt am Main "
             "(S–N curves in shear)"),
+    "rayleigh": ("J. W. Strutt, Baron Rayleigh, The Theory of Sound, 2nd ed., vol. 1, Macmillan, London, 1894 "
+                 "(reprinted Dover, New York, 1945): the stationary quotient of strain and kinetic energy"),
+    "thomson": ("W. T. Thomson and M. D. Dahleh, Theory of Vibration with Applications, 5th ed., Prentice Hall, "
+                "Upper Saddle River NJ, 1998 (Rayleigh's method)"),
+    "foxkapoor": ("R. L. Fox and M. P. Kapoor, Rates of change of eigenvalues and eigenvectors, AIAA Journal 6 "
+                  "(1968) 2426–2429"),
+    "courant": ("R. Courant and D. Hilbert, Methods of Mathematical Physics, vol. 1, Interscience, New York, 1953 "
+                "(ch. VI, the maximum–minimum property of eigenvalues)"),
     "concordia": ("C. Concordia, Synchronous Machines: Theory and Performance, Wiley, New York, 1951 "
                   "(short-circuit torque)"),
 }
@@ -902,6 +911,21 @@ def method_block(ctx: Ctx):
             text += (" Terminal short circuits as decaying sinusoids from the machine's subtransient reactance and "
                      f"time constants {cite('concordia')}.")
         paras.append(text)
+    design = study.design
+    if design is not None:
+        text = ("<b>Design options.</b> Sensitivities d ln f / d ln value of every elastic mode from Rayleigh's "
+                f"quotient {cite('rayleigh', 'thomson')}, stationary at a mode, so that a small change of one element "
+                "moves omega² by the change of its energy with the mode shape held (the same first-order result as "
+                f"the eigenvalue derivative {cite('foxkapoor')}): half the strain-energy share for a stiffness, minus "
+                "half the kinetic-energy share for an inertia.")
+        if design.bands is not None and study.screening is not None:
+            text += (" Tolerance bands from the two corner trains: each natural frequency, counted in order, rises "
+                     "with every stiffness and falls with every inertia (max–min characterisation of eigenvalues "
+                     f"{cite('courant')}), so the corners give the band edges exactly.")
+        if design.windows:
+            text += (" Windows: the edges of the admissible values of one element, every other value held, found "
+                     f"from the Wittrick–Williams count {cite('ww')} to 1e-9 relative.")
+        paras.append(text)
     not_modelled = ("<b>Not modelled.</b> Damping does not enter the natural frequencies (undamped eigenvalues). "
                     "Couplings and meshes are linear springs at the stiffness given: the load, temperature and "
                     "frequency dependence of elastomeric couplings, gear backlash and other nonlinearities are not "
@@ -930,7 +954,8 @@ def appendix_block(ctx: Ctx):
 
 #: the sections in print order; a new section goes in here (see the module docstring)
 SECTIONS = (title_block, verdict_block, schematic_block, model_block, excitation_block, physics.engine_block,
-            physics.gear_block, frequency_block, physics.damped_block, mode_shape_block, campbell_block, coincidence_block, response_block, acceptance.acceptance_block,
+            physics.gear_block, frequency_block, physics.damped_block, mode_shape_block, campbell_block, coincidence_block,
+            design_section.design_block, response_block, acceptance.acceptance_block,
             transients.transient_block, method_block, appendix_block)
 
 
