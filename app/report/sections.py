@@ -834,6 +834,14 @@ def method_block(ctx: Ctx):
             "highest excitation frequency reached in the operating range, raised by twice the margin and a "
             "further 25\u00a0%. This limit is a setting of this program, not a requirement of a standard; modes "
             "above it are listed and marked, not screened.")
+        if s.tolerances:  # the verdict is judged on the band, not on the nominal frequency
+            paras.append(
+                "<b>Tolerance bands.</b> With the stiffness and inertia tolerances given, each natural frequency "
+                "is a band: from its value with every stiffness at the low end and every inertia at the high end "
+                "of its tolerance to its value at the opposite corner, exact because each natural frequency rises with every stiffness and falls "
+                "with every inertia (Rayleigh's monotonicity). A pair then fails when its margin with tolerances, "
+                "measured from the band's edge nearest the excitation, is below the required "
+                f"{fmt.percent(s.margin)}\u00a0%; the nominal margin is printed beside it.")
         if any(l.kind == "line" for l in s.lines):
             paras.append(
                 "<b>Electric-drive lines.</b> An inverter-fed motor excites at multiples of its output frequency "
