@@ -639,7 +639,8 @@ def coincidence_block(ctx: Ctx):
     narrow = s.tolerances  # room for the margin with tolerances
     spec = [("Mode", 0.06, "RIGHT"), ("Natural Hz", 0.09, "RIGHT"), ("Excitation source", 0.17 if narrow else 0.21),
             ("Order or line" if any_line else "Order", 0.11 if any_line else 0.06, "RIGHT", True),
-            ("Acts at", 0.11 if narrow and any_line else 0.13), ("Crossing rpm", 0.09, "RIGHT"), ("Margin %", 0.08, "RIGHT")]
+            ("Acts at", 0.11 if narrow and any_line else 0.13), ("Crossing rpm", 0.09, "RIGHT"),
+            ("Margin %", 0.08, "RIGHT")]
     if s.tolerances:
         spec.append(("Margin with tolerances %", 0.1, "RIGHT", True))
     spec += [("Band inside the margin (rpm)", 0.11 if narrow else 0.14), ("Status", 0.07)]
