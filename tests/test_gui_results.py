@@ -201,8 +201,9 @@ def test_coincidence_table_lists_core_coincidences_in_order(panel, solved):
         assert _shown(model, r, 2) == c.source
         assert _shown(model, r, 3) == R.line_order_text(c.line)
         assert _shown(model, r, 4) == fmt.percent(c.separation)
-        assert _shown(model, r, 5) == c.status.upper()
-        assert _shown(model, r, 6) == fmt.rpm(c.crossing_speed)
+        assert _shown(model, r, 5) == ("—" if c.separation_band is None else fmt.percent(c.separation_band))
+        assert _shown(model, r, 6) == c.status.upper()
+        assert _shown(model, r, 7) == fmt.rpm(c.crossing_speed)
     rings = panel.campbell_view.rings
     assert rings.isVisible() == bool(s.coincidences)
     assert len(rings.points()) == len(s.coincidences)

@@ -630,20 +630,30 @@ def coincidence_block(ctx: Ctx):
         else:
             band = f"{fmt.rpm(c.band[0])}–{fmt.rpm(c.band[1])}"
         status = c.status.upper()
+        # with tolerances the status follows the margin from the tolerance band's edge: printed beside the nominal
+        tol = [fmt.percent(c.separation_band)] if s.tolerances else []
         rows.append([str(c.mode), fmt.hz(c.frequency_hz), c.source, order_or_line(c.line),
                      ctx.name(c.line.at) if c.line.at else "—", fmt.rpm(c.crossing_speed),
-                     fmt.percent(c.separation), band, status])
-        cells[k] = status_styles(8, status)
+                     fmt.percent(c.separation), *tol, band, status])
+        cells[k] = status_styles(len(rows[-1]) - 1, status)
     any_line = any(c.line.kind == "line" for c in s.coincidences)
-    spec = [("Mode", 0.06, "RIGHT"), ("Natural Hz", 0.09, "RIGHT"), ("Excitation source", 0.21),
+    narrow = s.tolerances  # room for the margin with tolerances
+    spec = [("Mode", 0.06, "RIGHT"), ("Natural Hz", 0.09, "RIGHT"), ("Excitation source", 0.17 if narrow else 0.21),
             ("Order or line" if any_line else "Order", 0.11 if any_line else 0.06, "RIGHT", True),
-            ("Acts at", 0.13), ("Crossing rpm", 0.09, "RIGHT"),
-            ("Margin %", 0.08, "RIGHT"), ("Band inside the margin (rpm)", 0.14), ("Status", 0.07)]
+            ("Acts at", 0.11 if narrow and any_line else 0.13), ("Crossing rpm", 0.09, "RIGHT"),
+            ("Margin %", 0.08, "RIGHT")]
+    if s.tolerances:
+        spec.append(("Margin with tolerances %", 0.1, "RIGHT", True))
+    spec += [("Band inside the margin (rpm)", 0.11 if narrow else 0.14), ("Status", 0.07)]
     out.append(table(ctx.cols(*spec), rows, cells))
     text = (f"Listed: every pair with a smallest separation below twice the required margin "
             f"({fmt.percent(2 * s.margin)}\u00a0%). Margin = smallest |f_n - f_e| / f_e over the operating range "
             "(0 for a crossing inside it). Crossing rpm: reference speed where the excitation meets the natural "
             "frequency, also when outside the range.")
+    if s.tolerances:
+        text += (" With the stiffness and inertia tolerances each natural frequency is a band: the margin with "
+                 "tolerances is measured from the band's edge nearest the excitation (0 when the excitation enters "
+                 "the band); the status and the order of the rows follow it.")
     if any_line:
         text += (" A line that does not pass through the origin is listed by its formula f = |a + b·N| "
                  "(a in Hz, N the speed of the shaft it acts at in rev/s); a V-shaped line |a − b·N| may cross "
@@ -834,6 +844,14 @@ def method_block(ctx: Ctx):
             "highest excitation frequency reached in the operating range, raised by twice the margin and a "
             "further 25\u00a0%. This limit is a setting of this program, not a requirement of a standard; modes "
             "above it are listed and marked, not screened.")
+        if s.tolerances:  # the verdict is judged on the band, not on the nominal frequency
+            paras.append(
+                "<b>Tolerance bands.</b> With the stiffness and inertia tolerances given, each natural frequency "
+                "is a band: from its value with every stiffness at the low end and every inertia at the high end "
+                "of its tolerance to its value at the opposite corner, exact because each natural frequency rises with every stiffness and falls "
+                "with every inertia (Rayleigh's monotonicity). A pair then fails when its margin with tolerances, "
+                "measured from the band's edge nearest the excitation, is below the required "
+                f"{fmt.percent(s.margin)}\u00a0%; the nominal margin is printed beside it.")
         if any(l.kind == "line" for l in s.lines):
             paras.append(
                 "<b>Electric-drive lines.</b> An inverter-fed motor excites at multiples of its output frequency "

@@ -194,8 +194,8 @@ class CampbellView(QtWidgets.QWidget):
         self.message.setStyleSheet(f"color: {theme.INK_MUTED}; font-size: {theme.TITLE_POINT_SIZE}pt;")
         self.message.hide()
 
-        self.coincidence_model = RowsModel(R.COINCIDENCE_HEADERS_SHOWN, self, numeric_columns=(0, 1, 3, 4, 6),
-                                           status_column=5)
+        self.coincidence_model = RowsModel(R.COINCIDENCE_HEADERS_SHOWN, self, numeric_columns=(0, 1, 3, 4, 5, 7),
+                                           status_column=6)
         self.coincidence_table = make_table_view(self.coincidence_model, self)
         self.coincidence_table.setToolTip("Excitations within twice the required margin of a natural "
                                           "frequency, worst first. Click a row to show its mode.")
@@ -328,6 +328,8 @@ class CampbellView(QtWidgets.QWidget):
             self._draw_pending = True
             self._place_cursor()
         self.coincidence_model.set_rows(R.coincidence_rows(screening, self.modes))
+        # the margin with tolerances, which the status follows, shows only where tolerances are given
+        self.coincidence_table.setColumnHidden(R.BAND_MARGIN_COLUMN, not screening.tolerances)
         fit_columns(self.coincidence_table, max_width=240, elastic=2)
         n, nf = len(screening.coincidences), len(screening.failures)
         self.coincidence_title.setText(
@@ -939,7 +941,10 @@ class CampbellView(QtWidgets.QWidget):
     def _ring_tip(self, n: int) -> str:
         c = self.screening.coincidences[n]
         return (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) × {c.line.label}\n"
-                f"margin {fmt.percent(c.separation)} % (required {fmt.percent(self.screening.margin)} %), "
+                f"margin {fmt.percent(c.separation)} %"
+                + ("" if c.separation_band is None else
+                   f", {fmt.percent(c.separation_band)} % with tolerances (the status follows this)")
+                + f" (required {fmt.percent(self.screening.margin)} %)\n"
                 f"crossing {fmt.rpm(c.crossing_speed)} rpm — {c.status.upper()}\nclick to show this mode")
 
     # ------------------------------------------------------------ interaction

@@ -384,6 +384,14 @@ class ResultsPanel(QtWidgets.QWidget):
         self.select_mode(index)
         self.modeSelected.emit(index)
 
+    def acceptance_pending(self) -> bool:
+        """The study shown has a forced response whose acceptance checks are still being computed
+        (the second stage, app.gui.compute): no verdict yet, since they may change it (a PASS that
+        the checks then fail, or an OPEN that asks for amplitudes already given)."""
+        st = self.study
+        return (st is not None and st.response is not None and st.acceptance is None
+                and "acceptance" not in st.options.parts)
+
     def verdict_text(self) -> tuple[str, bool | None]:
         """The verdict line of the study shown and its colour (True green, False red,
         None grey): the headline every view states (:func:`app.wording.headline`) —
@@ -391,6 +399,9 @@ class ResultsPanel(QtWidgets.QWidget):
         st = self.study
         if st is None:
             return "No results yet.", None
+        if st.screening_error is None and self.acceptance_pending():
+            sep = "" if st.screening is None else f" (separation screening: {st.screening.verdict.upper()})"
+            return f"Checking the forced response against its limits…{sep}", None
         text, ok = wording.headline(st)
         if st.response_error is not None and st.has_amplitudes:
             text = text.rstrip(".") + f" (forced response not computed: {st.response_error})."
@@ -407,6 +418,8 @@ class ResultsPanel(QtWidgets.QWidget):
             return "no verdict (the model has an error)", None
         if st.screening_error is not None:
             return "no verdict (cannot screen)", None
+        if self.acceptance_pending():
+            return "checking the forced response…", None
         text, ok = self.verdict_text()
         s = st.screening
         if s is None:

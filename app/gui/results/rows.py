@@ -24,11 +24,15 @@ FREQUENCY_HEADERS = ("Mode", "Hz", "cpm", "Rigid body", "Largest strain energy",
 FREQUENCY_HEADERS_SHOWN = ("Mode", "Hz", "cpm", "Rigid\nbody", "Largest strain\nenergy",
                            "Largest kinetic\nenergy", "Screening")
 SCREENED, ABOVE_LIMIT, NOT_SCREENED_RIGID = "screened", "above the screening limit", "not screened"
-COINCIDENCE_HEADERS = ("Mode", "Natural Hz", "Excitation", "Order / line", "Margin %", "Status",
-                       "Crossing rpm", "Band rpm")
+#: "Margin %" is the nominal separation; "Margin with tolerances %" the separation from the edge of the
+#: mode's tolerance band, which the status follows when tolerances are given ('—' without them)
+COINCIDENCE_HEADERS = ("Mode", "Natural Hz", "Excitation", "Order / line", "Margin %", "Margin with tolerances %",
+                       "Status", "Crossing rpm", "Band rpm")
 #: the same on screen, on two lines, so that a line's formula fits beside the excitation's name
-COINCIDENCE_HEADERS_SHOWN = ("Mode", "Natural\nHz", "Excitation", "Order /\nline", "Margin\n%", "Status",
-                             "Crossing\nrpm", "Band\nrpm")
+COINCIDENCE_HEADERS_SHOWN = ("Mode", "Natural\nHz", "Excitation", "Order /\nline", "Margin\n%",
+                             "Margin with\ntolerances %", "Status", "Crossing\nrpm", "Band\nrpm")
+#: the column of the margin with tolerances (hidden on screen when the train gives none)
+BAND_MARGIN_COLUMN = COINCIDENCE_HEADERS.index("Margin with tolerances %")
 CURSOR_HEADERS = ("Excitation", "Order / line", "Excitation Hz", "Nearest mode", "Natural Hz",
                   "Separation %")
 
@@ -168,13 +172,16 @@ def coincidence_rows(screening, modes=None) -> list[Row]:
     for c in screening.coincidences:
         idx = index.get(int(c.mode))
         where = line_words(c.line, screening.train)
+        band_margin = None if c.separation_band is None else fmt.percent(c.separation_band)
         tip = (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
                f"smallest separation {fmt.percent(c.separation)} % over the operating range "
-               f"(required {fmt.percent(screening.margin)} %) at {fmt.rpm(c.worst_speed)} rpm. "
-               "Click to show this mode.")
+               f"at {fmt.rpm(c.worst_speed)} rpm"
+               + (f"; {band_margin} % from the nearest edge of the mode's tolerance band, which the "
+                  "status follows" if band_margin is not None else "")
+               + f" (required {fmt.percent(screening.margin)} %). Click to show this mode.")
         rows.append(Row([str(c.mode), fmt.hz(c.frequency_hz), c.source, line_order_text(c.line),
-                         fmt.percent(c.separation), c.status.upper(), fmt.rpm(c.crossing_speed),
-                         band_text(c.band)], tip, c.status, idx, {"coincidence": c}))
+                         fmt.percent(c.separation), band_margin or "—", c.status.upper(),
+                         fmt.rpm(c.crossing_speed), band_text(c.band)], tip, c.status, idx, {"coincidence": c}))
     return rows
 
 
