@@ -504,3 +504,32 @@ def test_tolerance_bands_drawn_as_strips(panel, name):
     for r, (lo, hi) in zip(rects, want):
         y0, y1 = sorted((float(cv._y(lo)), float(cv._y(min(hi, 10 * f_top)))))
         assert (r.top(), r.bottom()) == pytest.approx((y0, y1), rel=1e-9, abs=1e-9)
+
+
+def _weak_pair_doc():
+    """Two discs (J1 = 4, J2 = 1 kg*m^2) whose mode twists 'a' a quarter as much as 'b'
+    (theta_a / theta_b = -J2 / J1, closed form): order 1 at 'a' coincides with the mode and,
+    below a 30 % weak-excitation threshold, is weakly excited; order 1 at 'b' is not."""
+    import math
+    J1, J2 = 4.0, 1.0
+    f = 25.0  # 1500 rpm, order 1
+    k = (2 * math.pi * f) ** 2 * J1 * J2 / (J1 + J2)
+    return {"format": "twistwise-project", "version": 1, "title": "weak pair",
+            "discs": [{"id": "a", "inertia": J1}, {"id": "b", "inertia": J2}],
+            "links": [{"id": "c", "kind": "coupling", "from": "a", "to": "b", "stiffness": k}],
+            "reference": "a", "operating_speed": {"min": "1500 rpm", "max": "1500 rpm"},
+            "margin_percent": 10, "weak_excitation_below": "30 %",
+            "excitations": [{"name": "drive", "at": "a", "orders": [1]}, {"name": "load", "at": "b", "orders": [1]}]}
+
+
+def test_weakly_excited_pairs_have_their_own_ring_and_key(panel):
+    from app.gui import theme
+    train = build_train(_weak_pair_doc())
+    s = screen(train)
+    assert sorted((c.source, c.weak) for c in s.coincidences) == [("drive", True), ("load", False)]
+    panel.set_results(train, s.modes, s)
+    panel.tabs.setCurrentIndex(1)
+    cv = panel.campbell_view
+    pens = {c.source: cv.rings.data["pen"][k].color().name() for k, c in enumerate(s.coincidences)}
+    assert pens == {"drive": theme.COINCIDENCE_WEAK, "load": theme.COINCIDENCE_FAIL}
+    assert any("weakly excited" in t for t in cv.legend.texts)

@@ -408,3 +408,28 @@ def test_campbell_draws_the_tolerance_bands(name):
     # heights in points: the plot maps 0..top Hz onto 300 points
     for r, (lo, hi) in zip(sorted(strips, key=lambda r: r.y), sorted(want)):
         assert r.height == pytest.approx((hi - lo) / top * 300, rel=1e-6)
+
+
+def test_campbell_marks_weakly_excited_pairs_apart():
+    """A weakly excited pair inside the margin is drawn in its own colour and keyed (listed,
+    not counted as a failure); the two-disc model: theta_a / theta_b = -J2 / J1 (closed form)."""
+    import math
+
+    from reportlab.graphics.shapes import Circle
+
+    from app.report.styles import FAIL_INK, WEAK_INK, register_fonts
+    from core.screening import screen
+    register_fonts()
+    J1, J2, f = 4.0, 1.0, 25.0
+    k = (2 * math.pi * f) ** 2 * J1 * J2 / (J1 + J2)
+    doc = {"format": "twistwise-project", "version": 1, "title": "weak pair",
+           "discs": [{"id": "a", "inertia": J1}, {"id": "b", "inertia": J2}],
+           "links": [{"id": "c", "kind": "coupling", "from": "a", "to": "b", "stiffness": k}],
+           "reference": "a", "operating_speed": {"min": "1500 rpm", "max": "1500 rpm"},
+           "margin_percent": 10, "weak_excitation_below": "30 %",
+           "excitations": [{"name": "drive", "at": "a", "orders": [1]}, {"name": "load", "at": "b", "orders": [1]}]}
+    s = screen(build_train(doc))
+    d = campbell.campbell_drawing(s, 500, 300, campbell.panel_tops(s)[0])
+    fills = {c.fillColor for c in d.contents if isinstance(c, Circle)}
+    assert WEAK_INK in fills and FAIL_INK in fills
+    assert any("weakly excited" in item[3] for item in campbell.legend_items(s, False))

@@ -45,6 +45,7 @@ TRIP_LINE = "#56606e"              # trip / overspeed: dashed, not screened
 CURSOR = "#b3261e"                 # speed cursor
 COINCIDENCE_FAIL = FAIL
 COINCIDENCE_PASS = "#8a5a00"       # inside the plot window but clear of the margin
+COINCIDENCE_WEAK = "#6f4e9c"       # inside the margin but weakly excited (listed, not a failure)
 PERMISSIBLE = "#b3261e"            # permissible torque / stress lines
 RIGID_BODY = "#8c96a3"
 

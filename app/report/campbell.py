@@ -41,7 +41,7 @@ from .charts import (BAND_COLOURS, BAND_FILL, BARRED_EDGE, BARRED_FILL, OFFSET_D
                      TOLERANCE_FILL, Plot,
                      band_strip, bands_text, barred_bands, drawing, excitation_groups, fit_text, line_segments,
                      source_colours)
-from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PASS_INK
+from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PASS_INK, WEAK_INK
 from .tables import text_width, wrap_text
 
 MAX_PANELS = 3
@@ -217,6 +217,8 @@ def legend_items(s, above_drawn: bool, acceptance=None) -> list[tuple]:
     for r in barred_ranges(acceptance):
         items.append(("fill", BARRED_FILL, None, barred_text(s.train, r)))
     items.append(("dot_fill", FAIL_INK, None, "coincidence inside the margin (fails)"))
+    if any(c.weak and not c.passed for c in s.coincidences):
+        items.append(("dot_fill", WEAK_INK, None, "inside the margin but weakly excited (listed, not a failure)"))
     items.append(("dot_open", PASS_INK, None, "crossing outside the range, margin met (passes)"))
     return items
 
@@ -410,7 +412,7 @@ def campbell_drawing(screening, width: float, plot_height: float, y_max_hz: floa
                 continue
             inside = s.speed_min <= w <= s.speed_max
             ok = cn.passed and not inside
-            col = PASS_INK if ok else FAIL_INK
+            col = PASS_INK if ok else (WEAK_INK if cn.weak and not cn.passed else FAIL_INK)
             d.add(Circle(p.sx(x), p.sy(cn.frequency_hz), 2.6, strokeColor=col, strokeWidth=0.9,
                          fillColor=colors.white if ok else col))
     _mode_labels(d, p, shown, s.cap_hz)

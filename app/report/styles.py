@@ -27,6 +27,7 @@ ZEBRA = colors.HexColor("#f5f6f8")
 PASS_INK = colors.HexColor("#1d6b2f")
 PASS_FILL = colors.HexColor("#e6f2e8")
 FAIL_INK = colors.HexColor("#a11d1d")
+WEAK_INK = colors.HexColor("#6f4e9c")  # inside the margin, weakly excited: listed, not a failure
 FAIL_FILL = colors.HexColor("#f8e4e2")
 NEUTRAL_FILL = colors.HexColor("#eeeeee")
 OPEN_INK = colors.HexColor("#7a4f00")  # a verdict still open: amber, neither pass nor fail

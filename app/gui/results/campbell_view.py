@@ -154,7 +154,8 @@ class CampbellView(QtWidgets.QWidget):
             self.plot.addItem(item, ignoreBounds=True)
         self._ring_xy = None  # (x, y, size) of the rings drawn, for the label placement
         self._ring_pens = {True: theme.pen(theme.COINCIDENCE_FAIL, theme.BOLD_WIDTH),
-                           False: theme.pen(theme.COINCIDENCE_PASS, theme.LINE_WIDTH)}
+                           False: theme.pen(theme.COINCIDENCE_PASS, theme.LINE_WIDTH),
+                           "weak": theme.pen(theme.COINCIDENCE_WEAK, theme.LINE_WIDTH, QtCore.Qt.DashLine)}
         self.rings = pg.ScatterPlotItem(symbol="o", brush=theme.brush((0, 0, 0, 0)), hoverable=True,
                                         hoverSize=24, hoverBrush=theme.brush((179, 38, 30, 40)),
                                         tip=lambda x, y, data: self._ring_tip(data))
@@ -620,15 +621,17 @@ class CampbellView(QtWidgets.QWidget):
                 else c.worst_speed
             xs.append(at / RPM)
             ys.append(float(self._y(c.frequency_hz)))
-            fail = not c.passed
-            pens.append(self._ring_pens[fail])
+            fail = not c.passed and not c.weak
+            pens.append(self._ring_pens["weak" if (c.weak and not c.passed) else fail])
             sizes.append(20 if fail else 15)
             data.append(n)
         self.rings.setData(xs, ys, size=sizes, pen=pens, data=data)
         self._ring_xy = (np.asarray(xs, float), np.asarray(ys, float), np.asarray(sizes, float))
         self.rings.setVisible(bool(xs))
-        if any(not c.passed for c in s.coincidences):
+        if any(not c.passed and not c.weak for c in s.coincidences):
             legend.append(("ring", True, "coincidence inside the margin (fail)"))
+        if any(not c.passed and c.weak for c in s.coincidences):
+            legend.append(("ring", "weak", "inside the margin, weakly excited (not a failure)"))
         if any(c.passed for c in s.coincidences):
             legend.append(("ring", False, "near, but clear of the margin"))
         self._set_legend(legend)
@@ -716,7 +719,7 @@ class CampbellView(QtWidgets.QWidget):
             elif kind == "nf":
                 sample = pg.PlotDataItem(pen=theme.natural_frequency_pen())
             elif kind == "ring":
-                sample = pg.ScatterPlotItem(symbol="o", size=14 if style else 11, brush=theme.brush((0, 0, 0, 0)),
+                sample = pg.ScatterPlotItem(symbol="o", size=14 if style is True else 11, brush=theme.brush((0, 0, 0, 0)),
                                             pen=self._ring_pens[style])
             else:
                 sample = pg.PlotDataItem(pen=theme.pen(theme.series_color(style), theme.LINE_WIDTH,
