@@ -46,6 +46,8 @@ from .table import ElidingComboBox, RowsModel, make_table_view, write_csv
 KINDS = {"stiffness": units.STIFFNESS, "inertia": units.INERTIA}
 #: the most bars of the sensitivity chart (fewer where the chart is too short for their names)
 MAX_BARS = 12
+#: ms to wait for the study's own windows (its second stage) before computing one here
+FALLBACK_MS = 1500
 #: below this width the sensitivity chart shares a tab row with the ranges below the chart
 NARROW_PX = 1000
 #: fills of the chart
@@ -384,7 +386,12 @@ class DesignView(QtWidgets.QWidget):
         self._bars_shown = 0
         self._bars = []
         self._mode_note = ""
+        self._sens_drawn_for = None
         self._updating = False
+        self._fallback = QtCore.QTimer(self)
+        self._fallback.setSingleShot(True)
+        self._fallback.setInterval(FALLBACK_MS)
+        self._fallback.timeout.connect(self._compute_missing)
 
         # ---- the choice of element and the verdicts
         self.picker = ElidingComboBox(self)
@@ -618,6 +625,10 @@ class DesignView(QtWidgets.QWidget):
         op = study.train.operating
         has_op = op is not None and bool(op.excitations)
         self.limited = None if has_op else self.NO_OPERATING
+        # without windows the chart's place holds one sentence: the sensitivities take the room
+        self.chart_box.setMaximumHeight(16777215 if has_op else 90)
+        for lab in (self.now_label, self.tried_label):
+            lab.setVisible(has_op)
         self._fill_picker()
         if new_model or self._window is None or self._window_source != "study":
             self._show_element(keep_tried=True)
@@ -644,6 +655,8 @@ class DesignView(QtWidgets.QWidget):
         self.use_button.setEnabled(False)
         self.nearest_button.setEnabled(False)
         self._clear_bars()
+        self._sens_drawn_for = None
+        self._fallback.stop()
         self.sens_title.setText("")
         self.hover.setText("")
         if message:
@@ -659,6 +672,7 @@ class DesignView(QtWidgets.QWidget):
     def reset_view_state(self) -> None:
         """A newly opened project: the first element again, no tried value, no mode kept."""
         self._key = None
+        self.entries = []  # the picker is filled afresh, at its first element
         self._tried = None
         self._mode_index = -1
         self._mode_number = None
@@ -674,9 +688,11 @@ class DesignView(QtWidgets.QWidget):
         self._mode_index = index
         if self.study is None:
             return
+        before = self._mode_number
         self._select_mode_number()
         self._draw_sensitivities()
-        self._draw()
+        if self._mode_number != before:  # its curve is drawn bold
+            self._draw()
 
     # ------------------------------------------------------------ test and main-window API
     def elements(self) -> list[tuple[str, str]]:
@@ -812,7 +828,13 @@ class DesignView(QtWidgets.QWidget):
             w, source = got, "view"
         if w is None:
             self._window = None
-            self._start_job(key)
+            from core.design import design_elements
+            if not self.study.design.windows and key in design_elements(self.train):
+                # the study's second stage brings this window (app.gui.compute); a study that
+                # never does (one given without its windows) gets it from here after a moment
+                self._fallback.start()
+            else:
+                self._start_job(key)
             self._clear_chart()
             self._say(f"Computing the values of {self._entry_text(e)} that clear every excitation…")
             self._show_verdicts()
@@ -824,6 +846,12 @@ class DesignView(QtWidgets.QWidget):
         if not (keep_tried and old is not None and w.range[0] <= old <= w.range[1]):
             self._tried = w.current if w.current > 0 else w.nearest_admissible
         self._show_window()
+
+    def _compute_missing(self) -> None:
+        """The window still missing (the study did not bring it): compute it here."""
+        if self.study is not None and self._window is None and self._key is not None and self.limited is None \
+                and self._key not in self._own:
+            self._start_job(self._key)
 
     def _start_job(self, key) -> None:
         if key in self._running or self.train is None:
@@ -1322,7 +1350,7 @@ class DesignView(QtWidgets.QWidget):
         return int(max(3, min(MAX_BARS, h // line if h > 0 else MAX_BARS)))
 
     def _fit_bars(self, *_a) -> None:
-        if self.study is not None and self.bar_capacity() != self._bars_shown:
+        if self.study is not None:
             self._draw_sensitivities()
 
     def sensitivity_bars(self) -> list[tuple[str, str, float]]:
@@ -1330,10 +1358,15 @@ class DesignView(QtWidgets.QWidget):
         return list(self._bars)
 
     def _draw_sensitivities(self) -> None:
-        self._clear_bars()
-        self._bars = []
         st = self.study
         n = self._mode_number
+        drawn_for = (st, n, self.bar_capacity(), self.sens_canvas.width() // 40)
+        old = self._sens_drawn_for
+        if st is not None and old is not None and old[0] is st and old[1:] == drawn_for[1:]:
+            return  # the same bars (a study shown and its mode selected call this twice)
+        self._sens_drawn_for = drawn_for
+        self._clear_bars()
+        self._bars = []
         self._set_sens_tab_text()
         if st is None or st.design is None or n is None:
             self.sens_title.setText("No elastic mode to explain.")
@@ -1373,7 +1406,8 @@ class DesignView(QtWidgets.QWidget):
         pad = 0.42 * span
         self.sens_plot.setXRange(lo - (pad if lo < 0 else 0.04 * span), hi + (pad if hi > 0 else 0.04 * span),
                                  padding=0)
-        self.sens_plot.setYRange(-0.6, len(shown) - 0.4, padding=0)
+        # a few bars keep a slim bar's height (as many rows as would fit, the rest left empty)
+        self.sens_plot.setYRange(-0.6, max(len(shown), min(self.bar_capacity(), 8)) - 0.4, padding=0)
         for y, v in zip(ys, vals):
             t = pg.TextItem(f"{v:+.3f}" if abs(v) >= 5e-4 else f"{v:+.1e}", color=theme.qcolor(theme.INK), anchor=(0, 0.5) if v >= 0 else (1, 0.5))
             t.setFont(theme.font(theme.SMALL_POINT_SIZE))
