@@ -379,6 +379,9 @@ def test_the_design_view_is_legible(window, path, size, tmp_path):
     assert len(dv.sensitivity_bars()) >= 3
     y0, y1 = dv.sens_plot.vb.viewRange()[1]
     assert dv.sens_plot.vb.height() / (y1 - y0) >= line  # px per bar
+    bars_vb = dv.sens_plot.vb.sceneBoundingRect().adjusted(-1, -1, 1, 1)
+    for t in dv.bar_texts:  # each bar's value is written whole beside it
+        assert bars_vb.contains(DV._scene_rect(t)), t.textItem.toPlainText()
     # the verdicts are not cut
     for label in (dv.now_label, dv.tried_label):
         assert label.heightForWidth(label.width()) <= label.height() + 1

@@ -227,7 +227,8 @@ def range_rows(window, train, system: str) -> list[R.Row]:
             notes.append("holds the current value")
         n = window.nearest_admissible
         if n is not None and a <= n <= b and not (a <= window.current <= b):
-            notes.append(f"nearest admissible value {value_text(n, q, system)}")
+            shown = rounded_value(window, n, q, system)  # as "Try nearest admissible" writes it
+            notes.append(f"nearest admissible value {value_text(shown, q, system)}")
         if a <= window.range[0] * (1 + 1e-12) or b >= window.range[1] * (1 - 1e-12):
             notes.append("reaches the end of the range searched")
         note = "; ".join(notes)
@@ -598,6 +599,8 @@ class DesignView(QtWidgets.QWidget):
             self.side.layout().addWidget(self.sens_box)
             self.lower.setCurrentWidget(self.ranges_holder)
             self.side.show()
+            total = max(self.width(), NARROW_PX)
+            self.outer.setSizes([int(0.64 * total), int(0.36 * total)])
             self.sens_box.show()
             self.ranges_box.show()
         self._set_sens_tab_text()
@@ -1360,7 +1363,7 @@ class DesignView(QtWidgets.QWidget):
     def _draw_sensitivities(self) -> None:
         st = self.study
         n = self._mode_number
-        drawn_for = (st, n, self.bar_capacity(), self.sens_canvas.width() // 40)
+        drawn_for = (st, n, self.bar_capacity(), self.sens_canvas.width() // 20)
         old = self._sens_drawn_for
         if st is not None and old is not None and old[0] is st and old[1:] == drawn_for[1:]:
             return  # the same bars (a study shown and its mode selected call this twice)
@@ -1403,14 +1406,19 @@ class DesignView(QtWidgets.QWidget):
         span = max(float(np.max(np.abs(vals))), 1e-6)
         lo = min(0.0, float(vals.min()))
         hi = max(0.0, float(vals.max()))
-        pad = 0.42 * span
+        # room for the value written at each bar's end: p = t R / w with R = core + 2 p (px -> data)
+        text_px = QtGui.QFontMetricsF(theme.font(theme.SMALL_POINT_SIZE)).horizontalAdvance("-0.000") + 28
+        plot_px = max(float(self.sens_canvas.width()) - axis.width() - 40, 80.0)
+        core = hi - lo
+        pad = text_px * core / (plot_px - 2 * text_px) if plot_px > 3 * text_px else 0.42 * span
         self.sens_plot.setXRange(lo - (pad if lo < 0 else 0.04 * span), hi + (pad if hi > 0 else 0.04 * span),
                                  padding=0)
         # a few bars keep a slim bar's height (as many rows as would fit, the rest left empty)
-        self.sens_plot.setYRange(-0.6, max(len(shown), min(self.bar_capacity(), 8)) - 0.4, padding=0)
+        self.sens_plot.setYRange(-0.6, max(len(shown), self.bar_capacity()) - 0.4, padding=0)
         for y, v in zip(ys, vals):
             t = pg.TextItem(f"{v:+.3f}" if abs(v) >= 5e-4 else f"{v:+.1e}", color=theme.qcolor(theme.INK), anchor=(0, 0.5) if v >= 0 else (1, 0.5))
             t.setFont(theme.font(theme.SMALL_POINT_SIZE))
+            t.textItem.document().setDocumentMargin(2.0)
             t.setPos(float(v), float(y))
             self.sens_plot.addItem(t)
             self.bar_texts.append(t)
