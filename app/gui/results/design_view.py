@@ -1413,10 +1413,11 @@ class DesignView(QtWidgets.QWidget):
         pad = text_px * core / (plot_px - 2 * text_px) if plot_px > 3 * text_px else 0.42 * span
         self.sens_plot.setXRange(lo - (pad if lo < 0 else 0.04 * span), hi + (pad if hi > 0 else 0.04 * span),
                                  padding=0)
-        # a few bars keep a slim bar's height (as many rows as would fit, the rest left empty)
+        # bars at a fixed pitch: as many rows as would fit, the rest left empty
         self.sens_plot.setYRange(-0.6, max(len(shown), self.bar_capacity()) - 0.4, padding=0)
         for y, v in zip(ys, vals):
-            t = pg.TextItem(f"{v:+.3f}" if abs(v) >= 5e-4 else f"{v:+.1e}", color=theme.qcolor(theme.INK), anchor=(0, 0.5) if v >= 0 else (1, 0.5))
+            t = pg.TextItem(f"{v:+.3f}" if abs(v) >= 5e-4 else f"{v:+.1e}", color=theme.qcolor(theme.INK),
+                            anchor=(0, 0.5) if v >= 0 else (1, 0.5))
             t.setFont(theme.font(theme.SMALL_POINT_SIZE))
             t.textItem.document().setDocumentMargin(2.0)
             t.setPos(float(v), float(y))
