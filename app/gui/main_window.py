@@ -524,6 +524,9 @@ class MainWindow(QtWidgets.QMainWindow):
             f.replaceRequested.connect(self._replace)
         self.property_form.renameRequested.connect(self._rename)
         self.results_panel.modeSelected.connect(lambda _i: self._show_mode_colour())
+        if hasattr(self.results_panel, "designValueChosen"):
+            self.results_panel.designValueChosen.connect(self._design_value_chosen)
+            self.results_panel.design_view.value_writable = self._design_value_writable
 
     # ------------------------------------------------------------ edits
     def _replace(self, new_doc, label):
@@ -552,6 +555,42 @@ class MainWindow(QtWidgets.QMainWindow):
         self.project.set_value(path, value, label)
         if path[0] == "links" and path[-1] == "id" and selected == ("link", old) and value:
             self.set_selection(("link", value))  # a renamed link stays selected
+
+    def _design_path(self, element_id: str, quantity: str):
+        """The document path of an element's stiffness or inertia, or (None, why not): a value
+        the project stores as a number can be overwritten; one it derives (a shaft's geometry,
+        a gear mesh's tooth stiffness) cannot."""
+        doc = self.project.doc
+        key, field = ("links", "stiffness") if quantity == "stiffness" else ("discs", "inertia")
+        items = doc.get(key) if isinstance(doc, dict) else None
+        index = next((i for i, e in enumerate(items or []) if isinstance(e, dict) and e.get("id") == element_id),
+                     None)
+        if index is None:
+            return None, f"'{element_id}' is not in the project"
+        entry = items[index]
+        if quantity == "stiffness" and field not in entry:
+            if entry.get("segments"):
+                return None, ("This shaft's stiffness comes from its segments and material: change its "
+                              "diameters or lengths to reach the value")
+            if entry.get("mesh_stiffness"):
+                return None, ("This gear mesh's stiffness comes from its tooth data: change the mesh "
+                              "stiffness or face width to reach the value")
+        return (key, index, field), None
+
+    def _design_value_writable(self, element_id: str, quantity: str) -> str | None:
+        return self._design_path(element_id, quantity)[1]
+
+    def _design_value_chosen(self, element_id: str, quantity: str, value_si: float) -> None:
+        """The design options' tried value, written as one undoable edit in the display unit system."""
+        from .results.design_view import quantity_text
+        path, why = self._design_path(element_id, quantity)
+        if path is None:
+            self.statusBar().showMessage(f"Not changed: {why}", 8000)
+            return
+        text = quantity_text(value_si, quantity, self.system)
+        name = self.project.train.name_of(element_id) if self.project.train is not None else element_id
+        self._edit(path, text, f"Set {quantity} of {name} to {text} (design options)")
+        self.statusBar().showMessage(f"{name}: {quantity} set to {text} (Ctrl+Z undoes it)", 8000)
 
     def _rename(self, old, new):
         if self._closing:

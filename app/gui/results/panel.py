@@ -19,6 +19,11 @@ A result view is a QWidget with four methods (the result-view protocol):
 * ``set_unit_system(system)``: 'SI' or 'US' for every axis, column and tip;
 * ``reset_view_state()``: a newly opened project (no cursor, selection, zoom).
 
+A view that shows part of what it can (the design options without operating
+data show what moves each mode, not the windows) returns None and sets
+``view.limited`` to the sentence saying what is missing: its tab stays
+enabled, its title is greyed and that sentence is its tooltip.
+
 Register it with ``panel.add_view(key, view, title, tip)``; the panel calls
 the four methods at the right moments, greys the view while the model on
 screen has errors (``set_stale``) and keeps the tab's look and tooltip.  A
@@ -39,16 +44,18 @@ from core.about import CAUTION
 
 from . import rows as R
 from .campbell_view import CampbellView
+from .design_view import DesignView
 from .modes_view import ModesView
 from .response_view import ResponseView
 from .transient_view import TransientView
 from .table import write_csv
 
-TAB_MODES, TAB_CAMPBELL, TAB_RESPONSE, TAB_TRANSIENTS = 0, 1, 2, 3
+TAB_MODES, TAB_CAMPBELL, TAB_RESPONSE, TAB_TRANSIENTS, TAB_DESIGN = 0, 1, 2, 3, 4
 
 # the look of a tab that cannot show anything (greyed text, not just unresponsive),
 # and of views that show the last valid model; theme.py is the natural home of these
-DISABLED_TAB_STYLE = f"QTabBar::tab:disabled {{ color: #a3abb5; }}"
+DISABLED_TAB_TEXT = "#a3abb5"
+DISABLED_TAB_STYLE = f"QTabBar::tab:disabled {{ color: {DISABLED_TAB_TEXT}; }}"
 STALE_GREY = "#8c96a3"
 
 
@@ -64,9 +71,12 @@ class ResultTab:
 
 class ResultsPanel(QtWidgets.QWidget):
     """Result views.  ``modeSelected(int)``: index into the modes last given,
-    emitted when the user picks a mode (frequency table, coincidence, cursor row)."""
+    emitted when the user picks a mode (frequency table, coincidence, cursor row).
+    ``designValueChosen(element id, quantity, value SI)``: the user asked, in the design
+    options, to use a tried value (the main window makes it one undoable edit)."""
 
     modeSelected = QtCore.Signal(int)
+    designValueChosen = QtCore.Signal(str, str, float)
 
     def __init__(self, parent=None, show_caution: bool = True):
         super().__init__(parent)
@@ -104,6 +114,12 @@ class ResultsPanel(QtWidgets.QWidget):
         self.add_view("transients", self.transient_view, "Transients",
                       "Start-ups, short circuits and load steps in the time domain: torque and speed against "
                       "time, peak torques and the fatigue each event spends (run on request)")
+        self.design_view = DesignView(self)
+        self.add_view("design_options", self.design_view, "Design options",
+                      "What to change: the natural frequencies against one element's value with the "
+                      "forbidden bands and the admissible values, a value to try, and what moves the "
+                      "selected mode")
+        self.design_view.designValueChosen.connect(self.designValueChosen)
 
         self.caution = QtWidgets.QLabel(CAUTION, self)
         self.caution.setWordWrap(True)
@@ -160,7 +176,10 @@ class ResultsPanel(QtWidgets.QWidget):
         except Exception as exc:  # the rest still shows; say why this part does not
             tab.view.clear()
             why = f"{tab.title} not shown: {exc}"
-        self._set_tab(self.tabs.indexOf(tab.view), why is None, tab.tip if why is None else why)
+        limited = getattr(tab.view, "limited", None) if why is None else None
+        index = self.tabs.indexOf(tab.view)
+        self._set_tab(index, why is None, why or limited or tab.tip)
+        self._grey_tab(index, bool(limited))
 
     # ------------------------------------------------------------ public API
     def set_study(self, study, solve_time_s: float | None = None) -> None:
@@ -179,6 +198,7 @@ class ResultsPanel(QtWidgets.QWidget):
         if not self.tabs.isTabEnabled(self.tabs.currentIndex()):
             self.tabs.setCurrentIndex(TAB_MODES)
         self.campbell_view.select_mode(self.modes_view.current_index())
+        self.design_view.select_mode(self.modes_view.current_index())
         self._show_verdict()
 
     def set_results(self, train, modes, screening, response=None, solve_time_s: float = 0.0) -> None:
@@ -194,6 +214,9 @@ class ResultsPanel(QtWidgets.QWidget):
         self.train = self.modes = self.screening = self.response = None
         for tab in self.result_tabs:
             tab.view.clear(message if tab.view is self.campbell_view else "")
+            if getattr(tab.view, "limited", None):
+                tab.view.limited = None
+                self._grey_tab(self.tabs.indexOf(tab.view), False)
         self._set_label(self.verdict, message, theme.verdict_style(None))
         self.details.setText("")
 
@@ -240,6 +263,7 @@ class ResultsPanel(QtWidgets.QWidget):
         finally:
             self.modes_view.blockSignals(False)
         self.campbell_view.select_mode(index)
+        self.design_view.select_mode(index)
 
     def current_mode_index(self) -> int:
         return self.modes_view.current_index() if self.modes is not None else -1
@@ -250,6 +274,7 @@ class ResultsPanel(QtWidgets.QWidget):
         self.transient_view.cancel()
         self.transient_view.wait(msecs)
         self.response_view._pool.waitForDone(msecs)
+        self.design_view.wait(msecs)
 
     def set_caution_visible(self, visible: bool) -> None:
         """The main window may hide this copy when it shows the caution itself."""
@@ -270,10 +295,14 @@ class ResultsPanel(QtWidgets.QWidget):
             ("Coincidences as CSV…", "csv", self.export_coincidence_csv, "coincidences.csv"),
             ("Forced response peaks as CSV…", "csv", self.export_response_csv, "forced_response.csv"),
             ("Transient peaks and damage as CSV…", "csv", self.export_transient_csv, "transient.csv"),
+            ("Design options (admissible values) as CSV…", "csv", self.export_design_csv, "design_options.csv"),
+            ("Sensitivities of the selected mode as CSV…", "csv", self.export_sensitivity_csv,
+             "sensitivities.csv"),
             (None, None, None, None),
         ]
         for name, key in (("Mode shape plot", "modes"), ("Interference diagram", "campbell"),
-                          ("Forced response plot", "response"), ("Transient plot", "transients")):
+                          ("Forced response plot", "response"), ("Transient plot", "transients"),
+                          ("Design options chart", "design"), ("Sensitivity chart", "sensitivity")):
             for ext in ("png", "svg"):
                 items.append((f"{name} as {ext.upper()}…", ext,
                               (lambda path, k=key: self.export_plot(k, path)), f"{key}.{ext}"))
@@ -348,18 +377,35 @@ class ResultsPanel(QtWidgets.QWidget):
             raise ValueError("no transient has been run on this model (Transients tab, Run)")
         self.transient_view.export_csv(path)
 
+    def export_design_csv(self, path: str) -> None:
+        """The admissible values of the element shown in the design options (display units)."""
+        self._check_exportable()
+        self.design_view.export_csv(path)
+
+    def export_sensitivity_csv(self, path: str) -> None:
+        """Every stiffness and inertia sensitivity of the mode the design options explain."""
+        self._check_exportable()
+        self.design_view.export_sensitivity_csv(path)
+
     def export_plot(self, which: str, path: str) -> None:
-        """``which``: 'modes', 'campbell', 'response' or 'transients'; format from the extension (.png / .svg)."""
+        """``which``: 'modes', 'campbell', 'response', 'transients', 'design' or 'sensitivity';
+        format from the extension (.png / .svg)."""
         self._check_exportable()
         if which == "transients" and self.transient_view.results is None:
             raise ValueError("no transient has been run on this model (Transients tab, Run)")
         canvas = {"modes": self.modes_view.canvas, "campbell": self.campbell_view.canvas,
-                  "response": self.response_view.canvas, "transients": self.transient_view.canvas}[which]
+                  "response": self.response_view.canvas, "transients": self.transient_view.canvas,
+                  "design": self.design_view.canvas, "sensitivity": self.design_view.sens_canvas}[which]
         if which == "campbell" and self.screening is None:
             raise ValueError("there is no interference diagram (no operating data)")
         if which == "response" and self.response is None:
             raise ValueError("there is no forced response (no excitation amplitudes)")
-        view = {"campbell": self.campbell_view, "response": self.response_view}.get(which)
+        if which == "design" and self.design_view.window() is None:
+            raise ValueError("there is no design options chart (no operating data, or it is being computed)")
+        if which == "sensitivity" and not self.design_view.sensitivity_bars():
+            raise ValueError("there are no sensitivities to show")
+        view = {"campbell": self.campbell_view, "response": self.response_view,
+                "design": self.design_view}.get(which)
         if view is not None:
             view.ensure_drawn()  # drawn lazily while its tab is hidden
         canvas.export(path)
@@ -371,6 +417,13 @@ class ResultsPanel(QtWidgets.QWidget):
             self.tabs.setTabEnabled(index, enabled)
         if tip is not None and self.tabs.tabToolTip(index) != tip:
             self.tabs.setTabToolTip(index, tip)
+
+    def _grey_tab(self, index: int, grey: bool) -> None:
+        """A tab that shows only part of its view (``view.limited``) looks disabled but stays open."""
+        bar = self.tabs.tabBar()
+        want = theme.qcolor(DISABLED_TAB_TEXT) if grey else QtGui.QColor()
+        if bar.tabTextColor(index) != want:
+            bar.setTabTextColor(index, want)
 
     def _set_label(self, label, text: str, style: str | None = None) -> None:
         """setText / setStyleSheet only on a change: a style sheet set again re-polishes the label."""
