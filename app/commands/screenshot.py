@@ -22,7 +22,7 @@ def add_parser(sub):
 
 # the --tab words and the results panel's keys for its views
 TABS = {"modes": "modes", "interference": "campbell", "response": "response",
-        "transients": "transients", "design": "design"}
+        "transients": "transients", "design": "design_options"}
 
 
 def parse_size(text: str) -> tuple[int, int]:
