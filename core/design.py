@@ -46,7 +46,8 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
+from functools import cached_property
 
 import numpy as np
 
@@ -60,7 +61,7 @@ from .tolerance import corner_trains, frequency_bands, scaled_disc, scaled_link
 
 TWO_PI = 2.0 * np.pi
 WINDOW_RTOL = 1e-9  # relative precision of every window edge
-CHART_RTOL = 1e-6  # relative precision of the chart's frequencies
+CHART_RTOL = 1e-4  # relative precision of the chart's frequencies (a picture: far below a pixel)
 UNITS = {"stiffness": "N*m/rad", "inertia": "kg*m^2"}
 
 
@@ -389,8 +390,17 @@ class WindowResult:
     tolerances: bool  # any tolerance band in the train
     blocked: tuple[Blocked, ...]
     forbidden_hz: tuple[tuple[str, float, float], ...]  # (line label, low Hz, high Hz)
-    chart: FrequencyChart | None
+    # the chart of the natural frequencies against the element's value, computed on first use
+    # (:attr:`chart`): the window's edges are the result, the chart a picture of it, and a
+    # long train's chart costs many times its window
+    chart_source: object = field(default=None, repr=False, compare=False)
     time_s: float = 0.0
+
+    @cached_property
+    def chart(self) -> FrequencyChart | None:
+        """Natural frequencies against the element's value (None when not asked for)."""
+        src = self.chart_source
+        return src() if callable(src) else src
 
     def as_json(self) -> dict:
         """The ``twistwise window --json`` object (SI), contract keys first."""
@@ -602,8 +612,11 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
             nearest = cand[0]
     chart = None
     if chart_points:
-        chart = _chart(families, train.has_tolerances, lo_v, hi_v, chart_points, rb, d,
-                       screening_cap_hz(excitation_lines(train, op), op.speed_max, m))
+        cap_hz = screening_cap_hz(excitation_lines(train, op), op.speed_max, m)
+        tol_any = train.has_tolerances
+
+        def chart():
+            return _chart(families, tol_any, lo_v, hi_v, chart_points, rb, d, cap_hz)
     return WindowResult(element_id, quantity, UNITS[quantity], current, clears, (lo_v, hi_v),
                         tuple(admissible), nearest, m, own_tol, train.has_tolerances, tuple(blocked),
                         tuple(forbidden), chart, time.perf_counter() - t0)

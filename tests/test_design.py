@@ -646,7 +646,7 @@ def test_window_of_a_distributed_shaft_and_its_chart():
         for g, v in enumerate(w.chart.values):
             f = natural_modes(_scaled_train(doc, li, v / k0),
                               n_modes=w.chart.frequency_hz.shape[1]).frequency_hz[1:]
-            np.testing.assert_allclose(w.chart.frequency_hz[g], f, rtol=3e-6)
+            np.testing.assert_allclose(w.chart.frequency_hz[g], f, rtol=3e-4)
 
 
 def _scaled_train(doc, li, factor):

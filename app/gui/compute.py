@@ -84,6 +84,9 @@ def complete(first: Results) -> Results:
     from core.study import LIVE_PARTS, extend_study
     t0 = time.perf_counter()
     study = extend_study(first.study, LIVE_PARTS)
+    if study.design is not None:  # the charts are computed on first use: here, not on the GUI thread
+        for w in study.design.windows:
+            w.chart
     return Results(study, first.solve_time_s + time.perf_counter() - t0, _note(study), complete=True)
 
 

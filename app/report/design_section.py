@@ -46,6 +46,10 @@ TOP_ELEMENTS = 6
 BODY_MODES = 6
 #: window charts drawn (elements whose current value does not clear first); the table lists all
 MAX_CHARTS = 8
+#: a train this long draws fewer window charts: each chart solves every mode below the screening
+#: limit at 41 values of the element, which grows with the train (the window table lists them all)
+LONG_TRAIN_DISCS = 1000
+LONG_TRAIN_CHARTS = 4
 #: admissible intervals listed per element in the window table
 MAX_INTERVALS = 6
 KINDS = {"shaft": "shaft", "coupling": "coupling", "gear_mesh": "gear mesh"}
@@ -468,7 +472,8 @@ def window_block(ctx: Ctx, design, links, discs) -> list:
 
 def window_charts(ctx: Ctx, windows) -> list:
     st = styles()
-    shown = sorted(windows, key=lambda w: w.current_clears)[:MAX_CHARTS]  # stable: study order within each
+    limit = MAX_CHARTS if len(ctx.train.discs) <= LONG_TRAIN_DISCS else LONG_TRAIN_CHARTS
+    shown = sorted(windows, key=lambda w: w.current_clears)[:limit]  # stable: study order within each
     shown = [w for w in shown if w.chart is not None]
     if not shown:
         return []

@@ -314,6 +314,7 @@ class _WindowJob(QtCore.QRunnable):
         from core.design import element_window
         try:
             w, error = element_window(self.train, self.key[0], self.key[1], screening_margin=self.margin), ""
+            w.chart  # computed on first use: here, off the GUI thread
         except ModelError as exc:
             w, error = None, str(exc)
         except Exception as exc:  # never a traceback: say what failed
