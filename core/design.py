@@ -45,8 +45,9 @@ Units: SI inside (N*m/rad, kg*m^2, rad/s); frequencies reported in Hz.
 from __future__ import annotations
 
 import math
+import threading
 import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -55,7 +56,8 @@ from .elimination import factor
 from .errors import ModelError
 from .model import Train
 from .screening import Screening, excitation_lines, screen, screening_cap_hz
-from .solver import DynamicSystem, Modes, _inverse_iteration, _map, _segment_energies, natural_modes, zero_roots
+from .solver import (DynamicSystem, Modes, _inverse_iteration, _map, _segment_energies, dynamic_system,
+                     natural_modes, zero_roots)
 from .tolerance import corner_trains, frequency_bands, scaled_disc, scaled_link
 
 TWO_PI = 2.0 * np.pi
@@ -205,7 +207,8 @@ class _Family:
     """
 
     def __init__(self, train: Train, kind: str, element: str, base_value: float):
-        self.system = s = DynamicSystem(train)
+        # the assembled train is shared by the windows of all its elements (read only here)
+        self.system = s = dynamic_system(train)
         self.kind = kind
         self.base = base_value
         a = s.asm
@@ -374,6 +377,10 @@ class WindowResult:
     their union).  ``current_clears`` is judged at the current value by the count
     itself.  Weakly excited pairs are not exempt here (their participation moves
     with the value): the window is the conservative set.
+
+    ``chart`` is computed on first use (it costs tens of times the window's edges, and
+    a sheet draws a few charts of a train that may window hundreds of couplings); the
+    desktop program asks for it on its worker thread.
     """
 
     element: str
@@ -389,8 +396,22 @@ class WindowResult:
     tolerances: bool  # any tolerance band in the train
     blocked: tuple[Blocked, ...]
     forbidden_hz: tuple[tuple[str, float, float], ...]  # (line label, low Hz, high Hz)
-    chart: FrequencyChart | None
+    # the FrequencyChart, None, or a function computing it (see ``chart``)
+    chart_source: object = field(repr=False)
     time_s: float = 0.0
+    _chart_lock: object = field(default_factory=threading.Lock, repr=False, compare=False)
+
+    @property
+    def chart(self) -> FrequencyChart | None:
+        """Natural frequencies against the element's value (None when not asked for)."""
+        source = self.chart_source
+        if callable(source):
+            with self._chart_lock:
+                source = self.chart_source
+                if callable(source):
+                    source = source()
+                    object.__setattr__(self, "chart_source", source)
+        return source
 
     def as_json(self) -> dict:
         """The ``twistwise window --json`` object (SI), contract keys first."""
@@ -491,14 +512,18 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
                                           for x in t.discs))
         return t
 
-    nominal = _Family(at_base(train), kind, element_id, base)
-    if others:
-        tl, th = corner_trains(train, skip=skip)
-        fam_low, fam_high = _Family(at_base(tl), kind, element_id, base), \
-            _Family(at_base(th), kind, element_id, base)
-    else:
-        fam_low = fam_high = nominal
-    families = [(fam_low, c_low), (fam_high, c_high), (nominal, 1.0)]
+    def make_families():
+        nominal = _Family(at_base(train), kind, element_id, base)
+        if others:
+            tl, th = corner_trains(train, skip=skip)
+            fam_low, fam_high = _Family(at_base(tl), kind, element_id, base), \
+                _Family(at_base(th), kind, element_id, base)
+        else:
+            fam_low = fam_high = nominal
+        return [(fam_low, c_low), (fam_high, c_high), (nominal, 1.0)]
+
+    families = make_families()
+    fam_low, fam_high, nominal = (f for f, _ in families)
     rb = zero_roots(nominal.system.asm)  # rigid-body mode and free damper rings
     r_min, r_max = sorted((d * math.log(lo_v), d * math.log(hi_v)))
     forbidden = _forbidden(train, m)
@@ -602,8 +627,11 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
             nearest = cand[0]
     chart = None
     if chart_points:
-        chart = _chart(families, train.has_tolerances, lo_v, hi_v, chart_points, rb, d,
-                       screening_cap_hz(excitation_lines(train, op), op.speed_max, m))
+        cap = screening_cap_hz(excitation_lines(train, op), op.speed_max, m)
+        tolerances = train.has_tolerances
+
+        def chart():  # on first use; the families are made again (a corner train is not kept)
+            return _chart(make_families(), tolerances, lo_v, hi_v, chart_points, rb, d, cap)
     return WindowResult(element_id, quantity, UNITS[quantity], current, clears, (lo_v, hi_v),
                         tuple(admissible), nearest, m, own_tol, train.has_tolerances, tuple(blocked),
                         tuple(forbidden), chart, time.perf_counter() - t0)

@@ -88,6 +88,9 @@ def complete(first: Results) -> Results:
     from core.study import LIVE_PARTS, extend_study
     t0 = time.perf_counter()
     study = extend_study(first.study, LIVE_PARTS)
+    if study.design is not None:
+        for w in study.design.windows:
+            w.chart  # noqa: B018 -- computed on first use: here, off the GUI thread
     return Results(study, first.solve_time_s + time.perf_counter() - t0, _note(study), complete=True)
 
 
