@@ -45,9 +45,9 @@ Units: SI inside (N*m/rad, kg*m^2, rad/s); frequencies reported in Hz.
 from __future__ import annotations
 
 import math
+import threading
 import time
 from dataclasses import dataclass, field, replace
-from functools import cached_property
 
 import numpy as np
 
@@ -56,12 +56,17 @@ from .elimination import factor
 from .errors import ModelError
 from .model import Train
 from .screening import Screening, excitation_lines, screen, screening_cap_hz
-from .solver import DynamicSystem, Modes, _inverse_iteration, _map, _segment_energies, natural_modes, zero_roots
+from .solver import (DynamicSystem, Modes, _inverse_iteration, _map, _segment_energies, dynamic_system,
+                     natural_modes, zero_roots)
 from .tolerance import corner_trains, frequency_bands, scaled_disc, scaled_link
 
 TWO_PI = 2.0 * np.pi
 WINDOW_RTOL = 1e-9  # relative precision of every window edge
-CHART_RTOL = 1e-4  # relative precision of the chart's frequencies (a picture: far below a pixel)
+CHART_RTOL = 1e-6  # relative precision of the chart's frequencies
+#: trains of at least this many nodes finish isolated brackets by the determinant (_polish_det):
+#: there a factorization costs more than a multisection pass's fixed overhead (measured: the
+#: polish is 2.5x faster on a 2000-disc chart, slower below a few hundred nodes)
+POLISH_MIN_NODES = 500
 UNITS = {"stiffness": "N*m/rad", "inertia": "kg*m^2"}
 
 
@@ -206,7 +211,8 @@ class _Family:
     """
 
     def __init__(self, train: Train, kind: str, element: str, base_value: float):
-        self.system = s = DynamicSystem(train)
+        # the assembled train is shared by the windows of all its elements (read only here)
+        self.system = s = dynamic_system(train)
         self.kind = kind
         self.base = base_value
         a = s.asm
@@ -304,9 +310,32 @@ class _Family:
             return self._count_piece(v, w)
         return np.concatenate(_map(lambda p: self._count_piece(v[p], w[p]), pieces))
 
+    @property
+    def lumped(self) -> bool:
+        """No distributed member: the count is the negative pivots alone and det K has
+        the sign (-1)^count (see :func:`_polish_det`)."""
+        return not self.system.asm.distributed
+
+    def _logdet_piece(self, v, w):
+        s = self.system
+        D, W = s._arrays(w)
+        self._apply(D, W, v, w, False)
+        neg, ld, _ = factor(s.schedule, D, W, s.tiny, logdet=True)
+        return neg, ld
+
+    def count_logdet(self, value, omega):
+        """(count below each omega, log|det K|) per column of a lumped family."""
+        v = np.asarray(value, float)
+        w = np.asarray(omega, float)
+        pieces = self.system._pieces(w.size)
+        parts = [self._logdet_piece(v, w)] if len(pieces) == 1 else \
+            _map(lambda p: self._logdet_piece(v[p], w[p]), pieces)
+        return np.concatenate([q[0] for q in parts]), np.concatenate([q[1] for q in parts])
+
 
 def _transitions(evaluate, key, t_a, t_b, level, p_a, tol: float, per_target: int = 4,
-                 min_columns: int = 128):
+                 min_columns: int = 128, counts=None, logdet=None, ends_logdet=None, to_x=None, from_x=None,
+                 straddle: bool = False):
     """Where monotone count functions pass given levels, by multisection.
 
     Target n: the count function ``key[n]`` over t in [t_a[n], t_b[n]], with
@@ -319,11 +348,34 @@ def _transitions(evaluate, key, t_a, t_b, level, p_a, tol: float, per_target: in
     Points per pass: about ``per_target`` per unresolved target (at least
     ``min_columns`` in all), so a pass costs little more than its fixed overhead
     while the brackets are shared and each target gains ~2 bits a pass later.
+
+    ``counts``: (count at t_a, count at t_b) per target, and ``logdet(keys, ts) ->
+    (counts, log|det K|)`` (lumped systems, where det K has the sign (-1)^count):
+    a bracket that holds the target's switch alone (the counts at its ends differ by
+    one) is then finished by Illinois regula falsi on det K, which changes sign
+    exactly there (:func:`_polish_det`), instead of more multisection passes;
+    ``ends_logdet``: log|det K| at t_a and t_b where the caller has it (NaN: not known);
+    ``to_x``, ``from_x``, ``straddle``: how the polish steps (see :func:`_polish_det`).
     """
     t_a, t_b = np.array(t_a, float), np.array(t_b, float)
     key, level, p_a = np.asarray(key), np.asarray(level), np.asarray(p_a, bool)
     active = (t_b - t_a) > tol
+    polish = logdet is not None and counts is not None
+    if polish:
+        c_a, c_b = (np.array(c, np.int64) for c in counts)
+        ld_a, ld_b = ((np.full(len(t_a), np.nan), np.full(len(t_a), np.nan)) if ends_logdet is None
+                      else (np.array(x, float) for x in ends_logdet))
+        tried = np.zeros(len(t_a), bool)
     while active.any():
+        if polish:
+            lone = active & ~tried & (np.abs(c_a - c_b) == 1)
+            if lone.any():
+                idx = np.flatnonzero(lone)
+                t_a[idx], t_b[idx] = _polish_det(logdet, key[idx], t_a[idx], t_b[idx], c_a[idx], c_b[idx], tol,
+                                                 ld_a[idx], ld_b[idx], to_x, from_x, straddle)
+                tried[idx] = True  # a bracket the polish could not close goes on by multisection
+                active[idx] = (t_b[idx] - t_a[idx]) > tol
+                continue
         idx = np.flatnonzero(active)
         rows = np.column_stack([key[idx], t_a[idx], t_b[idx]])
         groups, inv = np.unique(rows, axis=0, return_inverse=True)
@@ -331,15 +383,100 @@ def _transitions(evaluate, key, t_a, t_b, level, p_a, tol: float, per_target: in
         p = int(np.clip(max(per_target * len(idx), min_columns) // len(groups), 3, 63))
         frac = np.arange(1, p + 1) / (p + 1)
         pts = groups[:, 1:2] + (groups[:, 2:3] - groups[:, 1:2]) * frac[None, :]
-        counts = evaluate(np.repeat(groups[:, 0].astype(np.int64), p), pts.ravel()).reshape(len(groups), p)
-        P = counts[inv] > level[idx, None]
+        counts_p = evaluate(np.repeat(groups[:, 0].astype(np.int64), p), pts.ravel()).reshape(len(groups), p)
+        C = counts_p[inv]
+        P = C > level[idx, None]
         j = np.count_nonzero(P == p_a[idx, None], axis=1)  # P keeps its t_a value on a prefix
         g_pts = pts[inv]
         r = np.arange(len(idx))
-        t_a[idx] = np.where(j > 0, g_pts[r, np.maximum(j - 1, 0)], t_a[idx])
-        t_b[idx] = np.where(j < p, g_pts[r, np.minimum(j, p - 1)], t_b[idx])
+        moved_a, moved_b = j > 0, j < p
+        t_a[idx] = np.where(moved_a, g_pts[r, np.maximum(j - 1, 0)], t_a[idx])
+        t_b[idx] = np.where(moved_b, g_pts[r, np.minimum(j, p - 1)], t_b[idx])
+        if polish:
+            c_a[idx] = np.where(moved_a, C[r, np.maximum(j - 1, 0)], c_a[idx])
+            c_b[idx] = np.where(moved_b, C[r, np.minimum(j, p - 1)], c_b[idx])
+            ld_a[idx[moved_a]] = np.nan
+            ld_b[idx[moved_b]] = np.nan
         active[idx] = (t_b[idx] - t_a[idx]) > tol
     return 0.5 * (t_a + t_b)
+
+
+def _polish_det(logdet, key, a, b, c_a, c_b, tol: float, ld_a=None, ld_b=None, to_x=None, from_x=None,
+                straddle: bool = False, iterations: int = 100):
+    """Brackets (a, b] narrowed to ``tol`` around the one root of det K inside each.
+
+    Each bracket holds exactly one switch of its count (the counts at its ends
+    differ by one), so det K = (-1)^count |det K| changes sign exactly once in it:
+    Illinois regula falsi on the signed determinant (the safeguarded false position of
+    :func:`core.solver._polish_distributed`; M. Dowell and P. Jarratt, BIT 11 (1971)
+    168-174 -- from memory), taken in the variable ``x = to_x(t)`` in which det K is
+    nearly linear (the element's value for a window: det K is linear in a spring's
+    stiffness), converges superlinearly.  Each step factors K at the false position,
+    kept a quarter ``tol`` inside the bracket; with ``straddle`` at two points a quarter
+    ``tol`` either side of it, so that an estimate as good as a linear det K gives closes
+    the bracket at once.  The side of a trial point is read from its count, as
+    multisection would.  A bracket whose end counts (from this factorization) are not
+    ``c_a``, ``c_b`` is returned as it came.  ``ld_a``, ``ld_b``: log|det K| at the ends
+    where known (NaN: factorized here).
+    """
+    a, b = np.array(a, float), np.array(b, float)
+    c_a, c_b = np.asarray(c_a, np.int64), np.asarray(c_b, np.int64)
+    n = len(a)
+    if not n:
+        return a, b
+    to_x = to_x or (lambda t: t)
+    from_x = from_x or (lambda x: x)
+    ld_a = np.full(n, np.nan) if ld_a is None else np.array(ld_a, float)
+    ld_b = np.full(n, np.nan) if ld_b is None else np.array(ld_b, float)
+    cnt_a, cnt_b = c_a.copy(), c_b.copy()
+    need_a, need_b = np.flatnonzero(np.isnan(ld_a)), np.flatnonzero(np.isnan(ld_b))
+    if len(need_a) or len(need_b):
+        c_new, ld_new = logdet(np.r_[key[need_a], key[need_b]], np.r_[a[need_a], b[need_b]])
+        cnt_a[need_a], ld_a[need_a] = c_new[:len(need_a)], ld_new[:len(need_a)]
+        cnt_b[need_b], ld_b[need_b] = c_new[len(need_a):], ld_new[len(need_a):]
+    ref = np.maximum(ld_a, ld_b)
+    with np.errstate(over="ignore", under="ignore", invalid="ignore"):
+        f_a = np.exp(np.clip(ld_a - ref, -700.0, 0.0))  # the a side taken as +
+        f_b = -np.exp(np.clip(ld_b - ref, -700.0, 0.0))
+    good = (cnt_a == c_a) & (cnt_b == c_b) & np.isfinite(ref)
+    active = ((b - a) > tol) & good
+    side = np.zeros(n, np.int64)  # +1: a moved last, -1: b moved last
+    q = 0.25 * tol
+    for _ in range(iterations):
+        if not active.any():
+            break
+        idx = np.flatnonzero(active)
+        k = len(idx)
+        aa, bb, fa, fb = a[idx], b[idx], f_a[idx], f_b[idx]
+        xa, xb = to_x(aa), to_x(bb)
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+            t = from_x((xa * fb - xb * fa) / (fb - fa))
+        t = np.where(np.isfinite(t), t, 0.5 * (aa + bb))
+        t = np.clip(t, aa + q, bb - q)
+        if straddle:
+            c, ld = logdet(np.r_[key[idx], key[idx]], np.r_[t - q, t + q])
+            t1, t2, c1, c2, ld1, ld2 = t - q, t + q, c[:k], c[k:], ld[:k], ld[k:]
+        else:
+            c1, ld1 = logdet(key[idx], t)
+            t1 = t2 = t
+            c2, ld2 = c1, ld1
+        on_a1, on_a2 = c1 == c_a[idx], c2 == c_a[idx]  # counts rise (or fall) with t
+        with np.errstate(over="ignore", under="ignore", invalid="ignore"):
+            g1 = np.exp(np.clip(ld1 - ref[idx], -700.0, 700.0))
+            g2 = np.exp(np.clip(ld2 - ref[idx], -700.0, 700.0))
+        new_a = np.where(on_a2, t2, np.where(on_a1, t1, aa))
+        new_b = np.where(~on_a1, t1, np.where(~on_a2, t2, bb))
+        moved_a, moved_b = on_a1 | on_a2, ~on_a1 | ~on_a2
+        ga = np.where(on_a2, g2, g1)
+        gb = -np.where(~on_a1, g1, g2)
+        # Illinois: an end that stays while the other moves a second time has its value halved
+        s_prev = side[idx]
+        f_a[idx] = np.where(moved_a, ga, np.where(s_prev == -1, 0.5 * fa, fa))
+        f_b[idx] = np.where(moved_b, gb, np.where(s_prev == 1, 0.5 * fb, fb))
+        side[idx] = np.where(moved_a & moved_b, 0, np.where(moved_a, 1, -1))
+        a[idx], b[idx] = new_a, new_b
+        active[idx] = (new_b - new_a) > tol
+    return a, b
 
 
 # ================================================================== windows
@@ -375,6 +512,10 @@ class WindowResult:
     their union).  ``current_clears`` is judged at the current value by the count
     itself.  Weakly excited pairs are not exempt here (their participation moves
     with the value): the window is the conservative set.
+
+    ``chart`` is computed on first use (it costs tens of times the window's edges, and
+    a sheet draws a few charts of a train that may window hundreds of couplings); the
+    desktop program asks for it on its worker thread.
     """
 
     element: str
@@ -390,17 +531,22 @@ class WindowResult:
     tolerances: bool  # any tolerance band in the train
     blocked: tuple[Blocked, ...]
     forbidden_hz: tuple[tuple[str, float, float], ...]  # (line label, low Hz, high Hz)
-    # the chart of the natural frequencies against the element's value, computed on first use
-    # (:attr:`chart`): the window's edges are the result, the chart a picture of it, and a
-    # long train's chart costs many times its window
-    chart_source: object = field(default=None, repr=False, compare=False)
+    # the FrequencyChart, None, or a function computing it (see ``chart``)
+    chart_source: object = field(repr=False)
     time_s: float = 0.0
+    _chart_lock: object = field(default_factory=threading.Lock, repr=False, compare=False)
 
-    @cached_property
+    @property
     def chart(self) -> FrequencyChart | None:
         """Natural frequencies against the element's value (None when not asked for)."""
-        src = self.chart_source
-        return src() if callable(src) else src
+        source = self.chart_source
+        if callable(source):
+            with self._chart_lock:
+                source = self.chart_source
+                if callable(source):
+                    source = source()
+                    object.__setattr__(self, "chart_source", source)
+        return source
 
     def as_json(self) -> dict:
         """The ``twistwise window --json`` object (SI), contract keys first."""
@@ -501,14 +647,18 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
                                           for x in t.discs))
         return t
 
-    nominal = _Family(at_base(train), kind, element_id, base)
-    if others:
-        tl, th = corner_trains(train, skip=skip)
-        fam_low, fam_high = _Family(at_base(tl), kind, element_id, base), \
-            _Family(at_base(th), kind, element_id, base)
-    else:
-        fam_low = fam_high = nominal
-    families = [(fam_low, c_low), (fam_high, c_high), (nominal, 1.0)]
+    def make_families():
+        nominal = _Family(at_base(train), kind, element_id, base)
+        if others:
+            tl, th = corner_trains(train, skip=skip)
+            fam_low, fam_high = _Family(at_base(tl), kind, element_id, base), \
+                _Family(at_base(th), kind, element_id, base)
+        else:
+            fam_low = fam_high = nominal
+        return [(fam_low, c_low), (fam_high, c_high), (nominal, 1.0)]
+
+    families = make_families()
+    fam_low, fam_high, nominal = (f for f, _ in families)
     rb = zero_roots(nominal.system.asm)  # rigid-body mode and free damper rings
     r_min, r_max = sorted((d * math.log(lo_v), d * math.log(hi_v)))
     forbidden = _forbidden(train, m)
@@ -533,6 +683,18 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
                 out[sel] = fam.count(c * v[sel], om[sel])
         return out
 
+    def logdet(k_idx, r):  # as evaluate, with log|det K| (lumped families only)
+        cnt, ld = np.empty(len(r), np.int64), np.empty(len(r))
+        kk = np.asarray(k_idx)
+        roles, om = key_role[kk], key_omega[kk]
+        v = np.exp(d * np.asarray(r, float))
+        for role in (0, 1):
+            sel = roles == role
+            if sel.any():
+                fam, c = families[role]
+                cnt[sel], ld[sel] = fam.count_logdet(c * v[sel], om[sel])
+        return cnt, ld
+
     nk = len(keys)
     if nk:
         ends = evaluate(np.r_[np.arange(nk), np.arange(nk)], np.r_[np.full(nk, r_min), np.full(nk, r_max)])
@@ -549,8 +711,13 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
             t_level.append(i)
     t_key = np.array(t_key, np.int64)
     t_level = np.array(t_level, np.int64)
+    lumped = fam_low.lumped and fam_high.lumped and nominal.system.n_dof >= POLISH_MIN_NODES
     crossing = _transitions(evaluate, t_key, np.full(len(t_key), r_min), np.full(len(t_key), r_max),
-                            t_level, np.ones(len(t_key), bool), WINDOW_RTOL) if len(t_key) else np.zeros(0)
+                            t_level, np.ones(len(t_key), bool), WINDOW_RTOL,
+                            counts=(n_at_min[t_key], n_at_max[t_key]) if len(t_key) else None,
+                            logdet=logdet if lumped else None,  # det K is linear in a spring's value
+                            to_x=lambda r: np.exp(d * r), from_x=lambda v: np.log(v) / d, straddle=True) \
+        if len(t_key) else np.zeros(0)
     cross = {(int(k), int(i)): float(r) for k, i, r in zip(t_key, t_level, crossing)}
 
     def edge(k: int, i: int) -> float:
@@ -612,11 +779,11 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
             nearest = cand[0]
     chart = None
     if chart_points:
-        cap_hz = screening_cap_hz(excitation_lines(train, op), op.speed_max, m)
-        tol_any = train.has_tolerances
+        cap = screening_cap_hz(excitation_lines(train, op), op.speed_max, m)
+        tolerances = train.has_tolerances
 
-        def chart():
-            return _chart(families, tol_any, lo_v, hi_v, chart_points, rb, d, cap_hz)
+        def chart():  # on first use; the families are made again (a corner train is not kept)
+            return _chart(make_families(), tolerances, lo_v, hi_v, chart_points, rb, d, cap)
     return WindowResult(element_id, quantity, UNITS[quantity], current, clears, (lo_v, hi_v),
                         tuple(admissible), nearest, m, own_tol, train.has_tolerances, tuple(blocked),
                         tuple(forbidden), chart, time.perf_counter() - t0)
@@ -677,6 +844,19 @@ def _chart(families, tolerances: bool, lo_v: float, hi_v: float, n_points: int, 
                 out[sel] = f.count(c * key_v[kk][sel], np.exp(t[sel]))
         return out
 
+    def logdet(k_idx, t):  # as evaluate, with log|det K| (lumped families only)
+        cnt, ld = np.empty(len(t), np.int64), np.empty(len(t))
+        kk = np.asarray(k_idx)
+        t = np.asarray(t, float)
+        for role in roles:
+            sel = key_role[kk] == role
+            if sel.any():
+                f, c = families[role]
+                cnt[sel], ld[sel] = f.count_logdet(c * key_v[kk][sel], np.exp(t[sel]))
+        return cnt, ld
+
+    lumped = all(families[role][0].lumped for role in roles) and families[2][0].system.n_dof >= POLISH_MIN_NODES
+
     floor = math.log(cap_w * 1e-6)
     logf = np.full((len(roles), n_points, n_curves), np.nan)  # ln omega, raising order
 
@@ -687,26 +867,32 @@ def _chart(families, tolerances: bool, lo_v: float, hi_v: float, n_points: int, 
         t_key = np.repeat(kk, n_curves)
         t_level = np.tile(lvl, len(kk))
         lo_t, hi_t = lower.reshape(-1).copy(), upper.reshape(-1).copy()
+
+        def at_ends(keys, ts):  # counts (and log|det K| for the polish) at bracket ends
+            if lumped:
+                return logdet(keys, ts)
+            return evaluate(keys, ts), np.full(len(ts), np.nan)
+
         # make sure of the bracket ends by the count (and find modes below the floor)
-        c_lo = evaluate(t_key, lo_t)
-        below_floor = c_lo > t_level
-        c_hi = evaluate(t_key, hi_t)
+        c_lo, ld_lo = at_ends(t_key, lo_t)
+        c_hi, ld_hi = at_ends(t_key, hi_t)
         grow = c_hi <= t_level
         for _ in range(60):
             if not grow.any():
                 break
             hi_t[grow] += math.log(3.7)
-            c_hi[grow] = evaluate(t_key[grow], hi_t[grow])
+            c_hi[grow], ld_hi[grow] = at_ends(t_key[grow], hi_t[grow])
             grow = c_hi <= t_level
         low_bad = (c_lo > t_level) & (lo_t > floor)  # a rounding outside the neighbours' bracket
         lo_t[low_bad] = floor
-        c_lo[low_bad] = evaluate(t_key[low_bad], lo_t[low_bad])
+        c_lo[low_bad], ld_lo[low_bad] = at_ends(t_key[low_bad], lo_t[low_bad])
         below_floor = c_lo > t_level
         ok = ~below_floor
         t = np.full(len(t_key), np.nan)
         if ok.any():
             t[ok] = _transitions(evaluate, t_key[ok], lo_t[ok], hi_t[ok], t_level[ok],
-                                 np.zeros(int(ok.sum()), bool), CHART_RTOL)
+                                 np.zeros(int(ok.sum()), bool), CHART_RTOL, counts=(c_lo[ok], c_hi[ok]),
+                                 logdet=logdet if lumped else None, ends_logdet=(ld_lo[ok], ld_hi[ok]))
         logf[:, points, :] = t.reshape(len(roles), len(points), n_curves)
 
     ends = [0, n_points - 1] if n_points > 1 else [0]

@@ -330,16 +330,25 @@ def screen(train: Train, modes: Modes | None = None, margin: float | None = None
         bands = frequency_bands(train, modes)
     weak_below = op.weak_excitation_below
     pairs = []
+    # participation of every (mode, line) pair at once: |twist at the line's discs| / max |twist|,
+    # as participation() gives it one pair at a time (a 200-disc train has ~1000 pairs)
+    shape = np.abs(np.asarray(modes.shape, float))
+    big = shape.max(axis=1) if shape.size else np.zeros(len(modes))
+    where = {d: j for j, d in enumerate(modes.disc_ids)}
+    with np.errstate(divide="ignore", invalid="ignore"):
+        parts = [None if not line.acts_at else
+                 np.where(big > 0, shape[:, [where[d] for d in line.acts_at]].max(axis=1) / big, 0.0)
+                 for line in lines]
     for i in np.flatnonzero(modes.elastic):
         f_n = float(modes.frequency_hz[i])
         f_lo, f_hi = (float(bands[i, 0]), float(bands[i, 1])) if tol else (f_n, f_n)
         if f_lo > cap:
             continue
-        for line in lines:
+        for line, line_part in zip(lines, parts):
             sep, worst, crossing, band = pair_separation(f_n, line, op.speed_min, op.speed_max, m)
             cross = crossing if crossing is not None and crossing > 0 else None
             sep_band = band_separation(f_lo, f_hi, line, op.speed_min, op.speed_max) if tol else None
-            part = participation(modes, i, line)
+            part = None if line_part is None else float(line_part[i])
             weak = part is not None and weak_below is not None and part < weak_below
             governing = sep if sep_band is None else sep_band
             pairs.append(Coincidence(int(modes.number[i]), f_n, line, float(sep), cross, band,

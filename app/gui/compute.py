@@ -11,7 +11,9 @@ The study comes in two stages: the modes, the screening, the sensitivities and t
 forced response first (what every edit changes and every view shows at once), then on
 the worker the slower parts — the windows of the design options, the acceptance checks,
 the damped modes — added to the same study (:func:`core.study.extend_study`) and shown
-when ready (``Results.complete``).
+when ready (``Results.complete``).  The second stage starts once the first results are
+painted (a worker running Python would slow the redraw through the interpreter lock),
+and not at all when a newer edit has come meanwhile (its own second stage follows).
 """
 from __future__ import annotations
 
@@ -22,6 +24,8 @@ from PySide6 import QtCore
 
 FRAME_S = 1.0 / 60.0
 DEBOUNCE_MS = 150
+#: posted at low priority after the first results: handled after the paint they asked for
+_SECOND_STAGE = QtCore.QEvent.Type(QtCore.QEvent.registerEventType())
 
 
 @dataclass
@@ -84,9 +88,9 @@ def complete(first: Results) -> Results:
     from core.study import LIVE_PARTS, extend_study
     t0 = time.perf_counter()
     study = extend_study(first.study, LIVE_PARTS)
-    if study.design is not None:  # the charts are computed on first use: here, not on the GUI thread
+    if study.design is not None:
         for w in study.design.windows:
-            w.chart
+            w.chart  # noqa: B018 -- computed on first use: here, off the GUI thread
     return Results(study, first.solve_time_s + time.perf_counter() - t0, _note(study), complete=True)
 
 
@@ -147,6 +151,7 @@ class ResultsRunner(QtCore.QObject):
         self._signals = _Signals()
         self._signals.done.connect(self._job_finished, QtCore.Qt.QueuedConnection)
         self._pending = None
+        self._second = None  # (generation, first-stage Results) waiting for its second stage
         self._generation = 0
         self._running = 0
         self.last_time_s = 0.0
@@ -213,10 +218,26 @@ class ResultsRunner(QtCore.QObject):
         if not res.complete and not needs_second_stage(res.study):
             res.complete = True
         self.resultsReady.emit(res)
-        if not res.complete:  # the slower parts follow on the worker
-            self._running += 1
-            self.busyChanged.emit(True)
-            self._pool.start(_Job(generation, None, self._signals, first=res))
+        if not res.complete:  # the slower parts follow on the worker, after the views' paint
+            self._second = (generation, res)
+            QtCore.QCoreApplication.postEvent(self, QtCore.QEvent(_SECOND_STAGE),
+                                              QtCore.Qt.LowEventPriority.value)
+
+    def event(self, event) -> bool:
+        if event.type() == _SECOND_STAGE:
+            self._start_second()
+            return True
+        return super().event(event)
+
+    def _start_second(self) -> None:
+        queued, self._second = self._second, None
+        if queued is None or queued[0] != self._generation:
+            return  # nothing queued, or a newer edit is on its way
+        self._running += 1
+        self.busyChanged.emit(True)
+        self._pool.start(_Job(queued[0], None, self._signals, first=queued[1]))
 
     def wait(self, msecs: int = 10000) -> bool:
+        """Until every solve asked for so far has ended (a second stage still queued starts now)."""
+        self._start_second()
         return self._pool.waitForDone(msecs)

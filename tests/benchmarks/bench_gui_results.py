@@ -8,16 +8,23 @@ Run by hand (not collected by pytest):
 For invented lumped chains of N discs with an operating range and twelve
 excitation orders, it prints side by side, per N:
 
-* solve: ``natural_modes`` + ``screen`` (what core costs for the same edit,
-  the reference of this run);
-* views: ``ResultsPanel.set_results`` with those results, including the
-  redraw of the visible tab (``grab()`` forces the paint offscreen);
+* solve: the study the desktop program computes first after an edit
+  (``core.study.run_study`` with the first-stage parts of ``app.gui.compute``:
+  modes, screening, sensitivities; what core costs for the same edit, the
+  reference of this run);
+* views: ``ResultsPanel.set_study`` with that study, including the redraw of
+  the visible tab (``grab()`` forces the paint offscreen);
 * paint: ``grab()`` alone, the part of "views" that is Qt painting;
 * cursor: one speed-cursor move (read-out from ``nearest_at_speed``);
 * mode: selecting another mode (shape, torque bars, diagram highlight).
 
 Each figure is the best of a few repeats; the ratio views/solve says how the
-views' cost compares with core's on this machine.  Budget (issue 4, item 10):
+views' cost compares with core's on this machine.  The study follows the one
+rule of :func:`core.study.choose_modes`: where more natural frequencies lie
+under the screening limit than one solve returns (the 1000-disc chain has
+about 640, one solve returns 400), the lowest ones are shown and the train is
+not screened; the "screened" column says so and the Interference tab is then
+disabled, so only the Modes tab is timed.  Budget (issue 4, item 10):
 an accepted edit to redrawn results on a 200-disc train under 50 ms, solve
 and views together.
 """
@@ -36,10 +43,10 @@ os.environ.setdefault("QT_QPA_PLATFORM", "offscreen")
 
 from PySide6 import QtWidgets  # noqa: E402
 
+from app.gui.compute import FIRST_PARTS  # noqa: E402
 from app.gui.results import ResultsPanel  # noqa: E402
 from core.project import build_train  # noqa: E402
-from core.screening import screen  # noqa: E402
-from core.solver import natural_modes  # noqa: E402
+from core.study import LIVE_PARTS, StudyOptions, run_study  # noqa: E402
 
 
 def chain_document(n: int, seed: int = 3) -> dict:
@@ -75,40 +82,50 @@ def main(argv=None) -> int:
     panel.resize(1200, 800)
     panel.show()
     app.processEvents()
-    print(f"{'discs':>6} {'modes':>6} {'solve ms':>9} {'views ms':>9} {'paint ms':>9} {'views/solve':>11} "
-          f"{'cursor ms':>10} {'mode ms':>8}")
+    print(f"{'discs':>6} {'modes':>6} {'screened':>8} {'solve ms':>9} {'views ms':>9} {'paint ms':>9} "
+          f"{'views/solve':>11} {'cursor ms':>10} {'mode ms':>8}")
+    options = StudyOptions(parts=FIRST_PARTS & LIVE_PARTS)
     for n in args.discs:
         train = build_train(chain_document(n))
         state = {}
 
         def solve():
-            modes = natural_modes(train, n_modes=12)
-            state["s"] = screen(train, modes)
+            state["s"] = run_study(train, options)
 
         t_solve = best(solve)
-        s = state["s"]
+        study = state["s"]
+        screened = study.screening is not None
         t_views, t_paints = [], []
-        for tab in (0, 1):
+        for tab in (0, 1) if screened else (0,):
             panel.tabs.setCurrentIndex(tab)
 
             def views():
-                panel.set_results(train, s.modes, s, None, t_solve)
+                panel.set_study(study, t_solve)
                 panel.grab()
 
             t_views.append(best(views))
             t_paints.append(best(panel.grab))
-        cv = panel.campbell_view
-        speeds = iter(np.linspace(1000.0, 1700.0, 50))
-        t_cursor = best(lambda: cv.set_cursor_rpm(next(speeds)))
+        t_cursor = float("nan")
+        if screened:
+            cv = panel.campbell_view
+            speeds = iter(np.linspace(1000.0, 1700.0, 50))
+            t_cursor = best(lambda: cv.set_cursor_rpm(next(speeds)))
         panel.tabs.setCurrentIndex(0)
         picks = iter([1, 2] * 10)
         t_mode = best(lambda: (panel.select_mode(next(picks)), panel.grab()))
         k = int(np.argmax(t_views))
         t_view, t_paint = t_views[k], t_paints[k]
-        print(f"{n:>6} {len(s.modes):>6} {1e3 * t_solve:>9.1f} {1e3 * t_view:>9.1f} {1e3 * t_paint:>9.1f} "
-              f"{t_view / t_solve:>11.2f} {1e3 * t_cursor:>10.2f} {1e3 * t_mode:>8.1f}")
-    print("views: set_results + paint, worst of the Modes and Interference tabs; paint: grab() alone "
-          "(offscreen software paint of the whole panel).")
+        print(f"{n:>6} {len(study.modes):>6} {'yes' if screened else 'no':>8} {1e3 * t_solve:>9.1f} "
+              f"{1e3 * t_view:>9.1f} {1e3 * t_paint:>9.1f} {t_view / t_solve:>11.2f} {1e3 * t_cursor:>10.2f} "
+              f"{1e3 * t_mode:>8.1f}")
+        if not screened:
+            print(f"{'':>6} not screened: {study.screening_error.message}")
+    print("views: set_study + paint, worst of the Modes and Interference tabs (Modes only when not "
+          "screened); paint: grab() alone (offscreen software paint of the whole panel).")
+    panel.shutdown()
+    panel.close()
+    panel.deleteLater()
+    app.processEvents()
     return 0
 
 

@@ -86,6 +86,9 @@ def _line_end(slope_hz_per_rpm: float, x_max: float, y_max: float):
 class CampbellView(QtWidgets.QWidget):
     """Diagram above; the coincidence table and the cursor read-out below it."""
 
+    #: its plots draw when the tab shows; the tables it keeps current cost little (see panel)
+    light_when_hidden = True
+
     modeSelected = QtCore.Signal(int)
 
     def __init__(self, parent=None):

@@ -50,6 +50,9 @@ class ModesView(QtWidgets.QWidget):
     """Left: the frequency table.  Right: plots of the selected mode, the upper
     one per disc along the train, the lower one per link, x axes linked."""
 
+    #: its plots draw when the tab shows; the tables it keeps current cost little (see panel)
+    light_when_hidden = True
+
     modeSelected = QtCore.Signal(int)
 
     def __init__(self, parent=None):

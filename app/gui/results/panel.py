@@ -29,6 +29,16 @@ the four methods at the right moments, greys the view while the model on
 screen has errors (``set_stale``) and keeps the tab's look and tooltip.  A
 view that exports a plot sets ``view.canvas`` (a :class:`PlotCanvas`); one
 that exports a table adds an entry to ``export_menu_actions``.
+
+Hidden tabs: a live edit must redraw only what is on screen (edit to redrawn
+results under 50 ms at 200 discs).  A view whose ``show_study`` costs next to
+nothing while its tab is hidden (it draws when shown and keeps only its cheap
+tables current) says so with the class attribute ``light_when_hidden = True``
+and gets every study at once.  Any other view, while its tab is hidden and
+enabled, gets the study when its tab is shown, when an export needs it, or
+after the results have rested for ``CATCH_UP_MS`` (so its tab's enabled state
+and tooltip follow), whichever comes first; ``panel.catch_up()`` brings every
+such view up to date at once.
 """
 from __future__ import annotations
 
@@ -51,6 +61,9 @@ from .transient_view import TransientView
 from .table import write_csv
 
 TAB_MODES, TAB_CAMPBELL, TAB_RESPONSE, TAB_TRANSIENTS, TAB_DESIGN = 0, 1, 2, 3, 4
+#: a hidden view that is not light_when_hidden gets the study after the results rest this long
+#: (a burst of edits redraws only what is on screen; see the module docstring)
+CATCH_UP_MS = 300
 
 # the look of a tab that cannot show anything (greyed text, not just unresponsive),
 # and of views that show the last valid model; theme.py is the natural home of these
@@ -86,6 +99,11 @@ class ResultsPanel(QtWidgets.QWidget):
         self.unit_system = "SI"
         self.stale_message: str | None = None
         self.result_tabs: list[ResultTab] = []
+        self._pending: set[str] = set()  # keys of hidden views that have not had the study yet
+        self._catch_up_timer = QtCore.QTimer(self)
+        self._catch_up_timer.setSingleShot(True)
+        self._catch_up_timer.setInterval(CATCH_UP_MS)
+        self._catch_up_timer.timeout.connect(self.catch_up)
 
         self.verdict = QtWidgets.QLabel(self)
         self.verdict.setFont(theme.font(theme.BASE_POINT_SIZE, bold=True))
@@ -135,6 +153,7 @@ class ResultsPanel(QtWidgets.QWidget):
         lay.addWidget(self.caution)
         self.setMinimumSize(520, 380)
 
+        self.tabs.currentChanged.connect(self._tab_shown)
         self.modes_view.modeSelected.connect(self._user_selected)
         self.campbell_view.modeSelected.connect(self._user_selected)
         self.clear_results("No results yet.")
@@ -155,10 +174,11 @@ class ResultsPanel(QtWidgets.QWidget):
             self.result_tabs.insert(index, tab)
             i = self.tabs.insertTab(index, view, title)
         self.tabs.setTabToolTip(i, tip)
+        view.installEventFilter(self)  # a view waiting for the study gets it before it shows
         if hasattr(view, "set_unit_system"):
             view.set_unit_system(self.unit_system)
         if self.study is not None:
-            self._show_in(tab)
+            self._show_in(tab)  # registering a view is no live edit: it shows the study at once
         return tab
 
     def view(self, key: str):
@@ -169,6 +189,50 @@ class ResultsPanel(QtWidgets.QWidget):
         if not any(t.key == key for t in self.result_tabs):
             return -1
         return self.tabs.indexOf(self.view(key))
+
+    def _offer(self, tab: ResultTab) -> None:
+        """The study to ``tab``'s view now, or when shown if it is hidden and not light (a
+        disabled tab cannot be opened to be shown: it learns at once whether it has something)."""
+        if getattr(tab.view, "light_when_hidden", False) or self.tabs.currentWidget() is tab.view \
+                or not self.tabs.isTabEnabled(self.tabs.indexOf(tab.view)):
+            self._pending.discard(tab.key)
+            self._show_in(tab)
+        else:
+            self._pending.add(tab.key)
+            self._catch_up_timer.start()
+
+    def catch_up(self) -> None:
+        """Every view that was given no study while hidden gets the one shown (exports, tests)."""
+        self._catch_up_timer.stop()
+        for tab in [t for t in self.result_tabs if t.key in self._pending]:
+            self._bring_up_to_date(tab)
+
+    def _tab_shown(self, index: int) -> None:
+        tab = next((t for t in self.result_tabs if self.tabs.indexOf(t.view) == index), None)
+        if tab is not None:
+            self._bring_up_to_date(tab)
+
+    def _bring_up_to_date(self, tab: ResultTab) -> None:
+        if tab.key in self._pending:
+            self._pending.discard(tab.key)
+            if self.study is not None:
+                self._show_in(tab)
+                self._select_in(tab.view, self.modes_view.current_index())
+
+    def eventFilter(self, obj, event):
+        if event.type() == QtCore.QEvent.Show and self._pending:
+            tab = next((t for t in self.result_tabs if t.view is obj), None)
+            if tab is not None:
+                self._bring_up_to_date(tab)  # before the view's own showEvent draws
+        return super().eventFilter(obj, event)
+
+    def _select_in(self, view, index: int) -> None:
+        """The selected mode to a view that follows it (not while it waits for the study)."""
+        if view is self.modes_view or not hasattr(view, "select_mode"):
+            return
+        if any(t.view is view and t.key in self._pending for t in self.result_tabs):
+            return
+        view.select_mode(index)
 
     def _show_in(self, tab: ResultTab) -> None:
         try:
@@ -194,11 +258,11 @@ class ResultsPanel(QtWidgets.QWidget):
             study.train, study.modes, study.screening, study.response
         self.solve_time_s = float(study.solve_time_s if solve_time_s is None else solve_time_s)
         for tab in self.result_tabs:
-            self._show_in(tab)
+            self._offer(tab)
         if not self.tabs.isTabEnabled(self.tabs.currentIndex()):
             self.tabs.setCurrentIndex(TAB_MODES)
-        self.campbell_view.select_mode(self.modes_view.current_index())
-        self.design_view.select_mode(self.modes_view.current_index())
+        self._select_in(self.campbell_view, self.modes_view.current_index())
+        self._select_in(self.design_view, self.modes_view.current_index())
         self._show_verdict()
 
     def set_results(self, train, modes, screening, response=None, solve_time_s: float = 0.0) -> None:
@@ -212,6 +276,8 @@ class ResultsPanel(QtWidgets.QWidget):
         """No valid results (e.g. the model cannot be built): say why, keep the layout."""
         self.study = None
         self.train = self.modes = self.screening = self.response = None
+        self._pending.clear()
+        self._catch_up_timer.stop()
         for tab in self.result_tabs:
             tab.view.clear(message if tab.view is self.campbell_view else "")
             if getattr(tab.view, "limited", None):
@@ -262,8 +328,8 @@ class ResultsPanel(QtWidgets.QWidget):
             self.modes_view.select_mode(index)
         finally:
             self.modes_view.blockSignals(False)
-        self.campbell_view.select_mode(index)
-        self.design_view.select_mode(index)
+        self._select_in(self.campbell_view, index)
+        self._select_in(self.design_view, index)
 
     def current_mode_index(self) -> int:
         return self.modes_view.current_index() if self.modes is not None else -1
@@ -339,6 +405,7 @@ class ResultsPanel(QtWidgets.QWidget):
             QtWidgets.QMessageBox.warning(self, "Export", f"Could not write {path}:\n{exc}")
 
     def _check_exportable(self) -> None:
+        self.catch_up()  # an export reads the views: every one shows the current study
         if self.modes is None:
             raise ValueError("there are no results to export")
         if self.is_stale:

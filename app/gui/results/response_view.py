@@ -175,6 +175,9 @@ class ResponseView(QtWidgets.QWidget):
     (one row per link, tick a row to plot it) below, so that the controls and
     the table fit a 1366 x 768 screen without scrolling."""
 
+    #: its plots draw when the tab shows; the tables it keeps current cost little (see panel)
+    light_when_hidden = True
+
     def __init__(self, parent=None):
         super().__init__(parent)
         self.train = None

@@ -176,6 +176,9 @@ class TransientView(QtWidgets.QWidget):
     """Run controls on top; torque (above) and speed (below) against time; the peak and
     damage table of the event shown (tick links to plot them)."""
 
+    #: its plots draw when the tab shows; the tables it keeps current cost little (see panel)
+    light_when_hidden = True
+
     runStarted = QtCore.Signal()
     runFinished = QtCore.Signal(bool)  # True: results shown
 
