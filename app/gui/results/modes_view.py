@@ -356,7 +356,12 @@ class ModesView(QtWidgets.QWidget):
         if self.modes is None or self._line is None:
             return
         w = float(self.lower.vb.width())
-        ticks = column_ticks(self.modes.train, self._line, w if w > 40 else 600.0,
+        train = self.modes.train
+        key = (self._line_key, w, tuple(d.name for d in train.discs))
+        if self._ticks is not None and key == getattr(self, "_ticks_key", None):
+            return  # a value edit: the same names at the same width (eliding 200 names costs ms)
+        self._ticks_key = key
+        ticks = column_ticks(train, self._line, w if w > 40 else 600.0,
                              theme.font(theme.SMALL_POINT_SIZE))
         if ticks == self._ticks:
             return  # the same ticks set again would re-lay out both axes' text

@@ -169,9 +169,12 @@ def coincidence_rows(screening, modes=None) -> list[Row]:
     index = {}  # mode number -> first index, as mode_index gives
     for i, number in enumerate(np.asarray(modes.number).tolist()):
         index.setdefault(int(number), i)
+    words = {}  # per line: a 200-disc train lists hundreds of pairs over a few lines
     for c in screening.coincidences:
         idx = index.get(int(c.mode))
-        where = line_words(c.line, screening.train)
+        where = words.get(id(c.line))
+        if where is None:
+            where = words[id(c.line)] = line_words(c.line, screening.train)
         band_margin = None if c.separation_band is None else fmt.percent(c.separation_band)
         tip = (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
                f"smallest separation {fmt.percent(c.separation)} % over the operating range "
