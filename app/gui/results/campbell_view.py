@@ -654,6 +654,9 @@ class CampbellView(QtWidgets.QWidget):
             item.setVisible(False)
         for item in self._line_pool[len(self.line_items):]:
             item.setVisible(False)
+        # the new ranges' transform now, not at the first paint: set there, it moves every
+        # label and asks for a second layout and paint pass (8 ms at 200 discs)
+        p.vb.updateMatrix()
         self._layout_labels()
 
     def above_note(self, above: list[int], short: bool = False) -> str:
