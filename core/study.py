@@ -105,6 +105,9 @@ def choose_modes(train: Train, options: StudyOptions = StudyOptions()):
         except ModeLimitError as exc:
             raise ModelError(exc.message, "option", "--modes") from None
     cap = screening_limit_hz(train, options.margin)
+    if cap is not None and _fewer_than_minimum(train, cap):
+        # the lowest N hold every mode under the limit: solved once, not after a solve to the limit
+        return natural_modes(train, n_modes=MIN_ELASTIC_MODES)
     if cap is not None:
         try:
             modes = natural_modes(train, max_frequency_hz=cap)
@@ -118,6 +121,17 @@ def choose_modes(train: Train, options: StudyOptions = StudyOptions()):
         # fewer than the minimum under the limit: the lowest N hold all of them
         return natural_modes(train, n_modes=MIN_ELASTIC_MODES)
     return natural_modes(train, n_modes=MIN_ELASTIC_MODES)
+
+
+def _fewer_than_minimum(train: Train, cap_hz: float) -> bool:
+    """True when fewer than ``MIN_ELASTIC_MODES`` elastic modes lie below ``cap_hz`` and the
+    model has more finite modes than that: the count at the cap (one factorization) says so
+    before any mode is solved (the rule in the module docstring then takes the lowest N)."""
+    from .solver import TWO_PI, dynamic_system, zero_roots
+    system = dynamic_system(train)
+    total = int(system.count(TWO_PI * max(cap_hz, 1e-9))[0])
+    finite = system.asm.n_finite_modes
+    return total - zero_roots(system.asm) < MIN_ELASTIC_MODES and (finite is None or total < finite)
 
 
 @dataclass(frozen=True)
