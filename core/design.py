@@ -513,9 +513,9 @@ class WindowResult:
     itself.  Weakly excited pairs are not exempt here (their participation moves
     with the value): the window is the conservative set.
 
-    ``chart`` of the study's windows is computed on first use (it costs tens of times the
-    window's edges, and a sheet draws a few charts of a train that may window hundreds of
-    couplings); the desktop program asks for it on its worker thread.
+    ``chart`` is computed on first use (it costs tens of times the window's edges, and
+    a sheet draws a few charts of a train that may window hundreds of couplings); the
+    desktop program asks for it on its worker thread.
     """
 
     element: str
@@ -603,15 +603,12 @@ def _forbidden(train: Train, margin: float):
 
 def element_window(train: Train, element_id: str, quantity: str | None = None,
                    value_range: tuple[float, float] | None = None,
-                   screening_margin: float | None = None, chart_points: int = 41,
-                   lazy_chart: bool = False) -> WindowResult:
+                   screening_margin: float | None = None, chart_points: int = 41) -> WindowResult:
     """The window of one link's stiffness or one disc's inertia (see the module docstring).
 
     ``value_range``: (low, high) SI; default the current value / 100 to x 100.
     ``screening_margin``: fraction; default the project's margin.
     ``chart_points``: points of the log grid of the frequency chart (0: no chart).
-    ``lazy_chart``: the chart is computed on first use of ``WindowResult.chart`` (the
-    study's windows: a sheet draws a few of them) instead of here.
     Raises ModelError naming the element and field for an unknown element, a rigid
     mesh, a bad range or a train without operating data.
     """
@@ -787,8 +784,6 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
 
         def chart():  # on first use; the families are made again (a corner train is not kept)
             return _chart(make_families(), tolerances, lo_v, hi_v, chart_points, rb, d, cap)
-        if not lazy_chart:
-            chart = chart()
     return WindowResult(element_id, quantity, UNITS[quantity], current, clears, (lo_v, hi_v),
                         tuple(admissible), nearest, m, own_tol, train.has_tolerances, tuple(blocked),
                         tuple(forbidden), chart, time.perf_counter() - t0)
@@ -974,7 +969,7 @@ def analyse_design(train: Train, modes: Modes | None = None, screening: Screenin
     windows = []
     if train.operating is not None and train.operating.excitations:
         m = screening.margin if screening is not None else None
-        windows = [element_window(train, eid, q, screening_margin=m, chart_points=chart_points, lazy_chart=True)
+        windows = [element_window(train, eid, q, screening_margin=m, chart_points=chart_points)
                    for eid, q in todo]
     return DesignResult(sens, bands, tuple(windows), tuple(w.element for w in windows))
 
