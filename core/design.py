@@ -47,6 +47,7 @@ from __future__ import annotations
 import math
 import threading
 import time
+import weakref
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -637,8 +638,8 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
     c_low, c_high = ((1.0 - tol[0], 1.0 + tol[1]) if quantity == "stiffness"
                      else (1.0 + tol[1], 1.0 - tol[0]))
     skip = f"{kind}:{element_id}"
-    others = any(l.stiffness_tolerance is not None for l in train.links if f"link:{l.id}" != skip) or \
-        any(x.inertia_tolerance is not None for x in train.discs if f"disc:{x.id}" != skip)
+    toleranced = _toleranced(train)
+    others = bool(toleranced - {skip})
     base = current if current > 0 else math.sqrt(lo_v * hi_v)
 
     def at_base(t: Train) -> Train:  # the element at a positive base value (a zero-inertia disc)
@@ -780,13 +781,29 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
     chart = None
     if chart_points:
         cap = screening_cap_hz(excitation_lines(train, op), op.speed_max, m)
-        tolerances = train.has_tolerances
+        tolerances = bool(toleranced)
 
         def chart():  # on first use; the families are made again (a corner train is not kept)
             return _chart(make_families(), tolerances, lo_v, hi_v, chart_points, rb, d, cap)
     return WindowResult(element_id, quantity, UNITS[quantity], current, clears, (lo_v, hi_v),
-                        tuple(admissible), nearest, m, own_tol, train.has_tolerances, tuple(blocked),
+                        tuple(admissible), nearest, m, own_tol, bool(toleranced), tuple(blocked),
                         tuple(forbidden), chart, time.perf_counter() - t0)
+
+
+_TOLERANCED: tuple = (None, frozenset())
+
+
+def _toleranced(train: Train) -> frozenset:
+    """'link:ID' / 'disc:ID' of every element given a tolerance, kept for the last train (the
+    windows of a 20 000-disc train's 400 couplings would each walk every link and disc)."""
+    global _TOLERANCED
+    ref, keys = _TOLERANCED
+    if ref is not None and ref() is train:
+        return keys
+    keys = frozenset([f"link:{l.id}" for l in train.links if l.stiffness_tolerance is not None]
+                     + [f"disc:{x.id}" for x in train.discs if x.inertia_tolerance is not None])
+    _TOLERANCED = (weakref.ref(train), keys)
+    return keys
 
 
 def _complement(intervals, lo: float, hi: float, tol: float):
