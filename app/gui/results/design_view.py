@@ -40,7 +40,7 @@ from core.errors import ModelError
 from . import rows as R
 from .label_layout import Spot, box, place_labels
 from .legend import FlowLegend, arrange_key
-from .plotting import PlotCanvas, new_plot
+from .plotting import DrawWhenShown, PlotCanvas, new_plot
 from .table import ElidingComboBox, RowsModel, make_table_view, write_csv
 
 KINDS = {"stiffness": units.STIFFNESS, "inertia": units.INERTIA}
@@ -357,7 +357,7 @@ class LogAxis(pg.AxisItem):
 
 
 # ================================================================== the view
-class DesignView(QtWidgets.QWidget):
+class DesignView(DrawWhenShown, QtWidgets.QWidget):
     """The design-options tab (see the module docstring).
 
     ``designValueChosen(element id, quantity, value SI)``: the user asked to use the tried value.
@@ -1014,21 +1014,6 @@ class DesignView(QtWidgets.QWidget):
         self._key_samples = []
         self.now_line.setVisible(False)
         self.tried_line.setVisible(False)
-
-    def showEvent(self, event) -> None:
-        super().showEvent(event)
-        self.ensure_drawn()
-
-    def ensure_drawn(self) -> None:
-        """Draw now if results came while the tab was hidden (exports, tests)."""
-        if self._draw_pending:
-            self._draw_now()
-
-    def _draw(self) -> None:
-        if self.isVisible():
-            self._draw_now()
-        else:
-            self._draw_pending = True
 
     def _add(self, item, bounds: bool = True):
         self.plot.addItem(item, ignoreBounds=not bounds)

@@ -16,6 +16,29 @@ from app.schematic_layout import place
 from core.model import GROUND
 
 
+class DrawWhenShown:
+    """Mixin of a result view (before the Qt widget class): ``_draw()`` draws at once when the
+    view is on screen, else marks it pending, and a pending drawing is made when the view shows
+    or when an export or a test asks (``ensure_drawn``).  The view supplies ``_draw_now()``."""
+
+    _draw_pending = False
+
+    def showEvent(self, event) -> None:
+        super().showEvent(event)
+        self.ensure_drawn()
+
+    def ensure_drawn(self) -> None:
+        """Draw now if results came while the view was hidden (exports, tests)."""
+        if self._draw_pending:
+            self._draw_now()
+
+    def _draw(self) -> None:
+        if self.isVisible():
+            self._draw_now()
+        else:
+            self._draw_pending = True
+
+
 class PlotCanvas(pg.GraphicsLayoutWidget):
     """A GraphicsLayoutWidget whose export adds a title and the caution line.
 

@@ -21,7 +21,7 @@ from core.bands import OPERATING
 from . import rows as R
 from . import speed_axis as SA
 from .legend import FlowLegend, arrange_key
-from .plotting import PlotCanvas, new_plot, plot_over_table
+from .plotting import DrawWhenShown, PlotCanvas, new_plot, plot_over_table
 from .table import ElidingComboBox, RowsModel, make_table_view
 
 RPM = 2.0 * math.pi / 60.0
@@ -170,7 +170,7 @@ def fit_peak_columns(view: QtWidgets.QTableView) -> None:
     h.setSectionResizeMode(0, QtWidgets.QHeaderView.Stretch)
 
 
-class ResponseView(QtWidgets.QWidget):
+class ResponseView(DrawWhenShown, QtWidgets.QWidget):
     """The plot of the ticked links above; the order choice and the peak table
     (one row per link, tick a row to plot it) below, so that the controls and
     the table fit a 1366 x 768 screen without scrolling."""
@@ -795,22 +795,9 @@ class ResponseView(QtWidgets.QWidget):
         return 100.0 * np.nanmax(np.vstack(parts), axis=0)
 
     def showEvent(self, event) -> None:
-        super().showEvent(event)
-        self.ensure_drawn()
+        super().showEvent(event)  # draws what came while hidden (DrawWhenShown)
         self._fit_table_height()
         self._refine_band_peaks()
-
-    def ensure_drawn(self) -> None:
-        """Draw the plot now if results came while it was hidden (exports, tests)."""
-        if self._draw_pending:
-            self._draw_now()
-
-    def _draw(self) -> None:
-        """Redraw when on screen; a hidden plot is drawn when it shows."""
-        if self.isVisible():
-            self._draw_now()
-        else:
-            self._draw_pending = True
 
     def _draw_now(self) -> None:
         self._draw_pending = False
