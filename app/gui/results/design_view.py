@@ -434,6 +434,20 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         self.canvas.layout_hooks.append(self._arrange_key)
         self._drawn = []
         self._key_samples = []
+        # every curve but the selected one is one path, the tolerance bands another, and the mode
+        # labels come from a pool: a long train's 200 curves redraw in milliseconds, not as 200
+        # plot items made and removed per edit
+        self._curves_item = QtWidgets.QGraphicsPathItem()
+        self._curves_item.setPen(theme.natural_frequency_pen(False))
+        self._curves_item.setZValue(-5)
+        self._bands_item = QtWidgets.QGraphicsPathItem()
+        self._bands_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
+        self._bands_item.setBrush(theme.brush(TOLERANCE_FILL))
+        self._bands_item.setZValue(-20)
+        for item in (self._curves_item, self._bands_item):
+            item.setVisible(False)
+            self.plot.addItem(item, ignoreBounds=True)
+        self._label_pool = []  # TextItems kept between drawings
         self.mode_labels = []  # TextItems of the curves
         self.band_labels = []  # TextItems of the forbidden strips
         self.now_line = pg.InfiniteLine(0.0, angle=90, movable=False,
@@ -1009,11 +1023,26 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         for item in self._drawn:
             self.plot.removeItem(item)
         self._drawn = []
+        for lab in self.mode_labels:
+            lab.setVisible(False)
+        for item in (self._curves_item, self._bands_item):
+            item.setVisible(False)
         self.mode_labels, self.band_labels = [], []
         self.legend.clear()
         self._key_samples = []
         self.now_line.setVisible(False)
         self.tried_line.setVisible(False)
+
+    def _pooled_label(self, k: int):
+        """The k-th mode label of the pool (made once, kept between drawings)."""
+        while len(self._label_pool) <= k:
+            label = pg.TextItem("", color=theme.qcolor(theme.INK))
+            label.textItem.document().setDocumentMargin(1.0)
+            label.setZValue(21)
+            label.setVisible(False)
+            self.plot.addItem(label, ignoreBounds=True)
+            self._label_pool.append(label)
+        return self._label_pool[k]
 
     def _add(self, item, bounds: bool = True):
         self.plot.addItem(item, ignoreBounds=not bounds)
@@ -1076,6 +1105,9 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
             bar.setZValue(30)
             self._add(bar, bounds=False)
         # the modes: tolerance bands and nominal curves
+        curves, band_path = QtGui.QPainterPath(), QtGui.QPainterPath()
+        bold = theme.font(theme.SMALL_POINT_SIZE, bold=True)
+        plain = theme.font(theme.SMALL_POINT_SIZE)
         for j, number in enumerate(np.asarray(c.mode, int).tolist()):
             fj = f[:, j]
             ok = np.isfinite(fj) & (fj > 0)
@@ -1085,23 +1117,32 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
                 lo_j, hi_j = np.asarray(c.band_low_hz[:, j], float), np.asarray(c.band_high_hz[:, j], float)
                 okb = ok & np.isfinite(lo_j) & np.isfinite(hi_j) & (lo_j > 0) & (hi_j > 0)
                 if okb.sum() >= 2:
-                    lower = pg.PlotDataItem(xs[okb], np.log10(lo_j[okb]), pen=pg.mkPen(None))
-                    upper = pg.PlotDataItem(xs[okb], np.log10(hi_j[okb]), pen=pg.mkPen(None))
-                    fill = pg.FillBetweenItem(lower, upper, brush=theme.brush(TOLERANCE_FILL))
-                    fill.setZValue(-20)
-                    self._add(fill, bounds=False)
-            pen = theme.natural_frequency_pen(number == sel)
-            curve = pg.PlotDataItem(xs[ok], np.log10(fj[ok]), pen=pen)
-            curve.setZValue(-5 if number != sel else -4)
-            curve.setToolTip(f"Mode {number}")
-            self._add(curve, bounds=False)
-            label = pg.TextItem(f"mode {number}", color=theme.qcolor(theme.INK))
-            label.setFont(theme.font(theme.SMALL_POINT_SIZE, bold=number == sel))
-            label.textItem.document().setDocumentMargin(1.0)
-            label.setZValue(21)
-            label._curve = (xs[ok], np.log10(fj[ok]))
-            self._add(label, bounds=False)
+                    xb = xs[okb]
+                    poly = QtGui.QPolygonF([QtCore.QPointF(float(x), float(y)) for x, y in
+                                            zip(np.r_[xb, xb[::-1]],
+                                                np.r_[np.log10(lo_j[okb]), np.log10(hi_j[okb])[::-1]])])
+                    band_path.addPolygon(poly)
+                    band_path.closeSubpath()
+            cx, cy = xs[ok], np.log10(fj[ok])
+            if number == sel:
+                curve = pg.PlotDataItem(cx, cy, pen=theme.natural_frequency_pen(True))
+                curve.setZValue(-4)
+                curve.setToolTip(f"Mode {number}")
+                self._add(curve, bounds=False)
+            else:
+                curves.moveTo(float(cx[0]), float(cy[0]))
+                for x, y in zip(cx[1:].tolist(), cy[1:].tolist()):
+                    curves.lineTo(x, y)
+            label = self._pooled_label(len(self.mode_labels))
+            label.setText(f"mode {number}")
+            label.setFont(bold if number == sel else plain)
+            label._curve = (cx, cy)
+            label.setVisible(True)
             self.mode_labels.append(label)
+        self._curves_item.setPath(curves)
+        self._curves_item.setVisible(not curves.isEmpty())
+        self._bands_item.setPath(band_path)
+        self._bands_item.setVisible(not band_path.isEmpty())
         self.now_line.setValue(self._x(w.current) if w.current > 0 else x0)
         self.now_line.setVisible(w.current > 0)
         self._updating = True
