@@ -47,7 +47,6 @@ from __future__ import annotations
 import math
 import threading
 import time
-import weakref
 from dataclasses import dataclass, field, replace
 
 import numpy as np
@@ -332,6 +331,22 @@ class _Family:
         parts = [self._logdet_piece(v, w)] if len(pieces) == 1 else \
             _map(lambda p: self._logdet_piece(v[p], w[p]), pieces)
         return np.concatenate([q[0] for q in parts]), np.concatenate([q[1] for q in parts])
+
+
+def _family_counts(families, roles, role_of, value, omega, logdet: bool = False):
+    """Mode count below ``omega`` (and, with ``logdet``, log|det K|) of each column, each by the
+    family its role names (``families[role] = (family, factor)``: the element at factor x value)."""
+    cnt = np.empty(len(value), np.int64)
+    ld = np.empty(len(value)) if logdet else None
+    for role in roles:
+        sel = role_of == role
+        if sel.any():
+            fam, c = families[role]
+            if logdet:
+                cnt[sel], ld[sel] = fam.count_logdet(c * value[sel], omega[sel])
+            else:
+                cnt[sel] = fam.count(c * value[sel], omega[sel])
+    return (cnt, ld) if logdet else cnt
 
 
 def _transitions(evaluate, key, t_a, t_b, level, p_a, tol: float, per_target: int = 4,
@@ -638,7 +653,7 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
     c_low, c_high = ((1.0 - tol[0], 1.0 + tol[1]) if quantity == "stiffness"
                      else (1.0 + tol[1], 1.0 - tol[0]))
     skip = f"{kind}:{element_id}"
-    toleranced = _toleranced(train)
+    toleranced = train.toleranced
     others = bool(toleranced - {skip})
     base = current if current > 0 else math.sqrt(lo_v * hi_v)
 
@@ -672,29 +687,13 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
     # elastic mode lies above it; a positive stand-in keeps the arrays finite
     key_omega = np.array([k[1] if k[1] > 0 else 1.0 for k in keys], float)
 
-    def evaluate(k_idx, r):
-        out = np.empty(len(r), np.int64)
+    def evaluate(k_idx, r, logdet=False):
         kk = np.asarray(k_idx)
-        roles, om = key_role[kk], key_omega[kk]
-        v = np.exp(d * np.asarray(r, float))
-        for role in (0, 1):
-            sel = roles == role
-            if sel.any():
-                fam, c = families[role]
-                out[sel] = fam.count(c * v[sel], om[sel])
-        return out
+        return _family_counts(families, (0, 1), key_role[kk], np.exp(d * np.asarray(r, float)),
+                              key_omega[kk], logdet)
 
     def logdet(k_idx, r):  # as evaluate, with log|det K| (lumped families only)
-        cnt, ld = np.empty(len(r), np.int64), np.empty(len(r))
-        kk = np.asarray(k_idx)
-        roles, om = key_role[kk], key_omega[kk]
-        v = np.exp(d * np.asarray(r, float))
-        for role in (0, 1):
-            sel = roles == role
-            if sel.any():
-                fam, c = families[role]
-                cnt[sel], ld[sel] = fam.count_logdet(c * v[sel], om[sel])
-        return cnt, ld
+        return evaluate(k_idx, r, logdet=True)
 
     nk = len(keys)
     if nk:
@@ -783,27 +782,12 @@ def element_window(train: Train, element_id: str, quantity: str | None = None,
         cap = screening_cap_hz(excitation_lines(train, op), op.speed_max, m)
         tolerances = bool(toleranced)
 
-        def chart():  # on first use; the families are made again (a corner train is not kept)
+        def make_chart():  # on first use; the families are made again (a corner train is not kept)
             return _chart(make_families(), tolerances, lo_v, hi_v, chart_points, rb, d, cap)
+        chart = make_chart
     return WindowResult(element_id, quantity, UNITS[quantity], current, clears, (lo_v, hi_v),
                         tuple(admissible), nearest, m, own_tol, bool(toleranced), tuple(blocked),
                         tuple(forbidden), chart, time.perf_counter() - t0)
-
-
-_TOLERANCED: tuple = (None, frozenset())
-
-
-def _toleranced(train: Train) -> frozenset:
-    """'link:ID' / 'disc:ID' of every element given a tolerance, kept for the last train (the
-    windows of a 20 000-disc train's 400 couplings would each walk every link and disc)."""
-    global _TOLERANCED
-    ref, keys = _TOLERANCED
-    if ref is not None and ref() is train:
-        return keys
-    keys = frozenset([f"link:{l.id}" for l in train.links if l.stiffness_tolerance is not None]
-                     + [f"disc:{x.id}" for x in train.discs if x.inertia_tolerance is not None])
-    _TOLERANCED = (weakref.ref(train), keys)
-    return keys
 
 
 def _complement(intervals, lo: float, hi: float, tol: float):
@@ -848,29 +832,13 @@ def _chart(families, tolerances: bool, lo_v: float, hi_v: float, n_points: int, 
     order = np.arange(n_points) if d > 0 else np.arange(n_points)[::-1]
     key_role = np.repeat(roles, n_points)
     key_v = np.tile(values[order], len(roles))
-    nk = len(key_role)
 
-    def evaluate(k_idx, t):
-        out = np.empty(len(t), np.int64)
+    def evaluate(k_idx, t, logdet=False):
         kk = np.asarray(k_idx)
-        t = np.asarray(t, float)
-        for role in roles:
-            sel = key_role[kk] == role
-            if sel.any():
-                f, c = families[role]
-                out[sel] = f.count(c * key_v[kk][sel], np.exp(t[sel]))
-        return out
+        return _family_counts(families, roles, key_role[kk], key_v[kk], np.exp(np.asarray(t, float)), logdet)
 
     def logdet(k_idx, t):  # as evaluate, with log|det K| (lumped families only)
-        cnt, ld = np.empty(len(t), np.int64), np.empty(len(t))
-        kk = np.asarray(k_idx)
-        t = np.asarray(t, float)
-        for role in roles:
-            sel = key_role[kk] == role
-            if sel.any():
-                f, c = families[role]
-                cnt[sel], ld[sel] = f.count_logdet(c * key_v[kk][sel], np.exp(t[sel]))
-        return cnt, ld
+        return evaluate(k_idx, t, logdet=True)
 
     lumped = all(families[role][0].lumped for role in roles) and families[2][0].system.n_dof >= POLISH_MIN_NODES
 

@@ -209,10 +209,20 @@ class Train:
         return any(l.grounded for l in self.links)
 
     @property
+    def toleranced(self) -> frozenset:
+        """'link:ID' / 'disc:ID' of every element given a tolerance (found once per train: the
+        windows of a long train's couplings each ask)."""
+        keys = self.__dict__.get("_toleranced")
+        if keys is None:
+            keys = frozenset([f"link:{l.id}" for l in self.links if l.stiffness_tolerance is not None]
+                             + [f"disc:{d.id}" for d in self.discs if d.inertia_tolerance is not None])
+            object.__setattr__(self, "_toleranced", keys)
+        return keys
+
+    @property
     def has_tolerances(self) -> bool:
         """True when any link gives a stiffness tolerance or any disc an inertia tolerance."""
-        return (any(l.stiffness_tolerance is not None for l in self.links)
-                or any(d.inertia_tolerance is not None for d in self.discs))
+        return bool(self.toleranced)
 
     def relative_speed(self, disc_id: str, reference: str) -> float:
         """Speed of ``disc_id``'s shaft per unit speed of ``reference``'s shaft."""
