@@ -255,17 +255,26 @@ def band_separation(f_low: float, f_high: float, line: ExcitationLine, speed_min
     return 0.0
 
 
-def participation(modes: Modes, i: int, line: ExcitationLine) -> float | None:
-    """|twist at the disc(s) the excitation acts on| / max |twist| in mode row i (the
-    largest over an engine's cylinders); None when the line names no disc."""
+def line_participation(modes: Modes, line: ExcitationLine) -> np.ndarray | None:
+    """|twist at the disc(s) the excitation acts on| / max |twist| of every mode row (the
+    largest over an engine's cylinders; 0 for a row without twist); None when the line
+    names no disc."""
     if not line.acts_at:
         return None
-    ids = modes.disc_ids
-    shape = np.abs(modes.shape[i])
-    big = shape.max()
-    if big <= 0:
-        return 0.0
-    return float(max(shape[ids.index(d)] for d in line.acts_at) / big)
+    shape = np.abs(np.asarray(modes.shape, float))
+    if not shape.size:
+        return np.zeros(len(modes))
+    big = shape.max(axis=1)
+    where = {d: j for j, d in enumerate(modes.disc_ids)}
+    at = shape[:, [where[d] for d in line.acts_at]].max(axis=1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(big > 0, at / big, 0.0)
+
+
+def participation(modes: Modes, i: int, line: ExcitationLine) -> float | None:
+    """:func:`line_participation` of mode row i."""
+    part = line_participation(modes, line)
+    return None if part is None else float(part[i])
 
 
 @dataclass
@@ -330,15 +339,8 @@ def screen(train: Train, modes: Modes | None = None, margin: float | None = None
         bands = frequency_bands(train, modes)
     weak_below = op.weak_excitation_below
     pairs = []
-    # participation of every (mode, line) pair at once: |twist at the line's discs| / max |twist|,
-    # as participation() gives it one pair at a time (a 200-disc train has ~1000 pairs)
-    shape = np.abs(np.asarray(modes.shape, float))
-    big = shape.max(axis=1) if shape.size else np.zeros(len(modes))
-    where = {d: j for j, d in enumerate(modes.disc_ids)}
-    with np.errstate(divide="ignore", invalid="ignore"):
-        parts = [None if not line.acts_at else
-                 np.where(big > 0, shape[:, [where[d] for d in line.acts_at]].max(axis=1) / big, 0.0)
-                 for line in lines]
+    # participation of every mode in one array per line (a 200-disc train has ~1000 pairs)
+    parts = [line_participation(modes, line) for line in lines]
     for i in np.flatnonzero(modes.elastic):
         f_n = float(modes.frequency_hz[i])
         f_lo, f_hi = (float(bands[i, 0]), float(bands[i, 1])) if tol else (f_n, f_n)
