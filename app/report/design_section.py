@@ -37,8 +37,8 @@ from .. import formatting as fmt
 from .base import Ctx, heading, num, table
 from .campbell import draw_legend, legend_layout, place_labels
 from .charts import drawing, fit_text, merged_intervals
-from .styles import BOLD, FAIL_FILL, FAIL_INK, FONT, GREY, INK, PALETTE, PASS_FILL, PASS_INK, escape, styles
-from .tables import text_width
+from .styles import BOLD, FAIL_INK, FONT, GREY, INK, PALETTE, PASS_INK, escape, styles
+from .tables import status_styles, text_width
 
 #: elements listed per mode (largest |d ln f / d ln value| first)
 TOP_ELEMENTS = 6
@@ -351,7 +351,7 @@ def band_block(ctx: Ctx, design) -> list:
         rows.append([str(n), fmt.hz(float(modes.frequency_hz[i])), fmt.hz(float(bands[i, 0])),
                      fmt.hz(float(bands[i, 1])), c.line.label, fmt.percent(c.separation),
                      fmt.percent(c.separation_band) if c.separation_band is not None else "—", status])
-        cells[len(rows) - 1] = _status_cells(7, status)
+        cells[len(rows) - 1] = status_styles(7, status)
     out = heading("Tolerance bands and band margins", 2)
     out.append(Paragraph("Tolerances given: " + escape(tolerance_text(train)) + ".", st["body"]))
     out.append(table(ctx.cols(("Mode", 0.06, "RIGHT"), ("Nominal Hz", 0.09, "RIGHT"), ("Band low Hz", 0.09, "RIGHT"),
@@ -368,14 +368,6 @@ def band_block(ctx: Ctx, design) -> list:
         "excitation (0 where an excitation frequency enters the band). The status follows the band margin, "
         f"{_pct(s.margin)} required.", st["note"]))
     return out
-
-
-def _status_cells(col: int, status: str) -> list:
-    if status == "FAIL":
-        return [("BACKGROUND", col, FAIL_FILL), ("TEXTCOLOR", col, FAIL_INK), ("FONTNAME", col, BOLD)]
-    if status == "PASS":
-        return [("BACKGROUND", col, PASS_FILL), ("TEXTCOLOR", col, PASS_INK), ("FONTNAME", col, BOLD)]
-    return [("TEXTCOLOR", col, GREY)]
 
 
 # ----------------------------------------------------------------- windows
@@ -424,7 +416,7 @@ def window_rows(ctx: Ctx, windows, links, discs) -> tuple[list, dict]:
                      "yes" if w.current_clears else "no",
                      "\n".join(ranges) if ranges else "none in the range", nearest,
                      block_txt])
-        cells[k] = _status_cells(4, "PASS" if w.current_clears else "FAIL")
+        cells[k] = status_styles(4, "PASS" if w.current_clears else "FAIL")
     return rows, cells
 
 
