@@ -28,7 +28,6 @@ pytest.importorskip("pytestqt")
 from PySide6 import QtCore, QtGui, QtWidgets  # noqa: E402
 
 from app.gui import main_window as mw  # noqa: E402
-from app.gui.results import ResultsPanel  # noqa: E402
 from app.gui.results import design_view as DV  # noqa: E402
 from app.gui.results.panel import TAB_DESIGN  # noqa: E402
 from core import units  # noqa: E402
@@ -65,12 +64,8 @@ def _study(doc):
 
 
 @pytest.fixture
-def panel(qtbot):
-    p = ResultsPanel()
-    qtbot.addWidget(p)
-    p.resize(1200, 900)
-    p.show()
-    return p
+def panel(results_panel):
+    return results_panel(1200, 900)
 
 
 def _show(panel, study, qtbot=None):

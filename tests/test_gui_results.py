@@ -20,7 +20,6 @@ from PySide6 import QtCore, QtGui  # noqa: E402
 from app import formatting as fmt  # noqa: E402
 from app import wording  # noqa: E402
 from core.about import CAUTION  # noqa: E402
-from app.gui.results import ResultsPanel  # noqa: E402
 from app.gui.results import rows as R  # noqa: E402
 from app.gui.results.campbell_view import RPM, margin_band_hz  # noqa: E402
 from app.gui.results.label_layout import Spot, place_labels, place_labels_staged  # noqa: E402
@@ -44,12 +43,8 @@ def solved(request):
 
 
 @pytest.fixture
-def panel(qtbot):
-    p = ResultsPanel()
-    qtbot.addWidget(p)
-    p.resize(1200, 800)
-    p.show()
-    return p
+def panel(results_panel):
+    return results_panel(1200, 800)
 
 
 def _shown(model, row, col):

@@ -25,7 +25,6 @@ from PySide6 import QtCore, QtWidgets  # noqa: E402
 
 from app import formatting as fmt  # noqa: E402
 from app import wording  # noqa: E402
-from app.gui.results import ResultsPanel  # noqa: E402
 from app.gui.results import speed_axis as SA  # noqa: E402
 from app.gui.results.response_view import MEAN_PREFIX, STRESS, TORQUE  # noqa: E402
 from core.acceptance import SpeedRange  # noqa: E402
@@ -47,12 +46,8 @@ def engine():
 
 
 @pytest.fixture
-def panel(qtbot):
-    p = ResultsPanel()
-    qtbot.addWidget(p)
-    p.resize(1400, 900)
-    p.show()
-    return p
+def panel(results_panel):
+    return results_panel(1400, 900)
 
 
 def _process():

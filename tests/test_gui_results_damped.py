@@ -18,7 +18,6 @@ import pytest
 
 pytest.importorskip("pytestqt")
 from app import formatting as fmt  # noqa: E402
-from app.gui.results import ResultsPanel  # noqa: E402
 from core.damped import damped_modes, damper_bounds  # noqa: E402
 from core.project import build_train, load_document  # noqa: E402
 from core.study import run_study  # noqa: E402
@@ -27,12 +26,8 @@ SAMPLES = Path(__file__).resolve().parent.parent / "sample_projects"
 
 
 @pytest.fixture
-def panel(qtbot):
-    p = ResultsPanel()
-    qtbot.addWidget(p)
-    p.resize(1300, 850)
-    p.show()
-    return p
+def panel(results_panel):
+    return results_panel(1300, 850)
 
 
 def _two_discs(J1=2.0, J2=3.0, k=8.0e4, c=40.0):

@@ -17,7 +17,6 @@ import pytest
 pytest.importorskip("pytestqt")
 from app import wording  # noqa: E402
 from app.gui import theme  # noqa: E402
-from app.gui.results import ResultsPanel  # noqa: E402
 from app.gui.results import rows as R  # noqa: E402
 from app.gui.results.campbell_view import RPM, excitation_group, line_curve  # noqa: E402
 from app.gui.results.label_layout import stack_close_labels  # noqa: E402
@@ -36,12 +35,8 @@ def _study(name, edit=None):
 
 
 @pytest.fixture
-def panel(qtbot):
-    p = ResultsPanel()
-    qtbot.addWidget(p)
-    p.resize(1300, 850)
-    p.show()
-    return p
+def panel(results_panel):
+    return results_panel(1300, 850)
 
 
 @pytest.fixture(scope="module")

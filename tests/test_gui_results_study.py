@@ -20,7 +20,6 @@ import pyqtgraph as pg  # noqa: E402
 from PySide6 import QtCore, QtGui, QtWidgets  # noqa: E402
 
 from app import formatting as fmt  # noqa: E402
-from app.gui.results import ResultsPanel  # noqa: E402
 from app.gui.results import rows as R  # noqa: E402
 from app.gui.results.campbell_view import RPM, margin_band_hz, margin_band_text  # noqa: E402
 from core import units  # noqa: E402
@@ -41,12 +40,8 @@ def _study(doc):
 
 
 @pytest.fixture
-def panel(qtbot):
-    p = ResultsPanel()
-    qtbot.addWidget(p)
-    p.resize(1200, 800)
-    p.show()
-    return p
+def panel(results_panel):
+    return results_panel(1200, 800)
 
 
 def _texts(widget) -> list[str]:

@@ -23,7 +23,6 @@ import pytest
 pytest.importorskip("pytestqt")
 
 from app import formatting as fmt  # noqa: E402
-from app.gui.results import ResultsPanel  # noqa: E402
 from app.gui.results.transient_view import ALL_EVENTS, _count  # noqa: E402
 from core.project import build_train, load_document  # noqa: E402
 from core.study import LIVE_PARTS, StudyOptions, run_study  # noqa: E402
@@ -40,13 +39,8 @@ def doc():
 
 
 @pytest.fixture
-def panel(qtbot):
-    p = ResultsPanel()
-    qtbot.addWidget(p)
-    p.resize(1300, 850)
-    p.show()
-    yield p
-    p.shutdown(20000)
+def panel(results_panel):
+    return results_panel(1300, 850)
 
 
 def _live(doc):
