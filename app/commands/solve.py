@@ -4,8 +4,6 @@ from __future__ import annotations
 
 import io
 import json
-import math
-import operator
 import sys
 
 from core.about import CAUTION
@@ -24,39 +22,21 @@ def add_parser(sub):
     return s
 
 
-DIGITS = 12  # significant digits of every per-element value (frequencies keep all of theirs)
-
-
-class _Keyed:
-    """JSON objects ``{"id": value, ...}`` over one list of ids, built from float arrays:
-    a format template made once per id list and filled per mode in one C-level pass (a
-    100 000-disc train has millions of values)."""
-
-    def __init__(self, ids):
-        self.prefixes = [json.dumps(i) + ": " for i in ids]
-        self.template = "{" + ", ".join(p + f"%.{DIGITS}g" for p in self.prefixes) + "}"
-
-    def __call__(self, values) -> str:
-        import numpy as np
-        vals = np.asarray(values, float)
-        if np.isfinite(vals).all():
-            return self.template % tuple(vals.tolist())
-        # JSON has no NaN: null where a value is not finite
-        texts = [f"{v:.{DIGITS}g}" if math.isfinite(v) else "null" for v in vals.tolist()]
-        return "{" + ", ".join(map(operator.add, self.prefixes, texts)) + "}"
-
-
-def _mode_texts(study):
-    """Each mode as JSON text, one at a time (the whole output never sits in memory)."""
+def _mode_chunks(study):
+    """Each mode as JSON, in pieces to be written one after the other: text, and the
+    bytes of each per-element object (a view that the next object of the same id list
+    overwrites, so each piece is written before the next is made; the whole output never
+    sits in memory)."""
+    from .jsonarrays import KeyedFloats  # numpy: not needed for --help
     modes = study.modes
     above = study.above_screening_limit
-    discs, links = _Keyed(modes.disc_ids), _Keyed(modes.link_ids)
+    discs, links = KeyedFloats(modes.disc_ids), KeyedFloats(modes.link_ids)
     design = study.design
     sens = design.sensitivities if design is not None else None
     if sens is not None:
-        s_links = links if tuple(sens.link_ids) == tuple(modes.link_ids) else _Keyed(sens.link_ids)
-        s_discs = discs if tuple(sens.disc_ids) == tuple(modes.disc_ids) else _Keyed(sens.disc_ids)
-        s_shafts = _Keyed(sens.shaft_ids) if sens.shaft_ids else None
+        s_links = links if tuple(sens.link_ids) == tuple(modes.link_ids) else KeyedFloats(sens.link_ids)
+        s_discs = discs if tuple(sens.disc_ids) == tuple(modes.disc_ids) else KeyedFloats(sens.disc_ids)
+        s_shafts = KeyedFloats(sens.shaft_ids) if sens.shaft_ids else None
     bands = design.bands if design is not None else None
     for i in range(len(modes)):
         number = int(modes.number[i])
@@ -70,21 +50,52 @@ def _mode_texts(study):
         }
         if bands is not None:
             head["frequency_band_hz"] = [float(bands[i, 0]), float(bands[i, 1])]
-        text = (json.dumps(head)[:-1] + ', "shape": ' + discs(modes.shape[i])
-                + ', "link_torque_nm": ' + links(modes.link_torque[i])
-                + ', "kinetic_energy_share": ' + discs(modes.kinetic_share[i])
-                + ', "strain_energy_share": ' + links(modes.strain_share[i]))
+        yield (",\n" if i else "\n") + json.dumps(head)[:-1] + ', "shape": '
+        yield discs.encode(modes.shape[i])
+        yield ', "link_torque_nm": '
+        yield links.encode(modes.link_torque[i])
+        yield ', "kinetic_energy_share": '
+        yield discs.encode(modes.kinetic_share[i])
+        yield ', "strain_energy_share": '
+        yield links.encode(modes.strain_share[i])
         if sens is not None and not modes.rigid_body[i]:
             r = sens.row(number)
-            text += (', "sensitivity": {"stiffness": ' + s_links(sens.stiffness[r])
-                     + ', "inertia": ' + s_discs(sens.inertia[r])
-                     + (', "diameter": ' + s_shafts(sens.diameter[r]) if s_shafts else "") + "}")
-        yield text + "}"
+            yield ', "sensitivity": {"stiffness": '
+            yield s_links.encode(sens.stiffness[r])
+            yield ', "inertia": '
+            yield s_discs.encode(sens.inertia[r])
+            if s_shafts:
+                yield ', "diameter": '
+                yield s_shafts.encode(sens.diameter[r])
+            yield "}"
+        yield "}"
+
+
+_ASCII = "".join(map(chr, range(32, 127))) + "\n"
+
+
+def _writer(stream):
+    """A function writing text or ASCII bytes to stream: straight to its binary buffer
+    where it has one with an ASCII-compatible encoding (stdout; no decoding of hundreds
+    of megabytes), else as text (io.StringIO)."""
+    binary = getattr(stream, "buffer", None)
+    try:
+        compatible = _ASCII.encode(stream.encoding) == _ASCII.encode("ascii")
+    except (AttributeError, TypeError, LookupError):
+        compatible = False
+    if binary is None or not compatible:
+        return lambda chunk: stream.write(chunk if isinstance(chunk, str) else str(chunk, "ascii"))
+    stream.flush()  # what was written as text goes first
+
+    def write(chunk):
+        binary.write(chunk.encode("ascii") if isinstance(chunk, str) else chunk)
+    return write
 
 
 def write_modes_json(study, stream=None) -> None:
     """``solve --json``: one JSON object, written mode by mode (keys as documented in
-    the README; values that are not finite are written as null)."""
+    the README; per-element values with 12 significant digits in fixed-width fields,
+    values that are not finite as null)."""
     stream = stream or sys.stdout
     modes = study.modes
     head = {"title": modes.train.title, "requested": modes.requested,
@@ -98,10 +109,11 @@ def write_modes_json(study, stream=None) -> None:
                           "locked_hz": [float(f) for f in study.damper.locked_hz],
                           "statement": study.damper.statement}
     text = json.dumps(head, allow_nan=False)
-    stream.write(text[:-1] + ', "modes": [')
-    for k, mode in enumerate(_mode_texts(study)):
-        stream.write((",\n" if k else "\n") + mode)
-    stream.write("\n]}\n")
+    write = _writer(stream)
+    write(text[:-1] + ', "modes": [')
+    for chunk in _mode_chunks(study):
+        write(chunk)
+    write("\n]}\n")
 
 
 def modes_to_json(study) -> dict:

@@ -1,0 +1,286 @@
+"""Float arrays as JSON text, fast enough for trains of 100 000 discs.
+
+``solve --json`` writes six objects ``{"id": value, ...}`` per mode (shape, torques,
+energy shares, sensitivities), millions of numbers for a long train; formatting them
+one by one in Python costs about 0.2 us each.  Here every value of an array is formatted
+at once with numpy into a fixed-width field, and the fields are copied into a byte
+template of the object laid out once per id list (keys written, value slots blank).
+
+A value is written in scientific notation with 12 significant digits,
+``-1.23456789012e-05``: a sign slot (a space where the value is not negative; JSON
+allows whitespace before a value), the mantissa digits from integer arithmetic, and an
+exponent of fixed width (JSON allows leading zeros in it; three digits only where an
+array needs them).  The digits are those of Python's ``f"{v:.11e}"`` (the correctly
+rounded decimal): the scaled value ``|v| 10^(11-E)`` is rounded in floating point, and
+the few values whose rounding the floating-point error could decide (within 1e-3 of a
+half) are formatted by Python instead.  Zero is written ``0`` (``-0`` for negative zero)
+and a value that is not finite ``null``, right-aligned in the field.
+
+Within each block of rows the keys are padded with spaces to the block's longest key
+so that the rows have one width and the values go in with one strided copy (the
+layout is the float-to-text idea of a fixed-width record, cf. numpy's structured
+arrays; no published method is claimed).
+"""
+from __future__ import annotations
+
+from json.encoder import encode_basestring_ascii
+
+import numpy as np
+
+DIGITS = 12  # significant digits of every value
+_BLOCK = 4096  # rows whose keys are padded to one width
+
+# 10^k, correctly rounded by Python's float parser, for the scale factors 10^(11-E)
+_K0 = 330
+_POW10 = np.array([float(f"1e{k}") if k <= 308 else np.inf for k in range(-_K0, _K0 + 1)])
+# the scaled value is at most ~1e12 and carries at most ~4 roundings of 1.1e-16 each
+# (the table entry, at most two products): 5e-4 would do, 1e-3 leaves room
+_HALF_UNSURE = 0.5 - 1e-3
+
+
+def _exponent_table(digits: int) -> np.ndarray:
+    """'e+05' (or 'e+005') as little-endian integers, indexed by exponent + _K0."""
+    out = np.zeros(2 * _K0 + 1, np.uint64)
+    for e in range(-_K0, _K0 + 1):
+        text = f"e{'-' if e < 0 else '+'}{abs(e):0{digits}d}".encode()
+        if len(text) == digits + 2:
+            out[e + _K0] = int.from_bytes(text, "little")
+    return out
+
+
+_EXPONENT = {2: _exponent_table(2), 3: _exponent_table(3)}
+
+
+U64 = np.uint64
+
+
+def _eight_digits(x: np.ndarray, t: np.ndarray, w: np.ndarray) -> None:
+    """Integers 0 <= x < 10^8 (uint64) replaced in place by their eight ASCII digits
+    (leading zeros kept) packed little-endian, the first digit in the lowest byte:
+    halves, then pairs, then single digits split in parallel lanes of one integer, the
+    divisions by 100 and 10 as multiply-shift (n // 100 == n * 5243 >> 19 for
+    n < 43699, n // 10 == n * 103 >> 10 for n < 1000).  t and w are scratch arrays."""
+    np.floor_divide(x, U64(10_000), out=t)                      # first four digits
+    np.multiply(t, U64(10_000), out=w)
+    np.subtract(x, w, out=x)
+    np.left_shift(x, U64(32), out=x)
+    np.bitwise_or(x, t, out=x)                                  # two 32-bit lanes < 10^4
+    for mul, shift, mask, base, lane in ((5243, 19, 0x0000007F0000007F, 100, 16),
+                                         (103, 10, 0x000F000F000F000F, 10, 8)):
+        np.multiply(x, U64(mul), out=t)
+        np.right_shift(t, U64(shift), out=t)
+        np.bitwise_and(t, U64(mask), out=t)                     # quotient per lane
+        np.multiply(t, U64(base), out=w)
+        np.subtract(x, w, out=x)                                # remainder per lane
+        np.left_shift(x, U64(lane), out=x)
+        np.bitwise_or(x, t, out=x)                              # lanes of half the width
+    np.add(x, U64(0x3030303030303030), out=x)
+
+
+class _Scratch:
+    """Work arrays for n values, reused call after call (no fresh pages per object)."""
+
+    def __init__(self, n: int):
+        self.n = n
+        self.v, self.a, self.x, self.r = (np.empty(n) for _ in range(4))
+        self.e, self.i = np.empty(n, np.int64), np.empty(n, np.int64)
+        self.m = np.empty(n, U64)
+        self.digits, self.t, self.w = (np.empty(2 * n, U64) for _ in range(3))
+
+
+def _scaled(a: np.ndarray, e: np.ndarray, out: np.ndarray, index: np.ndarray) -> np.ndarray:
+    """|v| 10^(11 - e) in floating point: one rounding besides the table's, three below
+    1e-289 (scaled first by the exact 10^22 twice so that 10^k stays finite)."""
+    np.subtract(11 + _K0, e, out=index)
+    if index.max() > 300 + _K0:
+        deep = index > 300 + _K0
+        a = a.copy()
+        a[deep] = a[deep] * 1e22 * 1e22
+        index[deep] -= 44
+    np.take(_POW10, index, out=out)
+    return np.multiply(out, a, out=out)
+
+
+def _decimal_parts(v: np.ndarray, s: _Scratch):
+    """Into s.m and s.e, the 12-digit decimal of every finite non-zero value, rounded
+    as Python's ``f"{v:.11e}"`` rounds: |v| ~= m 10^(e - 11), 10^11 <= m < 10^12.
+    Returns the mask of the values that are zero or not finite (None if there are
+    none); their parts are meaningless."""
+    a = np.abs(v, out=s.a)
+    special = None
+    if not (a.min() > 0 and a.max() < np.inf):  # NaN fails both comparisons
+        special = ~(a > 0) | (a == np.inf)
+        a[special] = 1.0
+    x, e = s.x, s.e
+    np.log10(a, out=x)
+    np.floor(x, out=x)
+    np.copyto(e, x, casting="unsafe")
+    _scaled(a, e, x, s.i)
+    if x.min() < 1e11 or x.max() >= 1e12:  # log10 rounded across a power of ten
+        off = np.flatnonzero((x < 1e11) | (x >= 1e12))
+        e[off] += np.where(x[off] >= 1e12, 1, -1)
+        x[off] = _scaled(a[off], e[off], np.empty(len(off)), np.empty(len(off), np.int64))
+    r = np.rint(x, out=s.r)
+    if r.max() >= 1e12:  # 9.999999999995 -> 10.0000000000
+        carry = r >= 1e12
+        r[carry] = 1e11
+        e[carry] += 1
+    np.copyto(s.m, r, casting="unsafe")
+    np.subtract(x, r, out=x)
+    np.abs(x, out=x)
+    if x.max() > _HALF_UNSURE or r.min() < 1e11 or r.max() >= 1e12:
+        unsure = (x > _HALF_UNSURE) | (r < 1e11) | (r >= 1e12)
+        if special is not None:
+            unsure &= ~special
+        for i in np.flatnonzero(unsure).tolist():
+            text = f"{a[i]:.11e}"  # d.ddddddddddde[+-]XX, correctly rounded
+            s.m[i] = int(text[0] + text[2:13])
+            e[i] = int(text[14:])
+    return special
+
+
+def decimal_parts(values):
+    """(mantissa, exponent, special) of every value: see _decimal_parts (tests)."""
+    v = np.asarray(values, np.float64).ravel()
+    s = _Scratch(len(v))
+    special = _decimal_parts(v, s)
+    return s.m, s.e, (np.zeros(len(v), bool) if special is None else special)
+
+
+def _words(v: np.ndarray, s: _Scratch):
+    """The fixed-width field of every value as three overlapping little-endian 64-bit
+    words, to be written in this order at bytes 0, 6 and width - 8 of the field:
+    ``±d.ddd`` (its last two bytes overwritten), ``dddddddd`` (d4..d11) and the end of
+    those digits with ``e±XX`` (``e±XXX`` where some exponent needs three digits).
+    Returns (width, first, middle, last)."""
+    n = len(v)
+    if n == 0:
+        return 18, s.m, s.m, s.m
+    special = _decimal_parts(v, s)
+    e = s.e
+    if special is None:
+        wide = e.min() <= -100 or e.max() >= 100
+    else:
+        normal = e[~special]
+        wide = len(normal) > 0 and (normal.min() <= -100 or normal.max() >= 100)
+    width = 19 if wide else 18
+    head, tail = s.digits[:n], s.digits[n:]
+    np.floor_divide(s.m, U64(100_000_000), out=head)           # d0..d3
+    np.multiply(head, U64(100_000_000), out=tail)
+    np.subtract(s.m, tail, out=tail)                            # d4..d11
+    _eight_digits(s.digits, s.t, s.w)                           # '0000dddd', 'dddddddd'
+    # first word: sign, d0, '.', d1 d2 d3
+    first, last = s.t[:n], s.t[n:]
+    np.right_shift(head, U64(24), out=first)
+    np.bitwise_and(first, U64(0xFF00), out=first)
+    np.right_shift(head, U64(40), out=head)
+    np.left_shift(head, U64(24), out=head)
+    np.bitwise_or(first, head, out=first)
+    np.bitwise_or(first, U64(0x2E0020), out=first)
+    if np.signbit(v).any():
+        np.add(first, np.signbit(v).astype(U64) * U64(0x2D - 0x20), out=first)
+    # last word: the end of d4..d11, 'e', the exponent's sign and digits
+    index = np.add(e, _K0, out=s.i)
+    np.take(_EXPONENT[width - 16], index, out=last)
+    np.left_shift(last, U64(8 * (22 - width)), out=last)
+    np.right_shift(tail, U64(8 * (width - 14)), out=s.w[:n])
+    np.bitwise_or(last, s.w[:n], out=last)
+    if special is not None:
+        _blank_specials(v, special, width, first, tail, last)
+    return width, first, tail, last
+
+
+def _blank_specials(v, special, width, first, middle, last) -> None:
+    """Zero as ``0`` (``-0`` when negative) and NaN or inf as ``null``, right-aligned."""
+    zero = special & (v == 0)
+    for mask, word in ((special & ~zero, "null"), (zero & ~np.signbit(v), "0"), (zero & np.signbit(v), "-0")):
+        if mask.any():
+            text = word.rjust(width).encode()
+            first[mask] = int.from_bytes(text[0:8], "little")
+            middle[mask] = int.from_bytes(text[6:14], "little")
+            last[mask] = int.from_bytes(text[width - 8:width], "little")
+
+
+def _field_dtype(offset: int, width: int, itemsize: int) -> np.dtype:
+    return np.dtype({"names": ["first", "middle", "last"], "formats": ["<u8"] * 3,
+                     "offsets": [offset, offset + 6, offset + width - 8], "itemsize": itemsize})
+
+
+def _put(dest: np.ndarray, words, rows: slice) -> None:
+    for name, word in zip(("first", "middle", "last"), words):
+        dest[name] = word[rows]
+
+
+def fixed_width(values) -> np.ndarray:
+    """Every value as a fixed-width JSON number, one row of ASCII bytes per value:
+    `` 1.23456789012e-05``, ``-1.23456789012e-05``, right-aligned ``0``, ``-0`` and
+    ``null``; 18 bytes wide, 19 where an exponent needs three digits."""
+    v = np.asarray(values, np.float64).ravel()
+    width, *words = _words(v, _Scratch(len(v)))
+    out = np.empty((len(v), width), np.uint8)
+    _put(out.view(_field_dtype(0, width, width))[:, 0], words, slice(None))
+    return out
+
+
+class KeyedFloats:
+    """JSON objects ``{"id": value, ...}`` over one list of ids, as bytes: the object
+    laid out once per id list and field width, the values written in per call."""
+
+    def __init__(self, ids):
+        ids = list(ids)
+        try:
+            self.keys = list(map(encode_basestring_ascii, ids))  # '"id"', escaped as json.dumps does
+        except TypeError:
+            self.keys = [encode_basestring_ascii(str(i)) for i in ids]
+        self._layouts = {}
+        self._scratch = None
+
+    def __len__(self):
+        return len(self.keys)
+
+    def _layout(self, width: int):
+        """The object's bytes with blank value slots and, per block of rows, where its
+        values go: (byte offset, first row, rows, structured dtype of one row).  A row
+        is the key, a colon, spaces up to the block's longest key, the value and a
+        comma (the closing brace on the last row)."""
+        got = self._layouts.get(width)
+        if got is None:
+            got = self._layouts[width] = _object_layout(self.keys, width)
+        return got
+
+    def encode(self, values) -> memoryview:
+        """The object with these values (one per id) as ASCII bytes; the view is valid
+        until the next call."""
+        n = len(self.keys)
+        if self._scratch is None:
+            self._scratch = _Scratch(n)
+        v = self._scratch.v
+        np.copyto(v, np.reshape(values, -1))  # one pass over a row of a column-major array
+        width, *words = _words(v, self._scratch)
+        buf, blocks = self._layout(width)
+        for at, r0, rows, dtype in blocks:
+            _put(buf[at:at + rows * dtype.itemsize].view(dtype), words, slice(r0, r0 + rows))
+        return memoryview(buf)
+
+
+def _object_layout(keys: list[str], width: int):
+    """See KeyedFloats._layout; built with numpy, without a Python step per key."""
+    n = len(keys)
+    if n == 0:
+        return np.frombuffer(b"{}", np.uint8).copy(), []
+    text = np.frombuffer("".join(keys).encode("ascii"), np.uint8)
+    length = np.fromiter(map(len, keys), np.int64, count=n)
+    first_rows = np.arange(0, n, _BLOCK)
+    key_width = np.maximum.reduceat(length, first_rows) + 1  # with the colon
+    row_width = np.repeat(key_width + width + 1, np.diff(np.r_[first_rows, n]))
+    row_start = 1 + np.r_[0, np.cumsum(row_width)[:-1]]
+    buf = np.full(1 + int(row_width.sum()), ord(" "), np.uint8)
+    buf[0] = ord("{")
+    key_start = np.cumsum(length) - length
+    buf[np.repeat(row_start - key_start, length) + np.arange(len(text))] = text
+    buf[row_start + length] = ord(":")
+    buf[row_start + row_width - 1] = ord(",")
+    buf[-1] = ord("}")
+    blocks = [(int(row_start[r0]), int(r0), int(min(_BLOCK, n - r0)), _field_dtype(int(k), width, int(k) + width + 1))
+              for r0, k in zip(first_rows, key_width)]
+    return buf, blocks
