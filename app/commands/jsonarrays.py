@@ -49,32 +49,18 @@ def _exponent_table(digits: int) -> np.ndarray:
 
 
 _EXPONENT = {2: _exponent_table(2), 3: _exponent_table(3)}
-
-
 U64 = np.uint64
 
 
-def _eight_digits(x: np.ndarray, t: np.ndarray, w: np.ndarray) -> None:
-    """Integers 0 <= x < 10^8 (uint64) replaced in place by their eight ASCII digits
-    (leading zeros kept) packed little-endian, the first digit in the lowest byte:
-    halves, then pairs, then single digits split in parallel lanes of one integer, the
-    divisions by 100 and 10 as multiply-shift (n // 100 == n * 5243 >> 19 for
-    n < 43699, n // 10 == n * 103 >> 10 for n < 1000).  t and w are scratch arrays."""
-    np.floor_divide(x, U64(10_000), out=t)                      # first four digits
-    np.multiply(t, U64(10_000), out=w)
-    np.subtract(x, w, out=x)
-    np.left_shift(x, U64(32), out=x)
-    np.bitwise_or(x, t, out=x)                                  # two 32-bit lanes < 10^4
-    for mul, shift, mask, base, lane in ((5243, 19, 0x0000007F0000007F, 100, 16),
-                                         (103, 10, 0x000F000F000F000F, 10, 8)):
-        np.multiply(x, U64(mul), out=t)
-        np.right_shift(t, U64(shift), out=t)
-        np.bitwise_and(t, U64(mask), out=t)                     # quotient per lane
-        np.multiply(t, U64(base), out=w)
-        np.subtract(x, w, out=x)                                # remainder per lane
-        np.left_shift(x, U64(lane), out=x)
-        np.bitwise_or(x, t, out=x)                              # lanes of half the width
-    np.add(x, U64(0x3030303030303030), out=x)
+def _digit_table(fmt: str) -> np.ndarray:
+    """fmt % i as ASCII bytes packed little-endian (first character in the lowest byte)
+    in uint64, for i below 10^4."""
+    return np.array([int.from_bytes((fmt % i).encode(), "little") for i in range(10_000)], U64)
+
+
+_FOUR_DIGITS = _digit_table("%04d")
+# the first four digits as the head of a field: sign slot, d0, '.', d1 d2 d3
+_HEAD = _digit_table(" %d") & U64(0xFFFF) | (_digit_table("%04d") >> U64(8)) << U64(24) | U64(0x2E0000)
 
 
 class _Scratch:
@@ -84,8 +70,8 @@ class _Scratch:
         self.n = n
         self.v, self.a, self.x, self.r = (np.empty(n) for _ in range(4))
         self.e, self.i = np.empty(n, np.int64), np.empty(n, np.int64)
-        self.m = np.empty(n, U64)
-        self.digits, self.t, self.w = (np.empty(2 * n, U64) for _ in range(3))
+        self.m, self.g, self.h = (np.empty(n, np.int64) for _ in range(3))
+        self.first, self.middle, self.last, self.t = (np.empty(n, U64) for _ in range(4))
 
 
 def _scaled(a: np.ndarray, e: np.ndarray, out: np.ndarray, index: np.ndarray) -> np.ndarray:
@@ -164,30 +150,29 @@ def _words(v: np.ndarray, s: _Scratch):
         normal = e[~special]
         wide = len(normal) > 0 and (normal.min() <= -100 or normal.max() >= 100)
     width = 19 if wide else 18
-    head, tail = s.digits[:n], s.digits[n:]
-    np.floor_divide(s.m, U64(100_000_000), out=head)           # d0..d3
-    np.multiply(head, U64(100_000_000), out=tail)
-    np.subtract(s.m, tail, out=tail)                            # d4..d11
-    _eight_digits(s.digits, s.t, s.w)                           # '0000dddd', 'dddddddd'
-    # first word: sign, d0, '.', d1 d2 d3
-    first, last = s.t[:n], s.t[n:]
-    np.right_shift(head, U64(24), out=first)
-    np.bitwise_and(first, U64(0xFF00), out=first)
-    np.right_shift(head, U64(40), out=head)
-    np.left_shift(head, U64(24), out=head)
-    np.bitwise_or(first, head, out=first)
-    np.bitwise_or(first, U64(0x2E0020), out=first)
+    # the twelve digits from three groups of four, each looked up in a table
+    g, h, first, middle, last, t = s.g, s.h, s.first, s.middle, s.last, s.t
+    np.floor_divide(s.m, 100_000_000, out=g)                    # d0..d3
+    np.take(_HEAD, g, out=first)
+    np.multiply(g, 100_000_000, out=h)
+    np.subtract(s.m, h, out=h)                                  # d4..d11
+    np.floor_divide(h, 10_000, out=g)                           # d4..d7
+    np.take(_FOUR_DIGITS, g, out=middle)
+    np.multiply(g, 10_000, out=g)
+    np.subtract(h, g, out=h)                                    # d8..d11
+    np.take(_FOUR_DIGITS, h, out=t)
+    np.left_shift(t, U64(32), out=t)
+    np.bitwise_or(middle, t, out=middle)
     if np.signbit(v).any():
-        np.add(first, np.signbit(v).astype(U64) * U64(0x2D - 0x20), out=first)
+        np.add(first, np.signbit(v).astype(U64) * U64(ord("-") - ord(" ")), out=first)
     # last word: the end of d4..d11, 'e', the exponent's sign and digits
-    index = np.add(e, _K0, out=s.i)
-    np.take(_EXPONENT[width - 16], index, out=last)
+    np.take(_EXPONENT[width - 16], np.add(e, _K0, out=s.i), out=last)
     np.left_shift(last, U64(8 * (22 - width)), out=last)
-    np.right_shift(tail, U64(8 * (width - 14)), out=s.w[:n])
-    np.bitwise_or(last, s.w[:n], out=last)
+    np.right_shift(middle, U64(8 * (width - 14)), out=t)
+    np.bitwise_or(last, t, out=last)
     if special is not None:
-        _blank_specials(v, special, width, first, tail, last)
-    return width, first, tail, last
+        _blank_specials(v, special, width, first, middle, last)
+    return width, first, middle, last
 
 
 def _blank_specials(v, special, width, first, middle, last) -> None:
