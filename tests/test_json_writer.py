@@ -139,8 +139,9 @@ def test_keyed_object_reuses_its_layout_call_after_call():
         got = json.loads(bytes(k.encode(v)))
         assert list(got.values()) == [float(f"{x:.12g}") for x in v.tolist()]
     assert bytes(KeyedFloats([]).encode([])) == b"{}"
-    with pytest.raises(ValueError):
-        k.encode(np.zeros(3))
+    for wrong in (np.zeros(3), np.zeros(1)):
+        with pytest.raises(ValueError):
+            k.encode(wrong)
 
 
 # ------------------------------------------------------------------ the whole object

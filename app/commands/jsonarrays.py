@@ -3,23 +3,26 @@
 ``solve --json`` writes six objects ``{"id": value, ...}`` per mode (shape, torques,
 energy shares, sensitivities), millions of numbers for a long train; formatting them
 one by one in Python costs about 0.2 us each.  Here every value of an array is formatted
-at once with numpy into a fixed-width field, and the fields are copied into a byte
+at once with numpy into a fixed-width field, and the fields are written into a byte
 template of the object laid out once per id list (keys written, value slots blank).
 
 A value is written in scientific notation with 12 significant digits,
-``-1.23456789012e-05``: a sign slot (a space where the value is not negative; JSON
-allows whitespace before a value), the mantissa digits from integer arithmetic, and an
-exponent of fixed width (JSON allows leading zeros in it; three digits only where an
-array needs them).  The digits are those of Python's ``f"{v:.11e}"`` (the correctly
-rounded decimal): the scaled value ``|v| 10^(11-E)`` is rounded in floating point, and
-the few values whose rounding the floating-point error could decide (within 1e-3 of a
-half) are formatted by Python instead.  Zero is written ``0`` (``-0`` for negative zero)
-and a value that is not finite ``null``, right-aligned in the field.
+``-1.23456789012e-05``: a sign slot (a space where the value is not negative), the
+twelve digits from integer division into groups of four and a table of the 10 000
+groups, and an exponent of fixed width (two digits, three only where an array needs
+them, with leading zeros).  JSON allows both the space before a value and the leading
+zeros of an exponent (RFC 8259, sections 2 and 6).  The digits are those of Python's
+``f"{v:.11e}"``, the correctly rounded decimal: the scaled value ``|v| 10^(11-E)`` is
+rounded in floating point, and the few values that the floating-point error could put
+on the wrong side of a half (within 1e-3 of it; the error is at most four roundings of
+one unit in 2^53, D. Goldberg, "What every computer scientist should know about
+floating-point arithmetic", ACM Computing Surveys 23 (1991) 5-48) are formatted by
+Python instead.  Zero is written ``0`` (``-0`` for negative zero, as ``%.12g`` writes
+them) and a value that is not finite ``null``, right-aligned in the field.
 
-Within each block of rows the keys are padded with spaces to the block's longest key
-so that the rows have one width and the values go in with one strided copy (the
-layout is the float-to-text idea of a fixed-width record, cf. numpy's structured
-arrays; no published method is claimed).
+Within each block of rows the keys are padded with spaces after the colon to the
+block's longest key, so that the rows have one width and each field goes in as three
+strided writes of 64-bit words (numpy structured views of the template).
 """
 from __future__ import annotations
 
@@ -27,7 +30,6 @@ from json.encoder import encode_basestring_ascii
 
 import numpy as np
 
-DIGITS = 12  # significant digits of every value
 _BLOCK = 4096  # rows whose keys are padded to one width
 
 # 10^k, correctly rounded by Python's float parser, for the scale factors 10^(11-E)
@@ -67,7 +69,6 @@ class _Scratch:
     """Work arrays for n values, reused call after call (no fresh pages per object)."""
 
     def __init__(self, n: int):
-        self.n = n
         self.v, self.a, self.x, self.r = (np.empty(n) for _ in range(4))
         self.e, self.i = np.empty(n, np.int64), np.empty(n, np.int64)
         self.m, self.g, self.h = (np.empty(n, np.int64) for _ in range(3))
@@ -237,10 +238,13 @@ class KeyedFloats:
         """The object with these values (one per id) as ASCII bytes; the view is valid
         until the next call."""
         n = len(self.keys)
+        values = np.reshape(values, -1)
+        if len(values) != n:
+            raise ValueError(f"{len(values)} values for {n} ids")
         if self._scratch is None:
             self._scratch = _Scratch(n)
         v = self._scratch.v
-        np.copyto(v, np.reshape(values, -1))  # one pass over a row of a column-major array
+        np.copyto(v, values)  # one pass over a row of a column-major array
         width, *words = _words(v, self._scratch)
         buf, blocks = self._layout(width)
         for at, r0, rows, dtype in blocks:
