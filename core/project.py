@@ -418,18 +418,19 @@ _PLAIN_LINK_KEYS = frozenset({"id", "name", "kind", "from", "to", "stiffness", "
 
 
 def _read_discs(raw_discs: list) -> tuple[Disc, ...]:
-    quick, INERTIA, DAMPING = u.quick, u.INERTIA, u.DAMPING
+    inertia, damping = u.quick_reader(u.INERTIA), u.quick_reader(u.DAMPING)
     plain_keys, make = _PLAIN_DISC_KEYS, plain_disc
     discs = []
     append = discs.append
     for i, obj in enumerate(raw_discs):
         if type(obj) is dict and plain_keys.issuperset(obj):
             did = obj.get("id")
-            J = quick(obj.get("inertia"), INERTIA)
+            J = inertia(obj.get("inertia"))
             c = obj.get("damping")
-            c = 0.0 if c is None else quick(c, DAMPING) or -1.0  # zero, or not read quickly: in full
+            c = 0.0 if c is None else damping(c) or -1.0  # zero, or not read quickly: in full
             if type(did) is str and did.strip() and J is not None and J >= 0.0 and c >= 0.0:
-                append(make(did, str(obj.get("name", did)), J, c))
+                name = obj.get("name", did)
+                append(make(did, name if type(name) is str else str(name), J, c))
                 continue
         append(_disc(obj, i))
     return tuple(discs)
@@ -437,16 +438,16 @@ def _read_discs(raw_discs: list) -> tuple[Disc, ...]:
 
 def _read_links(raw_links: list) -> tuple[tuple[Link, ...], list[int]]:
     """The links, and the indices of those read in full (only they may carry ratings)."""
-    quick, STIFFNESS, DAMPING = u.quick, u.STIFFNESS, u.DAMPING
+    stiffness, damping = u.quick_reader(u.STIFFNESS), u.quick_reader(u.DAMPING)
     plain_keys, make = _PLAIN_LINK_KEYS, plain_link
     links, full = [], []
     append = links.append
     for i, obj in enumerate(raw_links):
         if type(obj) is dict and plain_keys.issuperset(obj):
             lid, kind, a, b = obj.get("id"), obj.get("kind"), obj.get("from"), obj.get("to")
-            k = quick(obj.get("stiffness"), STIFFNESS)
+            k = stiffness(obj.get("stiffness"))
             c = obj.get("damping")
-            c = 0.0 if c is None else quick(c, DAMPING) or -1.0  # zero, or not read quickly: in full
+            c = 0.0 if c is None else damping(c) or -1.0  # zero, or not read quickly: in full
             # (a kind compared, not looked up: a list there is refused in full, not hashed)
             if type(lid) is str and lid.strip() and (kind == "shaft" or kind == "coupling") \
                     and type(a) is str and a \
@@ -504,7 +505,8 @@ def _cylinders(raw, where: str, disc_ids) -> tuple[tuple[str, float], ...]:
     return tuple(out)
 
 
-def _operating(doc: dict, disc_ids: set[str], base_dir=None) -> Operating | None:
+def _operating(doc: dict, disc_ids, base_dir=None) -> Operating | None:
+    """The operating data; ``disc_ids`` answers ``in`` for every disc id (a set or a dict's keys)."""
     if "operating_speed" not in doc and "excitations" not in doc and "reference" not in doc:
         return None
     where = "operating data"
@@ -650,8 +652,9 @@ def build_train(doc: dict, base_dir=None) -> Train:
         discs = _read_discs(raw_discs)
         links, full = _read_links(raw_links)
         speed = check_topology(discs, links)
-    extreme = [d for d, f in speed.items() if not 1.0 / MAX_SPEED_FACTOR <= f <= MAX_SPEED_FACTOR]
-    if extreme:
+    factors = speed.values()
+    if not 1.0 / MAX_SPEED_FACTOR <= min(factors) <= max(factors) <= MAX_SPEED_FACTOR:
+        extreme = [d for d, f in speed.items() if not 1.0 / MAX_SPEED_FACTOR <= f <= MAX_SPEED_FACTOR]
         raise ModelError(f"turns {speed[extreme[0]]:.3g} times as fast as '{discs[0].id}' through the gear "
                          f"stages; more than {MAX_SPEED_FACTOR:g}:1 across a train leaves the model "
                          "numerically meaningless", f"disc '{extreme[0]}'", "links")
@@ -669,9 +672,11 @@ def build_train(doc: dict, base_dir=None) -> Train:
         if not any(l.mass != "none" or l.is_rigid for l in touching.get(d.id, ())):
             raise ModelError("zero inertia makes the model singular; give the disc an inertia "
                              "(or model an adjoining shaft's mass)", f"disc '{d.id}'", "inertia")
-    if sum(d.inertia for d in discs) + sum(l.own_inertia for l in links if l.mass != "none") <= 0:
+    # every inertia is >= 0, so the total is above zero as soon as one is
+    if not any(d.inertia > 0 for d in discs) \
+            and not any(l.own_inertia > 0 for l in links if l.mass != "none"):
         raise ModelError("the train has no inertia", "train", "discs")
-    operating = _operating(doc, set(speed), base_dir)
+    operating = _operating(doc, speed.keys(), base_dir)
     for e in operating.excitations if operating else ():
         for i, (cid, _) in enumerate(e.cylinders):
             if not math.isclose(speed[cid], speed[e.at], rel_tol=1e-9):
@@ -694,6 +699,8 @@ def build_train(doc: dict, base_dir=None) -> Train:
 
 def _transients(doc: dict, disc_ids, links, base_dir):
     """The ``"transients"`` events and ``"sn_curves"`` (see :mod:`core.events`)."""
+    if doc.get("transients") is None and doc.get("sn_curves") is None:
+        return (), ()
     from .events import parse_sn_curves, parse_transients
     link_ids = {l.id for l in links}
     return (parse_transients(doc, set(disc_ids), link_ids, base_dir),

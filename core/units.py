@@ -695,28 +695,43 @@ def quick(value, kind: Kind) -> float | None:
     number, one space and a unit text already read for this kind ("18.5 kg*m^2"),
     giving a non-zero magnitude in range.  None means "not read here", never "wrong":
     :func:`parse` then reads the value in full (and explains a refusal).  The per-value
-    cost is two dict lookups and ``float()``, for readers of long trains.
-    """
-    if type(value) is str:
-        # split at the first space; float() reads exactly the number grammar on ASCII text
-        # without '_' (nan and inf fail the range test)
-        cache = _ready.get(kind.si_unit)
-        if cache is None:
-            return None
-        number, _sep, unit = value.partition(" ")
-        hit = cache.get(unit)
-        if hit is None or len(number) > 25 or not number.isascii() or "_" in number:
-            return None
-        try:
-            x = float(number) * hit[0] / hit[1] * hit[2]
-        except ValueError:
-            return None
-        return x if 0.0 < abs(x) <= MAX_MAGNITUDE else None  # zero: was it written as zero?
-    if type(value) is float:
-        return value if abs(value) <= MAX_MAGNITUDE else None  # NaN and inf fail the test
-    if type(value) is int and -_MAX_INT <= value <= _MAX_INT:
-        return float(value)
-    return None
+    cost is two dict lookups and ``float()``, for readers of long trains."""
+    return quick_reader(kind)(value)
+
+
+# per SI unit of a kind: quick() as a function of the value alone
+_readers: dict = {}
+
+
+def quick_reader(kind: Kind):
+    """``lambda value: quick(value, kind)``, made once per SI unit (a loop over the values
+    of a long train calls it without looking the kind up each time)."""
+    read = _readers.get(kind.si_unit)
+    if read is None:
+        read = _readers.setdefault(kind.si_unit, _make_reader(_ready.setdefault(kind.si_unit, {})))
+    return read
+
+
+def _make_reader(cache: dict):
+    def read(value) -> float | None:
+        if type(value) is str:
+            # split at the first space; float() reads exactly the number grammar on ASCII
+            # text without '_' (nan and inf fail the range test)
+            number, _sep, unit = value.partition(" ")
+            hit = cache.get(unit)
+            if hit is None or len(number) > 25 or not number.isascii() or "_" in number:
+                return None
+            try:
+                x = float(number) * hit[0] / hit[1] * hit[2]
+            except ValueError:
+                return None
+            return x if 0.0 < abs(x) <= MAX_MAGNITUDE else None  # zero: was it written as zero?
+        if type(value) is float:
+            return value if abs(value) <= MAX_MAGNITUDE else None  # NaN and inf fail the test
+        if type(value) is int and -_MAX_INT <= value <= _MAX_INT:
+            return float(value)
+        return None
+    return read
 
 
 def parse(value, kind: Kind, element: str | None = None, field: str | None = None) -> float:
@@ -727,7 +742,7 @@ def parse(value, kind: Kind, element: str | None = None, field: str | None = Non
     (with the reading probably meant), an unknown unit, a unit of the wrong kind, or a
     value that is not finite or outside the magnitudes read.
     """
-    x = quick(value, kind)
+    x = (_readers.get(kind.si_unit) or quick_reader(kind))(value)
     if x is not None:
         return x
     if type(value) is str:
