@@ -337,11 +337,12 @@ def _tree_speeds(discs, links) -> dict[str, float] | None:
     """The speed factors of a valid train, found without naming anything; None where the
     train breaks any rule (the full check then finds the first break and names it).
 
-    A graph of n discs with exactly n - 1 distinct disc pairs that is connected is a
-    tree, so no union-find is needed: the pairs are counted and the connection found by
-    array operations (:func:`_connected`).  A train without gear meshes turns every disc
-    at the first disc's speed; with meshes the factors come from the full check's walk
-    over the same adjacency, so they (and their order) are the full check's."""
+    A connected graph of n discs with exactly n - 1 distinct disc pairs is a tree, so
+    no loop needs looking for: the pairs are counted and the connection found by array
+    operations (:func:`_connected`).  A train without gear meshes turns every disc at
+    the first disc's speed (the factors listed in disc order); with meshes they come
+    from the full check's walk over the same adjacency, so they (and their order) are
+    the full check's."""
     import numpy as np
 
     n = len(discs)
@@ -384,11 +385,15 @@ def _tree_speeds(discs, links) -> dict[str, float] | None:
 def _connected(n: int, a, b) -> bool:
     """Whether the graph on nodes 0..n-1 with edges (a[k], b[k]) is connected.
 
-    Label propagation by hooking and pointer jumping (Shiloach & Vishkin, "An O(log n)
-    parallel connectivity algorithm", J. Algorithms 3, 1982), in array operations: each
-    round hooks every root joined to a smaller root onto one (labels only decrease, so no
-    cycle forms) and then points every node straight at its root.  Every component with
-    an edge leaving it merges each round, so at most log2(n) rounds."""
+    Hooking and pointer jumping in array operations, after Shiloach & Vishkin, "An
+    O(log n) parallel connectivity algorithm", J. Algorithms 3 (1982) (from memory): each
+    round hooks every root onto the smallest root joined to it (labels only decrease, so
+    no cycle forms), then points every node straight at its root.  A root that is smaller
+    than every root joined to it and that no root hooked onto is joined, after that
+    round, only to smaller roots, so it hooks in the next one: every component with an
+    edge leaving it merges within two rounds, and there are at most 2 log2(n) rounds.
+    (Hooking onto any smaller root, not the smallest, can take n rounds: a star whose
+    centre carries the largest label.)"""
     import numpy as np
 
     parent = np.arange(n)
@@ -398,7 +403,7 @@ def _connected(n: int, a, b) -> bool:
         if not cross.any():
             return bool((parent == 0).all())
         ra, rb = ra[cross], rb[cross]
-        parent[np.maximum(ra, rb)] = np.minimum(ra, rb)
+        np.minimum.at(parent, np.maximum(ra, rb), np.minimum(ra, rb))
         while True:
             up = parent[parent]
             if np.array_equal(up, parent):

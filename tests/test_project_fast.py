@@ -264,6 +264,20 @@ def test_connection_test_agrees_with_scipy(graph):
     assert model._connected(n, a, b) == (count == 1)
 
 
+def test_the_connection_test_needs_few_rounds_on_a_star():
+    """A star whose centre carries the largest label: hooking each root onto any smaller
+    root (not the smallest) would take one round per leaf; the smallest takes two."""
+    import time
+
+    import numpy as np
+
+    n = 50_000
+    start = time.perf_counter()
+    assert model._connected(n, np.full(n - 1, n - 1), np.arange(n - 1))
+    assert not model._connected(n, np.full(n - 2, n - 1), np.arange(n - 2))
+    assert time.perf_counter() - start < 2.0  # about 0.01 s; a round per leaf, many seconds
+
+
 def test_a_long_chain_takes_the_quick_check():
     """A chain of 2000 discs in file order and in shuffled order: each disc turns at the first
     one's speed (no gear meshes), found without the full check."""
