@@ -162,6 +162,22 @@ def test_plain_elements_take_the_quick_path(monkeypatch):
     assert train.disc("d1").damping == 5.0 and train.links[1].label == "Flex coupling"
 
 
+SAMPLES = sorted((__import__("pathlib").Path(__file__).parents[1] / "sample_projects").glob("*.json"))
+
+
+@pytest.mark.parametrize("path", SAMPLES, ids=lambda p: p.stem)
+def test_links_read_quickly_carry_no_ratings(monkeypatch, path):
+    """attach_ratings reads only the links read in full; reading every link gives the same
+    train (two sample projects carry coupling ratings, transient limits and shafting data)."""
+    from core import ratings
+
+    doc = project.load_document(path)
+    expected = build_train(doc)
+    monkeypatch.setattr(project, "attach_ratings",
+                        lambda doc, train, links_to_read=None: ratings.attach_ratings(doc, train))
+    assert repr(build_train(doc)) == repr(expected)
+
+
 @pytest.mark.parametrize("enabled", [True, False])
 def test_the_garbage_collector_is_left_as_found(enabled):
     doc = {"discs": [{"id": "d0", "inertia": 1.0}, {"id": "d1", "inertia": 1.0}],
@@ -292,6 +308,7 @@ def test_a_long_chain_takes_the_quick_check():
 
 # ---------------------------------------------------------------- nesting depth
 def reference_depth(obj) -> int:
+    """The depth by its definition, recursively (common practice, no source)."""
     if isinstance(obj, dict):
         obj = list(obj.values())
     if not isinstance(obj, list):
