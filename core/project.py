@@ -418,6 +418,7 @@ _PLAIN_LINK_KEYS = frozenset({"id", "name", "kind", "from", "to", "stiffness", "
 
 
 def _read_discs(raw_discs: list) -> tuple[Disc, ...]:
+    """The discs, in file order."""
     inertia, damping = u.quick_reader(u.INERTIA), u.quick_reader(u.DAMPING)
     plain_keys, make = _PLAIN_DISC_KEYS, plain_disc
     discs = []

@@ -45,7 +45,8 @@ Speed: the number is read with ``float()`` and multiplied by a conversion
 factor cached per unit text (a few microseconds a value).  The factors of the
 common units come from a built-in table (each entry is checked against pint in
 the tests); pint is imported only when a unit name outside that table is first
-met, and then asked about that one name (never about an expression).
+met, and then asked about that one name (never about an expression).  Readers of
+long trains call :func:`quick_reader` once per kind and then one function per value.
 """
 from __future__ import annotations
 
