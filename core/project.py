@@ -6,12 +6,14 @@ save.  :func:`build_train` validates the document and makes the SI model.
 """
 from __future__ import annotations
 
+import gc
 import json
 import math
 import os
 import shutil
 import stat
 import tempfile
+from contextlib import contextmanager
 from pathlib import Path
 
 from . import units as u
@@ -22,7 +24,7 @@ from .gears import gear_mesh_fields
 from .materials import LIBRARY, Material
 from .ratings import attach_ratings
 from .model import (LINK_KINDS, MASS_MODELS, Disc, Excitation, Link, Operating,
-                    Order, Segment, Train, check_topology)
+                    Order, Segment, Train, check_topology, plain_disc, plain_link)
 
 FORMAT = "twistwise-project"
 VERSION = 1
@@ -39,18 +41,20 @@ MAX_NESTING = 32  # a project nests a few levels deep; hostile files nest thousa
 
 
 def _nesting_depth(obj) -> int:
-    """Deepest nesting of lists and objects, without recursion."""
-    depth, stack = 0, [(obj, 1)]
-    while stack:
-        o, d = stack.pop()
-        if isinstance(o, dict):
-            o = o.values()
-        elif not isinstance(o, list):
-            continue
-        depth = max(depth, d)
-        if d > MAX_NESTING:
-            return d
-        stack.extend((v, d + 1) for v in o if isinstance(v, (dict, list)))
+    """Deepest nesting of lists and objects (``obj`` itself at depth 1), without recursion:
+    one level at a time, so a long train's discs and links cost one type test per value."""
+    depth, level = 0, [obj] if isinstance(obj, (dict, list)) else []
+    while level:
+        depth += 1
+        if depth > MAX_NESTING:
+            return depth
+        inner = []
+        add = inner.append
+        for o in level:
+            for v in (o.values() if isinstance(o, dict) else o):
+                if isinstance(v, (dict, list)):
+                    add(v)
+        level = inner
     return depth
 
 
@@ -290,8 +294,14 @@ def _disc(obj, index: int) -> Disc:
     return Disc(did, str(obj.get("name", did)), J, c, _tolerance(obj, "inertia_tolerance", where))
 
 
+_LOSS_KEYS = ("loss_factor", "relative_damping", "dynamic_magnifier")
+
+
 def _loss_factor(obj, where: str) -> float:
-    keys = [k for k in ("loss_factor", "relative_damping", "dynamic_magnifier") if obj.get(k) is not None]
+    if obj.get("loss_factor") is None and obj.get("relative_damping") is None \
+            and obj.get("dynamic_magnifier") is None:
+        return 0.0  # the common case, without a list per link
+    keys = [k for k in _LOSS_KEYS if obj.get(k) is not None]
     if len(keys) > 1:
         raise ModelError("give only one of loss_factor, relative_damping, dynamic_magnifier", where, keys[1])
     if not keys:
@@ -377,9 +387,9 @@ def _link(obj, index: int) -> Link:
             raise ModelError("a coupling without stiffness needs a damping above zero", where, "damping")
         if eta:
             raise ModelError("a loss factor needs a stiffness; a damper's ring takes a viscous damping",
-                             where, next(f for f in ("loss_factor", "relative_damping", "dynamic_magnifier")
-                                         if obj.get(f) is not None))
-    scf = u.parse_number(obj.get("stress_concentration", 1.0), where, "stress_concentration")
+                             where, next(f for f in _LOSS_KEYS if obj.get(f) is not None))
+    scf = u.parse_number(obj["stress_concentration"], where, "stress_concentration") \
+        if "stress_concentration" in obj else 1.0
     if scf < 1.0:
         raise ModelError(f"a stress concentration factor is at least 1, got {scf:g}", where,
                          "stress_concentration")
@@ -396,6 +406,59 @@ def _link(obj, index: int) -> Link:
     name = obj.get("name")
     return Link(lid, kind, ends[0], ends[1], k, segments, material, mass, ratio, c,
                 eta, scf, pt, ps, str(name) if name else "", teeth=teeth, stiffness_tolerance=tol)
+
+
+# Reading a long train: the plain elements (only the keys below, values in their common
+# forms) are built in one loop with a handful of dict lookups each; every other element,
+# and every element the quick reading does not accept, is read by _disc / _link, which
+# also give every refusal its message.  The quick reading accepts only what the full one
+# would build identically (tests/test_project_fast.py compares the two).
+_PLAIN_DISC_KEYS = frozenset({"id", "name", "inertia", "damping"})
+_PLAIN_LINK_KEYS = frozenset({"id", "name", "kind", "from", "to", "stiffness", "damping"})
+
+
+def _read_discs(raw_discs: list) -> tuple[Disc, ...]:
+    """The discs, in file order."""
+    inertia, damping = u.quick_reader(u.INERTIA), u.quick_reader(u.DAMPING)
+    plain_keys, make = _PLAIN_DISC_KEYS, plain_disc
+    discs = []
+    append = discs.append
+    for i, obj in enumerate(raw_discs):
+        if type(obj) is dict and plain_keys.issuperset(obj):
+            did = obj.get("id")
+            J = inertia(obj.get("inertia"))
+            c = obj.get("damping")
+            c = 0.0 if c is None else damping(c) or -1.0  # zero, or not read quickly: in full
+            if type(did) is str and did.strip() and J is not None and J >= 0.0 and c >= 0.0:
+                name = obj.get("name", did)
+                append(make(did, name if type(name) is str else str(name), J, c))
+                continue
+        append(_disc(obj, i))
+    return tuple(discs)
+
+
+def _read_links(raw_links: list) -> tuple[tuple[Link, ...], list[int]]:
+    """The links, and the indices of those read in full (only they may carry ratings)."""
+    stiffness, damping = u.quick_reader(u.STIFFNESS), u.quick_reader(u.DAMPING)
+    plain_keys, make = _PLAIN_LINK_KEYS, plain_link
+    links, full = [], []
+    append = links.append
+    for i, obj in enumerate(raw_links):
+        if type(obj) is dict and plain_keys.issuperset(obj):
+            lid, kind, a, b = obj.get("id"), obj.get("kind"), obj.get("from"), obj.get("to")
+            k = stiffness(obj.get("stiffness"))
+            c = obj.get("damping")
+            c = 0.0 if c is None else damping(c) or -1.0  # zero, or not read quickly: in full
+            # (a kind compared, not looked up: a list there is refused in full, not hashed)
+            if type(lid) is str and lid.strip() and (kind == "shaft" or kind == "coupling") \
+                    and type(a) is str and a \
+                    and type(b) is str and b and k is not None and k > 0.0 and c >= 0.0:
+                name = obj.get("name")
+                append(make(lid, kind, a, b, k, c, str(name) if name else ""))
+                continue
+        append(_link(obj, i))
+        full.append(i)
+    return tuple(links), full
 
 
 def _order(obj, where: str, index: int) -> Order:
@@ -443,7 +506,8 @@ def _cylinders(raw, where: str, disc_ids) -> tuple[tuple[str, float], ...]:
     return tuple(out)
 
 
-def _operating(doc: dict, disc_ids: set[str], base_dir=None) -> Operating | None:
+def _operating(doc: dict, disc_ids, base_dir=None) -> Operating | None:
+    """The operating data; ``disc_ids`` answers ``in`` for every disc id (a set or a dict's keys)."""
     if "operating_speed" not in doc and "excitations" not in doc and "reference" not in doc:
         return None
     where = "operating data"
@@ -552,6 +616,23 @@ def _line_excitation(e: dict, name: str, ew: str, disc_ids) -> Excitation:
     return Excitation(name, at, parsed, lines=lines)
 
 
+@contextmanager
+def _collector_paused():
+    """Python's cyclic garbage collector paused while a train's elements are built.
+
+    Hundreds of thousands of new discs and links (no reference cycles among them) set off
+    collector passes that cost about a quarter of reading a long train; reference counting
+    still frees everything at once.  A collector paused by someone else stays paused."""
+    if not gc.isenabled():
+        yield
+        return
+    gc.disable()
+    try:
+        yield
+    finally:
+        gc.enable()
+
+
 def build_train(doc: dict, base_dir=None) -> Train:
     """Validate a project document and return the SI model (raises ModelError).
 
@@ -568,24 +649,35 @@ def build_train(doc: dict, base_dir=None) -> Train:
     raw_links = doc.get("links", [])
     if not isinstance(raw_links, list):
         raise ModelError("links must be a list", "train", "links")
-    discs = tuple(_disc(d, i) for i, d in enumerate(raw_discs))
-    links = tuple(_link(l, i) for i, l in enumerate(raw_links))
-    speed = check_topology(discs, links)
-    extreme = [d for d, f in speed.items() if not 1.0 / MAX_SPEED_FACTOR <= f <= MAX_SPEED_FACTOR]
-    if extreme:
+    with _collector_paused():
+        discs = _read_discs(raw_discs)
+        links, full = _read_links(raw_links)
+        speed = check_topology(discs, links)
+    factors = speed.values()
+    if not 1.0 / MAX_SPEED_FACTOR <= min(factors) <= max(factors) <= MAX_SPEED_FACTOR:
+        extreme = [d for d, f in speed.items() if not 1.0 / MAX_SPEED_FACTOR <= f <= MAX_SPEED_FACTOR]
         raise ModelError(f"turns {speed[extreme[0]]:.3g} times as fast as '{discs[0].id}' through the gear "
                          f"stages; more than {MAX_SPEED_FACTOR:g}:1 across a train leaves the model "
                          "numerically meaningless", f"disc '{extreme[0]}'", "links")
     # A disc without inertia is only allowed where something gives its node mass.
-    for d in discs:
-        if d.inertia == 0:
-            touching = [l for l in links if d.id in (l.from_id, l.to_id)]
-            if not any(l.mass != "none" or l.is_rigid for l in touching):
-                raise ModelError("zero inertia makes the model singular; give the disc an inertia "
-                                 "(or model an adjoining shaft's mass)", f"disc '{d.id}'", "inertia")
-    if sum(d.inertia for d in discs) + sum(l.own_inertia for l in links if l.mass != "none") <= 0:
+    massless = [d for d in discs if d.inertia == 0]
+    if massless:
+        ids = {d.id for d in massless}
+        touching = {}  # massless disc id -> links at it (one pass over the links)
+        for l in links:
+            if l.from_id in ids:
+                touching.setdefault(l.from_id, []).append(l)
+            if l.to_id in ids and l.to_id != l.from_id:
+                touching.setdefault(l.to_id, []).append(l)
+    for d in massless:
+        if not any(l.mass != "none" or l.is_rigid for l in touching.get(d.id, ())):
+            raise ModelError("zero inertia makes the model singular; give the disc an inertia "
+                             "(or model an adjoining shaft's mass)", f"disc '{d.id}'", "inertia")
+    # every inertia is >= 0, so the total is above zero as soon as one is
+    if not any(d.inertia > 0 for d in discs) \
+            and not any(l.own_inertia > 0 for l in links if l.mass != "none"):
         raise ModelError("the train has no inertia", "train", "discs")
-    operating = _operating(doc, set(speed), base_dir)
+    operating = _operating(doc, speed.keys(), base_dir)
     for e in operating.excitations if operating else ():
         for i, (cid, _) in enumerate(e.cylinders):
             if not math.isclose(speed[cid], speed[e.at], rel_tol=1e-9):
@@ -602,11 +694,14 @@ def build_train(doc: dict, base_dir=None) -> Train:
     train = Train(str(title) if title else "Untitled train", discs, links, operating, speed,
                   transients=transients, sn_curves=sn_curves,
                   design_options=_design_options(doc, discs, links))
-    return attach_ratings(doc, train)  # acceptance data and load cases (core.ratings)
+    # acceptance data and load cases (core.ratings); a plain link carries none
+    return attach_ratings(doc, train, links_to_read=full)
 
 
 def _transients(doc: dict, disc_ids, links, base_dir):
     """The ``"transients"`` events and ``"sn_curves"`` (see :mod:`core.events`)."""
+    if doc.get("transients") is None and doc.get("sn_curves") is None:
+        return (), ()
     from .events import parse_sn_curves, parse_transients
     link_ids = {l.id for l in links}
     return (parse_transients(doc, set(disc_ids), link_ids, base_dir),

@@ -265,22 +265,29 @@ def _has_ratings(obj) -> bool:
     return isinstance(segs, list) and any(isinstance(sg, dict) and "design_feature" in sg for sg in segs)
 
 
-def attach_ratings(doc: dict, train: Train) -> Train:
+def attach_ratings(doc: dict, train: Train, links_to_read=None) -> Train:
     """``train`` with each link's acceptance data and the project's load cases
-    (raises ModelError naming the element and the field)."""
+    (raises ModelError naming the element and the field).
+
+    ``links_to_read``: the indices (in file order) of the links that may carry acceptance
+    data, when the caller knows the others carry none (core.project reads most links of a
+    long train by a quick path that accepts no rating keys); None: every link."""
     raw_links = doc.get("links") or []
-    links = []
-    changed = False
-    for obj, link in zip(raw_links, train.links):
+    if links_to_read is None:
+        links_to_read = range(min(len(raw_links), len(train.links)))
+    links = None
+    for i in links_to_read:
+        obj, link = raw_links[i], train.links[i]
         if not _has_ratings(obj):  # the common case: nothing to read (a long train stays fast)
-            links.append(link)
             continue
         new, ratings = _link_ratings(obj, link)
         if ratings is not None:
             new = replace(new, ratings=ratings)
-        changed |= new is not link
-        links.append(new)
-    out = replace(train, links=tuple(links)) if changed else train
+        if new is not link:
+            if links is None:
+                links = list(train.links)
+            links[i] = new
+    out = replace(train, links=tuple(links)) if links is not None else train
     cases = parse_load_cases(doc.get("load_cases"), out)
     return replace(out, load_cases=cases) if cases else out
 

@@ -45,7 +45,8 @@ Speed: the number is read with ``float()`` and multiplied by a conversion
 factor cached per unit text (a few microseconds a value).  The factors of the
 common units come from a built-in table (each entry is checked against pint in
 the tests); pint is imported only when a unit name outside that table is first
-met, and then asked about that one name (never about an expression).
+met, and then asked about that one name (never about an expression).  Readers of
+long trains call :func:`quick_reader` once per kind and then one function per value.
 """
 from __future__ import annotations
 
@@ -688,6 +689,52 @@ def _fail(exc: _Refused, element, field):
 
 
 # ---------------------------------------------------------------- public reading
+def quick(value, kind: Kind) -> float | None:
+    """The SI float :func:`parse` gives for ``value`` in its common forms, or None.
+
+    The forms: a JSON number (int or float) within the magnitudes read, and text of a
+    number, one space and a unit text already read for this kind ("18.5 kg*m^2"),
+    giving a non-zero magnitude in range.  None means "not read here", never "wrong":
+    :func:`parse` then reads the value in full (and explains a refusal).  The per-value
+    cost is two dict lookups and ``float()``, for readers of long trains."""
+    return quick_reader(kind)(value)
+
+
+# per SI unit of a kind: quick() as a function of the value alone
+_readers: dict = {}
+
+
+def quick_reader(kind: Kind):
+    """``lambda value: quick(value, kind)``, made once per SI unit (a loop over the values
+    of a long train calls it without looking the kind up each time)."""
+    read = _readers.get(kind.si_unit)
+    if read is None:
+        read = _readers.setdefault(kind.si_unit, _make_reader(_ready.setdefault(kind.si_unit, {})))
+    return read
+
+
+def _make_reader(cache: dict):
+    def read(value) -> float | None:
+        if type(value) is str:
+            # split at the first space; float() reads exactly the number grammar on ASCII
+            # text without '_' (nan and inf fail the range test)
+            number, _sep, unit = value.partition(" ")
+            hit = cache.get(unit)
+            if hit is None or len(number) > 25 or not number.isascii() or "_" in number:
+                return None
+            try:
+                x = float(number) * hit[0] / hit[1] * hit[2]
+            except ValueError:
+                return None
+            return x if 0.0 < abs(x) <= MAX_MAGNITUDE else None  # zero: was it written as zero?
+        if type(value) is float:
+            return value if abs(value) <= MAX_MAGNITUDE else None  # NaN and inf fail the test
+        if type(value) is int and -_MAX_INT <= value <= _MAX_INT:
+            return float(value)
+        return None
+    return read
+
+
 def parse(value, kind: Kind, element: str | None = None, field: str | None = None) -> float:
     """Return ``value`` (text with a unit, or a bare number meaning SI) as an SI float.
 
@@ -696,39 +743,26 @@ def parse(value, kind: Kind, element: str | None = None, field: str | None = Non
     (with the reading probably meant), an unknown unit, a unit of the wrong kind, or a
     value that is not finite or outside the magnitudes read.
     """
+    x = (_readers.get(kind.si_unit) or quick_reader(kind))(value)
+    if x is not None:
+        return x
     if type(value) is str:
-        # fast paths: a number, then a unit text already read for this kind, and a magnitude
-        # in range; anything else takes the full reading below (which explains refusals).
-        # 1) "18.5 kg*m^2": split at the first space; float() reads exactly the number grammar
-        #    on ASCII text without '_' (nan and inf fail the range test)
+        # 2) "45mm", " 45 mm": the grammar's number by a regular expression, a unit text
+        #    already read for this kind and a magnitude in range; anything else takes the
+        #    full reading below (which explains refusals)
         cache = _ready.get(kind.si_unit)
-        if cache is not None:
-            number, _sep, unit = value.partition(" ")
-            hit = cache.get(unit)
-            if hit is not None and len(number) <= 25 and number.isascii() and "_" not in number:
-                try:
-                    x = float(number) * hit[0] / hit[1] * hit[2]
-                except ValueError:
-                    x = 0.0
-                if 0.0 < abs(x) <= MAX_MAGNITUDE:  # zero: was it written as zero?
-                    return x
-            # 2) "45mm", " 45 mm": the grammar's number by a regular expression
-            if len(value) <= MAX_TEXT:
-                m = _FAST.fullmatch(value)
-                if m is not None and len(m[1]) <= 25:
-                    hit = cache.get(m[2])
-                    if hit is not None:
-                        x = float(m[1]) * hit[0] / hit[1] * hit[2]
-                        if 0.0 < abs(x) <= MAX_MAGNITUDE:  # zero: was it written as zero?
-                            return x
+        if cache is not None and len(value) <= MAX_TEXT:
+            m = _FAST.fullmatch(value)
+            if m is not None and len(m[1]) <= 25:
+                hit = cache.get(m[2])
+                if hit is not None:
+                    x = float(m[1]) * hit[0] / hit[1] * hit[2]
+                    if 0.0 < abs(x) <= MAX_MAGNITUDE:  # zero: was it written as zero?
+                        return x
         try:
             return _read_quantity(value, kind)
         except _Refused as exc:
             _fail(exc, element, field)
-    if type(value) is float and abs(value) <= MAX_MAGNITUDE:  # NaN and inf fail the test
-        return value
-    if type(value) is int and -_MAX_INT <= value <= _MAX_INT:
-        return float(value)
     if isinstance(value, bool) or value is None:
         raise ModelError(f"expected {_a(kind.name)} such as '{kind.example}', got {value!r}",
                          element, field)
