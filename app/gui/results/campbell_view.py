@@ -135,6 +135,7 @@ class CampbellView(QtWidgets.QWidget):
         self._legend_key, self._legend_samples, self.line_items = None, [], []
         self._shown_modes = []
         self._line_pool = []
+        self._axis_labels, self._axis_ticks = {}, None  # as last set (see _set_axis_label)
         self._band_item = QtWidgets.QGraphicsPathItem()
         self._band_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
         self._band_item.setBrush(theme.brush(theme.MARGIN_BAND))
@@ -508,9 +509,12 @@ class CampbellView(QtWidgets.QWidget):
         y0, y1 = float(self._y(f_lo)), float(self._y(f_hi))
         self._window = (x_max, f_lo, f_hi)
         ref_name = s.train.name_of(op.reference)
-        p.setLabel("bottom", f"Reference speed, rpm ({ref_name})")
-        p.setLabel("left", "Frequency, Hz" + (" (log scale)" if self._log else ""))
-        p.getAxis("left").setTicks(self._log_ticks(f_lo, f_hi) if self._log else None)
+        self._set_axis_label("bottom", f"Reference speed, rpm ({ref_name})")
+        self._set_axis_label("left", "Frequency, Hz" + (" (log scale)" if self._log else ""))
+        ticks = self._log_ticks(f_lo, f_hi) if self._log else None
+        if ticks != self._axis_ticks:  # set again, the axis lays its text out again
+            self._axis_ticks = ticks
+            p.getAxis("left").setTicks(ticks)
         self.canvas.export_title = (f"{s.train.title}: interference diagram, margin "
                                     f"{fmt.percent(s.margin)} %")
         legend = []  # (kind, style key, text)
@@ -526,15 +530,20 @@ class CampbellView(QtWidgets.QWidget):
         # one path each; those above the window are reached by zooming out, and a note says so
         m = self.modes
         limit = s.cap_hz if s.cap_hz > 0 else f_hi
-        shown = [i for i in range(len(m)) if m.elastic[i] and 0 < m.frequency_hz[i] <= max(limit, f_hi)]
+        freqs = np.asarray(m.frequency_hz, float).tolist()
+        elastic = np.asarray(m.elastic, bool).tolist()  # a property computed on each access
+        numbers = np.asarray(m.number).tolist()
+        top = max(limit, f_hi)
+        shown = [i for i, f in enumerate(freqs) if elastic[i] and 0 < f <= top]
         self._shown_modes = shown
-        above = [i for i in shown if m.frequency_hz[i] > f_hi]
+        above = [i for i in shown if freqs[i] > f_hi]
         x_lo, x_hi = -0.1 * x_max, 3.0 * x_max
         bands, lines, strips = QtGui.QPainterPath(), QtGui.QPainterPath(), QtGui.QPainterPath()
         font = theme.font(theme.SMALL_POINT_SIZE)
+        font_key = font.key()
         tol = s.bands if getattr(s, "bands", None) is not None and s.modes is m else None
         for i in shown:
-            f = float(m.frequency_hz[i])
+            f = freqs[i]
             band = margin_band_hz(f, s.margin)
             if tol is not None and tol[i, 1] > tol[i, 0]:
                 # the separation is measured from the band edge nearest the excitation, so the
@@ -552,7 +561,7 @@ class CampbellView(QtWidgets.QWidget):
             lines.moveTo(x_lo, y)
             lines.lineTo(x_hi, y)
             if f <= f_hi:
-                self._add_label(f"mode {int(m.number[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f)
+                self._add_label(f"mode {int(numbers[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f, font_key)
         if above:
             self._add_label(self.above_note(above), theme.INK_MUTED, font, "above",
                             (self.above_note(above), self.above_note(above, short=True)))
@@ -591,19 +600,18 @@ class CampbellView(QtWidgets.QWidget):
             width = theme.BOLD_WIDTH if line.major else (MINOR_WIDTH if group in has_major else theme.LINE_WIDTH)
             font = plain if group in has_major and not line.major else bold
             if kind == "fixed":
-                pen = theme.pen(color, width, QtCore.Qt.DashDotLine)
-                item.setData([0.0, x_max], [line.fixed_hz, line.fixed_hz], pen=pen)
+                self._set_line(item, [0.0, x_max], [line.fixed_hz, line.fixed_hz], (color, width, "dashdot"))
                 self._add_label(f"{line.fixed_hz:g} Hz", color, font, "fixed", line.fixed_hz)
             elif kind == "order":
-                pen = theme.pen(color, width)
-                item.setData(xs_line, line.slope * RPM * xs_line, pen=pen)
+                self._set_line(item, xs_line, line.slope * RPM * xs_line, (color, width, "solid"))
                 self._add_label(f"{R.line_order_text(line)}×", color, font, "order", line.slope * RPM)
             else:  # f = |a + b N|: a V where it passes through zero, drawn point by point
-                pen = theme.pen(color, width)
                 xs, fs = line_curve(line, x_max)
-                item.setData(xs, np.maximum(fs, f_lo * 1e-3) if self._log else fs, pen=pen)
+                self._set_line(item, xs, np.maximum(fs, f_lo * 1e-3) if self._log else fs, (color, width, "solid"))
                 self._add_label(R.line_order_text(line), color, font, "line", line)
-            item.setToolTip(f"{line.label}: {R.line_words(line, s.train)}")
+            tip = f"{line.label}: {R.line_words(line, s.train)}"
+            if item.toolTip() != tip:
+                item.setToolTip(tip)
             item.setVisible(True)
             self.line_items.append((line, item))
             if group not in in_legend:
@@ -684,6 +692,25 @@ class CampbellView(QtWidgets.QWidget):
             else s.speed_max / RPM
         self.cursor.setValue(rpm)
 
+    @staticmethod
+    def _set_line(item, xs, ys, look) -> None:
+        """An excitation line's points and pen (``look``: colour, width, 'solid' | 'dashdot'), set
+        only where they changed: an edit of a stiffness moves the modes, not the excitations."""
+        xs, ys = np.asarray(xs, float), np.asarray(ys, float)
+        kept = getattr(item, "_drawn", None)
+        if kept is not None and kept[2] == look and kept[0].shape == xs.shape and kept[1].shape == ys.shape \
+                and np.array_equal(kept[0], xs) and np.array_equal(kept[1], ys):
+            return
+        item._drawn = (xs, ys, look)
+        color, width, style = look
+        pen = theme.pen(color, width, QtCore.Qt.DashDotLine) if style == "dashdot" else theme.pen(color, width)
+        item.setData(xs, ys, pen=pen)
+
+    def _set_axis_label(self, side: str, text: str) -> None:
+        if self._axis_labels.get(side) != text:  # set again, the axis lays its label out again
+            self._axis_labels[side] = text
+            self.plot.setLabel(side, text)
+
     def _line_item(self, k: int) -> pg.PlotDataItem:
         """Excitation line number k from the pool (adding plot items is the slow part of a redraw)."""
         while len(self._line_pool) <= k:
@@ -748,8 +775,9 @@ class CampbellView(QtWidgets.QWidget):
         return [major, minor]
 
     # ------------------------------------------------------------ labels
-    def _add_label(self, text, color, font, kind, value) -> None:
-        """A label from the pool (TextItems are costly to create; a redraw reuses them)."""
+    def _add_label(self, text, color, font, kind, value, font_key=None) -> None:
+        """A label from the pool (TextItems are costly to create; a redraw reuses them).
+        ``font_key``: ``font.key()`` where the caller has it (hundreds of labels per redraw)."""
         if self._n_labels == len(self._label_pool):
             item = pg.TextItem("", fill=theme.brush((255, 255, 255, 215)))
             item.textItem.document().setDocumentMargin(1.5)  # a tight box: more labels find room
@@ -760,7 +788,7 @@ class CampbellView(QtWidgets.QWidget):
         self._n_labels += 1
         if item.toolTip():
             item.setToolTip("")
-        look = (text, color, font.key())
+        look = (text, color, font_key if font_key is not None else font.key())
         if getattr(item, "_look", None) != look:  # set again, a TextItem lays its text out anew
             item._look = look
             item.setText(text, color=theme.qcolor(color))
@@ -879,13 +907,18 @@ class CampbellView(QtWidgets.QWidget):
                                      soft=rings)
 
         def put(n, spot):
+            # each call only where it changes something: hundreds of labels per redraw
             item = self._labels[n][0]
             if spot is None:
-                item.setVisible(False)
+                if item.isVisible():
+                    item.setVisible(False)
                 return
             x, y, ax, ay = spot
-            item.setVisible(True)
-            item.setAnchor((ax, ay))
+            if not item.isVisible():
+                item.setVisible(True)
+            a = item.anchor
+            if a[0] != ax or a[1] != ay:
+                item.setAnchor((ax, ay))
             item.setPos(vx0 + x / sx, vy1 - y / sy)
 
         for owner, spot in zip(owners, chosen):
