@@ -422,7 +422,7 @@ class CampbellView(QtWidgets.QWidget):
         if not self._log:
             return f
         if isinstance(f, float):  # the label placement asks one value at a time
-            return math.log10(max(f, 1e-12))
+            return math.log10(1e-12 if f < 1e-12 else f)  # max(f, 1e-12) without a call
         return np.log10(np.maximum(f, 1e-12))
 
     def _y_inv(self, y: float) -> float:
@@ -446,7 +446,8 @@ class CampbellView(QtWidgets.QWidget):
 
     def _modes_in_window(self, top: float) -> list[float]:
         m = self.modes
-        return [float(f) for i, f in enumerate(m.frequency_hz) if m.elastic[i] and 0 < f <= top]
+        f = np.asarray(m.frequency_hz, float)
+        return f[np.asarray(m.elastic, bool) & (f > 0) & (f <= top)].tolist()
 
     def _frequency_window(self):
         """(lowest, highest) frequency of the plot window in Hz (see window_top_hz)."""
@@ -832,9 +833,10 @@ class CampbellView(QtWidgets.QWidget):
             br = item.textItem.boundingRect()
             sizes.append((br.width(), br.height()))
         mode_ys = {}
+        y_of = self._y
         for n, (item, kind, value) in enumerate(self._labels):
             if kind == "mode":
-                y = px(0, value)[1]
+                y = (vy1 - y_of(value)) * sy
                 if -sizes[n][1] < y < h + sizes[n][1]:
                     mode_ys[n] = y
         stacks = stack_close_labels(mode_ys, sizes, gap=STACK_GAP) if not crowded else []
