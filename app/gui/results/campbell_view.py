@@ -136,6 +136,7 @@ class CampbellView(QtWidgets.QWidget):
         self._shown_modes = []
         self._line_pool = []
         self._axis_labels, self._axis_ticks = {}, None  # as last set (see _set_axis_label)
+        self._drawing = False  # _draw is on its way: the labels are placed at its end
         self._band_item = QtWidgets.QGraphicsPathItem()
         self._band_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
         self._band_item.setBrush(theme.brush(theme.MARGIN_BAND))
@@ -485,7 +486,17 @@ class CampbellView(QtWidgets.QWidget):
     def _draw(self) -> None:
         """Redraw the diagram.  Built for live editing of long trains: all margin
         bands are one path item and all natural-frequency lines another, labels
-        come from a pool, and the legend is rebuilt only when its entries change."""
+        come from a pool, and the legend is rebuilt only when its entries change.
+        The labels are placed once, at the end (a new range set on the way would
+        place them for it first)."""
+        self._drawing = True
+        try:
+            self._draw_items()
+        finally:
+            self._drawing = False
+        self._layout_labels()
+
+    def _draw_items(self) -> None:
         s = self.screening
         p = self.plot
         self._draw_pending = False
@@ -666,7 +677,6 @@ class CampbellView(QtWidgets.QWidget):
         # the new ranges' transform now, not at the first paint: set there, it moves every
         # label and asks for a second layout and paint pass (8 ms at 200 discs)
         p.vb.updateMatrix()
-        self._layout_labels()
 
     def above_note(self, above: list[int], short: bool = False) -> str:
         """Note for the screened modes above the window (indices into modes); ``short``:
@@ -790,10 +800,16 @@ class CampbellView(QtWidgets.QWidget):
         if item.toolTip():
             item.setToolTip("")
         look = (text, color, font_key if font_key is not None else font.key())
-        if getattr(item, "_look", None) != look:  # set again, a TextItem lays its text out anew
+        old = getattr(item, "_look", None)
+        if old != look:  # set again, a TextItem lays its text out anew: only what changed
             item._look = look
-            item.setText(text, color=theme.qcolor(color))
-            item.setFont(font)
+            if old is None or old[1] != color:
+                item.setColor(theme.qcolor(color))
+            if old is None or old[2] != look[2]:
+                item.textItem.setFont(font)
+            if old is None or old[0] != text:
+                item.textItem.setPlainText(text)
+            item.updateTextPos()
         self._labels.append((item, kind, value))
 
     def _cursor_label_box(self, w, h, vx0, sx):
@@ -808,6 +824,8 @@ class CampbellView(QtWidgets.QWidget):
         overlap (recomputed when the plot is resized or zoomed).  Labels of mode
         lines too close for a label each at one place are stacked in frequency
         order (the highest on top, each next to its own line where there is room)."""
+        if self._drawing:
+            return  # a range set by _draw: it places the labels when done
         if self.screening is None or not self._labels:
             self.above_bar.hide()
             return

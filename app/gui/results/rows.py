@@ -74,24 +74,29 @@ def frequency_rows(modes, above_limit=None, screened: bool = False) -> list[Row]
     disc_ids, link_ids = list(modes.disc_ids), list(modes.link_ids)
     n = len(modes)
     above_limit = np.zeros(n, bool) if above_limit is None else np.asarray(above_limit, bool)
+    # plain lists: a numpy scalar read per row and column costs more than the row's text
     if link_ids:
         strain = np.asarray(modes.strain_share)
-        top_link, top_strain = np.argmax(strain, axis=1), strain.max(axis=1)
+        top_link, top_strain = np.argmax(strain, axis=1).tolist(), strain.max(axis=1).tolist()
     if disc_ids:
         kinetic = np.asarray(modes.kinetic_share)
-        top_disc, top_kinetic = np.argmax(kinetic, axis=1), kinetic.max(axis=1)
+        top_disc, top_kinetic = np.argmax(kinetic, axis=1).tolist(), kinetic.max(axis=1).tolist()
+    freqs = np.asarray(modes.frequency_hz, float).tolist()
+    rigids = np.asarray(modes.rigid_body, bool).tolist()
+    numbers = np.asarray(modes.number).tolist()
+    above_limit = above_limit.tolist()
     for i in range(n):
-        f = float(modes.frequency_hz[i])
-        rigid = bool(modes.rigid_body[i])
+        f = freqs[i]
+        rigid = rigids[i]
         if rigid or not link_ids:
             strain_text = "—"
         else:
-            strain_text = fmt.share(train.name_of(link_ids[int(top_link[i])]), float(top_strain[i]))
-        di = disc_ids[int(top_disc[i])] if disc_ids else None
+            strain_text = fmt.share(train.name_of(link_ids[top_link[i]]), float(top_strain[i]))
+        di = disc_ids[top_disc[i]] if disc_ids else None
         kinetic_text = fmt.share(train.name_of(di), float(top_kinetic[i])) if disc_ids else "—"
         above = bool(above_limit[i]) and not rigid
         tip = ("Rigid-body mode: the whole train turns as one; not screened." if rigid else
-               f"Mode {int(modes.number[i])}: {fmt.hz(f)} Hz = {fmt.cpm(f)} cycles per minute.")
+               f"Mode {int(numbers[i])}: {fmt.hz(f)} Hz = {fmt.cpm(f)} cycles per minute.")
         if disc_ids:
             tip += f" Largest kinetic energy in {train.name_of(di)}."
         if above:
@@ -103,7 +108,7 @@ def frequency_rows(modes, above_limit=None, screened: bool = False) -> list[Row]
             screening = NOT_SCREENED_RIGID
         else:
             screening = ABOVE_LIMIT if above else SCREENED
-        rows.append(Row([mode_label(modes, i), fmt.hz(f), fmt.cpm(f), "yes" if rigid else "",
+        rows.append(Row([f"{int(numbers[i])}", fmt.hz(f), fmt.cpm(f), "yes" if rigid else "",  # mode_label
                          strain_text, kinetic_text, screening], tip,
                         "muted" if (rigid or above) else None, i))
     return rows
