@@ -83,6 +83,59 @@ def _line_end(slope_hz_per_rpm: float, x_max: float, y_max: float):
     return y_max / slope_hz_per_rpm, y_max, True
 
 
+#: the empty space around a label's text, px (a tight box: more labels find room)
+LABEL_MARGIN = 1.5
+
+
+class _LabelSizer:
+    """The size (px) a pooled label's text box takes, without setting the text on a label:
+    a long train's mode labels change their digits on every edit, and most of them find no
+    room (they stay hidden), so their text is set only when one is shown.
+
+    A plain (ASCII) text is measured from the font's advance, once a probe label of the
+    same make has confirmed that this gives exactly its box for the font (else, and for any
+    other text, the probe's own box is used)."""
+
+    def __init__(self):
+        self._probe = None
+        self._fonts = {}  # font key -> (extra width, height) when the advance is exact, else None
+        self._sizes = {}  # (text, font key) -> (w, h)
+
+    def _probe_size(self, text: str, font) -> tuple[float, float]:
+        if self._probe is None:
+            self._probe = QtWidgets.QGraphicsTextItem()
+            self._probe.document().setDocumentMargin(LABEL_MARGIN)
+        probe = self._probe
+        if probe.font() != font:
+            probe.setFont(font)
+        probe.setPlainText(text)
+        br = probe.boundingRect()
+        return float(br.width()), float(br.height())
+
+    def size(self, text: str, font, font_key) -> tuple[float, float]:
+        key = (text, font_key)
+        got = self._sizes.get(key)
+        if got is not None:
+            return got
+        if font_key not in self._fonts:
+            fm = QtGui.QFontMetricsF(font)
+            samples = [self._probe_size(t, font) + (fm.horizontalAdvance(t),)
+                       for t in ("mode 1: 1.11 Hz", "mode 197: 2456.70 Hz", "mode 38: 48.09 Hz")]
+            extra, height = samples[0][0] - samples[0][2], samples[0][1]
+            exact = all(w - adv == extra and h == height for w, h, adv in samples)
+            self._fonts[font_key] = (extra, height, fm) if exact else None
+        fast = self._fonts[font_key]
+        if fast is not None and text.isascii():
+            extra, height, fm = fast
+            got = (fm.horizontalAdvance(text) + extra, height)
+        else:
+            got = self._probe_size(text, font)
+        if len(self._sizes) > 20000:  # texts of old models
+            self._sizes.clear()
+        self._sizes[key] = got
+        return got
+
+
 class CampbellView(QtWidgets.QWidget):
     """Diagram above; the coincidence table and the cursor read-out below it."""
 
@@ -137,6 +190,7 @@ class CampbellView(QtWidgets.QWidget):
         self._line_pool = []
         self._axis_labels, self._axis_ticks = {}, None  # as last set (see _set_axis_label)
         self._drawing = False  # _draw is on its way: the labels are placed at its end
+        self._sizer = _LabelSizer()
         self._band_item = QtWidgets.QGraphicsPathItem()
         self._band_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
         self._band_item.setBrush(theme.brush(theme.MARGIN_BAND))
@@ -573,7 +627,8 @@ class CampbellView(QtWidgets.QWidget):
             lines.moveTo(x_lo, y)
             lines.lineTo(x_hi, y)
             if f <= f_hi:
-                self._add_label(f"mode {int(numbers[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f, font_key)
+                self._add_label(f"mode {int(numbers[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f, font_key,
+                                lazy=True)
         if above:
             self._add_label(self.above_note(above), theme.INK_MUTED, font, "above",
                             (self.above_note(above), self.above_note(above, short=True)))
@@ -786,12 +841,14 @@ class CampbellView(QtWidgets.QWidget):
         return [major, minor]
 
     # ------------------------------------------------------------ labels
-    def _add_label(self, text, color, font, kind, value, font_key=None) -> None:
+    def _add_label(self, text, color, font, kind, value, font_key=None, lazy: bool = False) -> None:
         """A label from the pool (TextItems are costly to create; a redraw reuses them).
-        ``font_key``: ``font.key()`` where the caller has it (hundreds of labels per redraw)."""
+        ``font_key``: ``font.key()`` where the caller has it (hundreds of labels per redraw).
+        ``lazy``: the text is set when the label is shown (placed); meanwhile its box is
+        measured (a long train's mode labels: most are hidden, see _LabelSizer)."""
         if self._n_labels == len(self._label_pool):
             item = pg.TextItem("", fill=theme.brush((255, 255, 255, 215)))
-            item.textItem.document().setDocumentMargin(1.5)  # a tight box: more labels find room
+            item.textItem.document().setDocumentMargin(LABEL_MARGIN)  # a tight box: more labels find room
             item.setZValue(30)
             self.plot.addItem(item, ignoreBounds=True)
             self._label_pool.append(item)
@@ -799,18 +856,39 @@ class CampbellView(QtWidgets.QWidget):
         self._n_labels += 1
         if item.toolTip():
             item.setToolTip("")
-        look = (text, color, font_key if font_key is not None else font.key())
-        old = getattr(item, "_look", None)
-        if old != look:  # set again, a TextItem lays its text out anew: only what changed
-            item._look = look
-            if old is None or old[1] != color:
-                item.setColor(theme.qcolor(color))
-            if old is None or old[2] != look[2]:
-                item.textItem.setFont(font)
-            if old is None or old[0] != text:
-                item.textItem.setPlainText(text)
-            item.updateTextPos()
+        look = (text, color, font_key if font_key is not None else font.key(), font)
+        if lazy and getattr(item, "_look", None) != look:
+            item._want = look
+            item._want_size = self._sizer.size(text, font, look[2])
+        else:
+            item._want = None
+            self._apply_look(item, look)
         self._labels.append((item, kind, value))
+
+    @staticmethod
+    def _apply_look(item, look) -> None:
+        """Text, colour and font of a pooled label; each set only when it changes (set again,
+        a TextItem lays its text out anew)."""
+        old = getattr(item, "_look", None)
+        if old == look:
+            return
+        text, color, key, font = look
+        item._look = look
+        if old is None or old[1] != color:
+            item.setColor(theme.qcolor(color))
+        if old is None or old[2] != key:
+            item.textItem.setFont(font)
+        if old is None or old[0] != text:
+            item.textItem.setPlainText(text)
+        item.updateTextPos()
+
+    @staticmethod
+    def _label_size(item) -> tuple[float, float]:
+        """The box of a label's text (px): of the text it shows, or of the one it waits to show."""
+        if getattr(item, "_want", None) is not None:
+            return item._want_size
+        br = item.textItem.boundingRect()
+        return br.width(), br.height()
 
     def _cursor_label_box(self, w, h, vx0, sx):
         """Pixel box of the speed cursor's own label (bottom, right of the line)."""
@@ -848,8 +926,7 @@ class CampbellView(QtWidgets.QWidget):
         for item, kind, value in self._labels:
             if kind == "above" and item.textItem.toPlainText() != value[0]:
                 item.setText(value[0])  # the whole note first; shortened below if it finds no room
-            br = item.textItem.boundingRect()
-            sizes.append((br.width(), br.height()))
+            sizes.append(self._label_size(item))
         mode_ys = {}
         y_of = self._y
         for n, (item, kind, value) in enumerate(self._labels):
@@ -934,6 +1011,9 @@ class CampbellView(QtWidgets.QWidget):
                     item.setVisible(False)
                 return
             x, y, ax, ay = spot
+            if item._want is not None:  # its text, set now that it shows
+                self._apply_look(item, item._want)
+                item._want = None
             if not item.isVisible():
                 item.setVisible(True)
             a = item.anchor
