@@ -630,8 +630,9 @@ class CampbellView(QtWidgets.QWidget):
                 self._add_label(f"mode {int(numbers[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f, font_key,
                                 lazy=True)
         if above:
-            self._add_label(self.above_note(above), theme.INK_MUTED, font, "above",
-                            (self.above_note(above), self.above_note(above, short=True)))
+            note = self.above_note(above)
+            self._add_label(note, theme.INK_MUTED, font, "above", (note, self.above_note(above, short=True)),
+                            font_key, lazy=True)
             self._labels[-1][0].setToolTip(self.above_tip(above))
         self._band_item.setPath(bands)
         self._tol_item.setPath(strips)
@@ -882,6 +883,16 @@ class CampbellView(QtWidgets.QWidget):
             item.textItem.setPlainText(text)
         item.updateTextPos()
 
+    def _want_text(self, item, text: str) -> None:
+        """A label to show ``text`` (its look otherwise the same) when it is next shown."""
+        applied = getattr(item, "_look", None)
+        look = item._want if item._want is not None else applied
+        new = (text,) + tuple(look[1:])
+        if applied == new:
+            item._want = None
+        else:
+            item._want, item._want_size = new, self._sizer.size(text, new[3], new[2])
+
     @staticmethod
     def _label_size(item) -> tuple[float, float]:
         """The box of a label's text (px): of the text it shows, or of the one it waits to show."""
@@ -924,8 +935,8 @@ class CampbellView(QtWidgets.QWidget):
         requests, owners = [], []  # owners: label index, or [(label index, dy), ...] of a stack
         sizes = []
         for item, kind, value in self._labels:
-            if kind == "above" and item.textItem.toPlainText() != value[0]:
-                item.setText(value[0])  # the whole note first; shortened below if it finds no room
+            if kind == "above":
+                self._want_text(item, value[0])  # the whole note first; shortened below if it finds no room
             sizes.append(self._label_size(item))
         mode_ys = {}
         y_of = self._y
@@ -1033,10 +1044,10 @@ class CampbellView(QtWidgets.QWidget):
             if spot is not None or not isinstance(owner, int) or self._labels[owner][1] != "above":
                 continue
             item, _kind, value = self._labels[owner]
-            item.setText(value[1])
-            br = item.textItem.boundingRect()
+            self._want_text(item, value[1])
+            tw, th = self._label_size(item)
             placed = [box(c, requests[j][0], requests[j][1]) for j, c in enumerate(chosen) if c is not None]
-            again = place_labels([(br.width(), br.height(), requests[k][2][-1])], w, h,
+            again = place_labels([(tw, th, requests[k][2][-1])], w, h,
                                  blocked=placed + [self._cursor_label_box(w, h, vx0, sx)])
             put(owner, again[0])
         # no room at all in a crowded plot: the note goes beside the controls above it
