@@ -869,7 +869,8 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
                 self._fallback.start()
             else:
                 self._start_job(key)
-            self._clear_chart()
+            # the chart's page gives way to the message; its items are cleared when the window
+            # comes and is drawn (clearing a long train's chart costs a live edit milliseconds)
             self._say(f"Computing the values of {self._entry_text(e)} that clear every excitation…")
             self._show_verdicts(hold=True)
             self.range_model.set_rows([])
