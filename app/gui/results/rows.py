@@ -42,10 +42,20 @@ class Row:
     """One table row: display texts, plus what the views need beside the text."""
 
     cells: list
-    tooltip: str = ""
+    tip: object = ""  # the tooltip, or a function that writes it when it is first read
     status: str | None = None  # "pass" | "fail" | "muted" | None: colours the row
     key: object = None  # e.g. the mode index this row selects
     extra: dict = field(default_factory=dict)
+
+    @property
+    def tooltip(self) -> str:
+        """The row's tooltip (written on first reading where ``tip`` is a function: a long
+        train's hundreds of coincidence rows are made again on every live edit, their tips
+        read on hovering one)."""
+        tip = self.tip
+        if callable(tip):
+            tip = self.tip = tip()
+        return tip
 
 
 def name_of(train, element_id: str | None) -> str:
@@ -181,16 +191,21 @@ def coincidence_rows(screening, modes=None) -> list[Row]:
         if where is None:
             where = words[id(c.line)] = line_words(c.line, screening.train)
         band_margin = None if c.separation_band is None else fmt.percent(c.separation_band)
-        tip = (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
-               f"smallest separation {fmt.percent(c.separation)} % over the operating range "
-               f"at {fmt.rpm(c.worst_speed)} rpm"
-               + (f"; {band_margin} % from the nearest edge of the mode's tolerance band, which the "
-                  "status follows" if band_margin is not None else "")
-               + f" (required {fmt.percent(screening.margin)} %). Click to show this mode.")
         rows.append(Row([str(c.mode), fmt.hz(c.frequency_hz), c.source, line_order_text(c.line),
                          fmt.percent(c.separation), band_margin or "—", c.status.upper(),
-                         fmt.rpm(c.crossing_speed), band_text(c.band)], tip, c.status, idx, {"coincidence": c}))
+                         fmt.rpm(c.crossing_speed), band_text(c.band)],
+                        functools.partial(_coincidence_tip, c, where, band_margin, screening.margin),
+                        c.status, idx, {"coincidence": c}))
     return rows
+
+
+def _coincidence_tip(c, where: str, band_margin: str | None, margin: float) -> str:
+    return (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
+            f"smallest separation {fmt.percent(c.separation)} % over the operating range "
+            f"at {fmt.rpm(c.worst_speed)} rpm"
+            + (f"; {band_margin} % from the nearest edge of the mode's tolerance band, which the "
+               "status follows" if band_margin is not None else "")
+            + f" (required {fmt.percent(margin)} %). Click to show this mode.")
 
 
 def cursor_rows(nearest: list[dict], margin: float, train=None) -> list[Row]:
