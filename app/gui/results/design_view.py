@@ -769,6 +769,10 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
             return
         self.designValueChosen.emit(w.element, w.quantity, float(self._tried))
 
+    def stop(self) -> None:
+        """No more windows computed here (the window is closing): one still queued is dropped."""
+        self._queued_job = None
+
     def wait(self, msecs: int = 10000) -> bool:
         """Wait for a window computed here (tests, exports, closing); one still queued starts now."""
         self._start_queued_job()
