@@ -37,25 +37,43 @@ CURSOR_HEADERS = ("Excitation", "Order / line", "Excitation Hz", "Nearest mode",
                   "Separation %")
 
 
+class LazyText:
+    """A text written when it is first read (``write(*inputs)``), equal to another made by the
+    same function from equal inputs: a long train's hundreds of coincidence rows are made
+    again on every live edit, and their tooltips are read only on hovering one."""
+
+    __slots__ = ("write", "inputs", "_text")
+
+    def __init__(self, write, *inputs):
+        self.write, self.inputs, self._text = write, inputs, None
+
+    def text(self) -> str:
+        if self._text is None:
+            self._text = self.write(*self.inputs)
+        return self._text
+
+    def __eq__(self, other) -> bool:
+        if isinstance(other, LazyText):
+            return self.write is other.write and self.inputs == other.inputs
+        return isinstance(other, str) and self.text() == other
+
+    __hash__ = None
+
+
 @dataclass
 class Row:
     """One table row: display texts, plus what the views need beside the text."""
 
     cells: list
-    tip: object = ""  # the tooltip, or a function that writes it when it is first read
+    tip: object = ""  # the tooltip: a str, or a LazyText written when first read
     status: str | None = None  # "pass" | "fail" | "muted" | None: colours the row
     key: object = None  # e.g. the mode index this row selects
     extra: dict = field(default_factory=dict)
 
     @property
     def tooltip(self) -> str:
-        """The row's tooltip (written on first reading where ``tip`` is a function: a long
-        train's hundreds of coincidence rows are made again on every live edit, their tips
-        read on hovering one)."""
         tip = self.tip
-        if callable(tip):
-            tip = self.tip = tip()
-        return tip
+        return tip.text() if isinstance(tip, LazyText) else tip
 
 
 def name_of(train, element_id: str | None) -> str:
@@ -194,15 +212,17 @@ def coincidence_rows(screening, modes=None) -> list[Row]:
         rows.append(Row([str(c.mode), fmt.hz(c.frequency_hz), c.source, line_order_text(c.line),
                          fmt.percent(c.separation), band_margin or "—", c.status.upper(),
                          fmt.rpm(c.crossing_speed), band_text(c.band)],
-                        functools.partial(_coincidence_tip, c, where, band_margin, screening.margin),
+                        LazyText(_coincidence_tip, c.mode, c.frequency_hz, c.source, where, c.separation,
+                                 c.worst_speed, band_margin, screening.margin),
                         c.status, idx, {"coincidence": c}))
     return rows
 
 
-def _coincidence_tip(c, where: str, band_margin: str | None, margin: float) -> str:
-    return (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
-            f"smallest separation {fmt.percent(c.separation)} % over the operating range "
-            f"at {fmt.rpm(c.worst_speed)} rpm"
+def _coincidence_tip(mode, frequency_hz, source, where: str, separation, worst_speed,
+                     band_margin: str | None, margin: float) -> str:
+    return (f"Mode {mode} ({fmt.hz(frequency_hz)} Hz) against {source}, {where}: "
+            f"smallest separation {fmt.percent(separation)} % over the operating range "
+            f"at {fmt.rpm(worst_speed)} rpm"
             + (f"; {band_margin} % from the nearest edge of the mode's tolerance band, which the "
                "status follows" if band_margin is not None else "")
             + f" (required {fmt.percent(margin)} %). Click to show this mode.")
