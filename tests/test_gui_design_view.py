@@ -133,6 +133,18 @@ def test_two_disc_window_edges_are_the_closed_form(panel, qtbot):
     assert wj.admissible[1][0] == pytest.approx(j_large, rel=1e-8)
 
 
+def test_a_window_computed_here_starts_after_the_redraw(panel, qtbot):
+    """The view's own window job waits until what it shows now is painted (a worker running
+    Python beside the redraw would slow it through the interpreter lock), and a newer choice
+    replaces a job still waiting."""
+    dv = _show(panel, _study(two_disc_doc()))
+    dv.select_element("a", "inertia")
+    assert "Computing" in dv.message.text() and not dv._running  # queued, not started
+    dv.select_element("b", "inertia")  # chosen before the first job started: only this one runs
+    qtbot.waitUntil(lambda: dv.window() is not None, timeout=10000)
+    assert dv.window().element == "b" and "a" not in {e for e, _q in dv._own}
+
+
 def test_two_disc_sensitivities_are_the_closed_form(panel):
     dv = _show(panel, _study(two_disc_doc()))
     bars = {(q, e): v for q, e, v in dv.sensitivity_bars()}

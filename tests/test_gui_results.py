@@ -436,6 +436,27 @@ def test_staged_labels_keep_first_choices_and_soft_boxes_give_way():
     assert place_labels_staged([(40, 12, [[end]])], 200, 100, blocked=[ring]) == [None]
 
 
+def test_a_mode_labels_box_is_measured_exactly_before_its_text_is_set(qtbot):
+    """The interference diagram places a long train's mode labels from their measured boxes
+    and sets the text only on the labels shown: the measure must be the box the label then
+    has, or labels would overlap or hide for nothing (the label itself is the reference)."""
+    import pyqtgraph as pg
+
+    from app.gui import theme
+    from app.gui.results.campbell_view import LABEL_MARGIN, _LabelSizer
+    sizer = _LabelSizer()
+    label = pg.TextItem("")
+    label.textItem.document().setDocumentMargin(LABEL_MARGIN)
+    texts = ["mode 1: 0.012 Hz", "mode 23: 1.50 Hz", "mode 197: 12345.6 Hz", "mode 4: 88.88 Hz",
+             "↑ modes 192–196 (454.78–511.44 Hz)", "mode 7: 7.07 Hz"]
+    for font in (theme.font(theme.SMALL_POINT_SIZE), theme.font(theme.SMALL_POINT_SIZE, bold=True)):
+        label.setFont(font)
+        for text in texts:
+            label.setText(text)
+            br = label.textItem.boundingRect()
+            assert sizer.size(text, font, font.key()) == (br.width(), br.height()), text
+
+
 # ------------------------------------------------------------ look (rendered offscreen)
 def test_every_view_renders(panel, solved):
     train, modes, s = solved

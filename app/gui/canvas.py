@@ -584,15 +584,20 @@ class TrainCanvas(QtWidgets.QGraphicsView):
     def set_mode_shape(self, amplitudes: dict | None) -> None:
         """Colour each disc by its twist amplitude in the selected mode
         (blue positive, vermilion negative, white at a node); None: plain."""
+        if amplitudes == self._shape:
+            return  # the same colours (the view refresh and the new results both ask)
         self._shape = amplitudes
         self._apply_shape()
 
-    def _apply_shape(self, _redrawn=()):
-        """Fill each disc with its mode colour; a brush is set only where the colour changes."""
+    def _apply_shape(self, redrawn=None):
+        """Fill each disc with its mode colour; a brush is set only where the colour changes.
+        ``redrawn``: only these element keys were drawn anew (the others keep their fill)."""
         pos, neg = (theme.qcolor(theme.SERIES[k]).getRgb()[:3] for k in (0, 1))
         shape = self._shape
         shown = self._shown_fill
-        for key, item in self._items.items():
+        items = self._items.items() if redrawn is None else \
+            [(k, self._items[k]) for k in redrawn if k in self._items]
+        for key, item in items:
             if key[0] != "disc":
                 continue
             if not shape or key[1] not in shape:

@@ -83,6 +83,59 @@ def _line_end(slope_hz_per_rpm: float, x_max: float, y_max: float):
     return y_max / slope_hz_per_rpm, y_max, True
 
 
+#: the empty space around a label's text, px (a tight box: more labels find room)
+LABEL_MARGIN = 1.5
+
+
+class _LabelSizer:
+    """The size (px) a pooled label's text box takes, without setting the text on a label:
+    a long train's mode labels change their digits on every edit, and most of them find no
+    room (they stay hidden), so their text is set only when one is shown.
+
+    A plain (ASCII) text is measured from the font's advance, once a probe label of the
+    same make has confirmed that this gives exactly its box for the font (else, and for any
+    other text, the probe's own box is used)."""
+
+    def __init__(self):
+        self._probe = None
+        self._fonts = {}  # font key -> (extra width, height) when the advance is exact, else None
+        self._sizes = {}  # (text, font key) -> (w, h)
+
+    def _probe_size(self, text: str, font) -> tuple[float, float]:
+        if self._probe is None:
+            self._probe = QtWidgets.QGraphicsTextItem()
+            self._probe.document().setDocumentMargin(LABEL_MARGIN)
+        probe = self._probe
+        if probe.font() != font:
+            probe.setFont(font)
+        probe.setPlainText(text)
+        br = probe.boundingRect()
+        return float(br.width()), float(br.height())
+
+    def size(self, text: str, font, font_key) -> tuple[float, float]:
+        key = (text, font_key)
+        got = self._sizes.get(key)
+        if got is not None:
+            return got
+        if font_key not in self._fonts:
+            fm = QtGui.QFontMetricsF(font)
+            samples = [self._probe_size(t, font) + (fm.horizontalAdvance(t),)
+                       for t in ("mode 1: 1.11 Hz", "mode 197: 2456.70 Hz", "mode 38: 48.09 Hz")]
+            extra, height = samples[0][0] - samples[0][2], samples[0][1]
+            exact = all(w - adv == extra and h == height for w, h, adv in samples)
+            self._fonts[font_key] = (extra, height, fm) if exact else None
+        fast = self._fonts[font_key]
+        if fast is not None and text.isascii():
+            extra, height, fm = fast
+            got = (fm.horizontalAdvance(text) + extra, height)
+        else:
+            got = self._probe_size(text, font)
+        if len(self._sizes) > 20000:  # texts of old models
+            self._sizes.clear()
+        self._sizes[key] = got
+        return got
+
+
 class CampbellView(QtWidgets.QWidget):
     """Diagram above; the coincidence table and the cursor read-out below it."""
 
@@ -135,6 +188,9 @@ class CampbellView(QtWidgets.QWidget):
         self._legend_key, self._legend_samples, self.line_items = None, [], []
         self._shown_modes = []
         self._line_pool = []
+        self._axis_labels, self._axis_ticks = {}, None  # as last set (see _set_axis_label)
+        self._drawing = False  # _draw is on its way: the labels are placed at its end
+        self._sizer = _LabelSizer()
         self._band_item = QtWidgets.QGraphicsPathItem()
         self._band_item.setPen(QtGui.QPen(QtCore.Qt.NoPen))
         self._band_item.setBrush(theme.brush(theme.MARGIN_BAND))
@@ -421,7 +477,7 @@ class CampbellView(QtWidgets.QWidget):
         if not self._log:
             return f
         if isinstance(f, float):  # the label placement asks one value at a time
-            return math.log10(max(f, 1e-12))
+            return math.log10(1e-12 if f < 1e-12 else f)  # max(f, 1e-12) without a call
         return np.log10(np.maximum(f, 1e-12))
 
     def _y_inv(self, y: float) -> float:
@@ -445,7 +501,8 @@ class CampbellView(QtWidgets.QWidget):
 
     def _modes_in_window(self, top: float) -> list[float]:
         m = self.modes
-        return [float(f) for i, f in enumerate(m.frequency_hz) if m.elastic[i] and 0 < f <= top]
+        f = np.asarray(m.frequency_hz, float)
+        return f[np.asarray(m.elastic, bool) & (f > 0) & (f <= top)].tolist()
 
     def _frequency_window(self):
         """(lowest, highest) frequency of the plot window in Hz (see window_top_hz)."""
@@ -483,7 +540,17 @@ class CampbellView(QtWidgets.QWidget):
     def _draw(self) -> None:
         """Redraw the diagram.  Built for live editing of long trains: all margin
         bands are one path item and all natural-frequency lines another, labels
-        come from a pool, and the legend is rebuilt only when its entries change."""
+        come from a pool, and the legend is rebuilt only when its entries change.
+        The labels are placed once, at the end (a new range set on the way would
+        place them for it first)."""
+        self._drawing = True
+        try:
+            self._draw_items()
+        finally:
+            self._drawing = False
+        self._layout_labels()
+
+    def _draw_items(self) -> None:
         s = self.screening
         p = self.plot
         self._draw_pending = False
@@ -508,9 +575,12 @@ class CampbellView(QtWidgets.QWidget):
         y0, y1 = float(self._y(f_lo)), float(self._y(f_hi))
         self._window = (x_max, f_lo, f_hi)
         ref_name = s.train.name_of(op.reference)
-        p.setLabel("bottom", f"Reference speed, rpm ({ref_name})")
-        p.setLabel("left", "Frequency, Hz" + (" (log scale)" if self._log else ""))
-        p.getAxis("left").setTicks(self._log_ticks(f_lo, f_hi) if self._log else None)
+        self._set_axis_label("bottom", f"Reference speed, rpm ({ref_name})")
+        self._set_axis_label("left", "Frequency, Hz" + (" (log scale)" if self._log else ""))
+        ticks = self._log_ticks(f_lo, f_hi) if self._log else None
+        if ticks != self._axis_ticks:  # set again, the axis lays its text out again
+            self._axis_ticks = ticks
+            p.getAxis("left").setTicks(ticks)
         self.canvas.export_title = (f"{s.train.title}: interference diagram, margin "
                                     f"{fmt.percent(s.margin)} %")
         legend = []  # (kind, style key, text)
@@ -526,15 +596,20 @@ class CampbellView(QtWidgets.QWidget):
         # one path each; those above the window are reached by zooming out, and a note says so
         m = self.modes
         limit = s.cap_hz if s.cap_hz > 0 else f_hi
-        shown = [i for i in range(len(m)) if m.elastic[i] and 0 < m.frequency_hz[i] <= max(limit, f_hi)]
+        freqs = np.asarray(m.frequency_hz, float).tolist()
+        elastic = np.asarray(m.elastic, bool).tolist()  # a property computed on each access
+        numbers = np.asarray(m.number).tolist()
+        top = max(limit, f_hi)
+        shown = [i for i, f in enumerate(freqs) if elastic[i] and 0 < f <= top]
         self._shown_modes = shown
-        above = [i for i in shown if m.frequency_hz[i] > f_hi]
+        above = [i for i in shown if freqs[i] > f_hi]
         x_lo, x_hi = -0.1 * x_max, 3.0 * x_max
         bands, lines, strips = QtGui.QPainterPath(), QtGui.QPainterPath(), QtGui.QPainterPath()
         font = theme.font(theme.SMALL_POINT_SIZE)
+        font_key = font.key()
         tol = s.bands if getattr(s, "bands", None) is not None and s.modes is m else None
         for i in shown:
-            f = float(m.frequency_hz[i])
+            f = freqs[i]
             band = margin_band_hz(f, s.margin)
             if tol is not None and tol[i, 1] > tol[i, 0]:
                 # the separation is measured from the band edge nearest the excitation, so the
@@ -552,10 +627,12 @@ class CampbellView(QtWidgets.QWidget):
             lines.moveTo(x_lo, y)
             lines.lineTo(x_hi, y)
             if f <= f_hi:
-                self._add_label(f"mode {int(m.number[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f)
+                self._add_label(f"mode {int(numbers[i])}: {fmt.hz(f)} Hz", theme.INK, font, "mode", f, font_key,
+                                lazy=True)
         if above:
-            self._add_label(self.above_note(above), theme.INK_MUTED, font, "above",
-                            (self.above_note(above), self.above_note(above, short=True)))
+            note = self.above_note(above)
+            self._add_label(note, theme.INK_MUTED, font, "above", (note, self.above_note(above, short=True)),
+                            font_key, lazy=True)
             self._labels[-1][0].setToolTip(self.above_tip(above))
         self._band_item.setPath(bands)
         self._tol_item.setPath(strips)
@@ -591,19 +668,18 @@ class CampbellView(QtWidgets.QWidget):
             width = theme.BOLD_WIDTH if line.major else (MINOR_WIDTH if group in has_major else theme.LINE_WIDTH)
             font = plain if group in has_major and not line.major else bold
             if kind == "fixed":
-                pen = theme.pen(color, width, QtCore.Qt.DashDotLine)
-                item.setData([0.0, x_max], [line.fixed_hz, line.fixed_hz], pen=pen)
+                self._set_line(item, [0.0, x_max], [line.fixed_hz, line.fixed_hz], (color, width, "dashdot"))
                 self._add_label(f"{line.fixed_hz:g} Hz", color, font, "fixed", line.fixed_hz)
             elif kind == "order":
-                pen = theme.pen(color, width)
-                item.setData(xs_line, line.slope * RPM * xs_line, pen=pen)
+                self._set_line(item, xs_line, line.slope * RPM * xs_line, (color, width, "solid"))
                 self._add_label(f"{R.line_order_text(line)}×", color, font, "order", line.slope * RPM)
             else:  # f = |a + b N|: a V where it passes through zero, drawn point by point
-                pen = theme.pen(color, width)
                 xs, fs = line_curve(line, x_max)
-                item.setData(xs, np.maximum(fs, f_lo * 1e-3) if self._log else fs, pen=pen)
+                self._set_line(item, xs, np.maximum(fs, f_lo * 1e-3) if self._log else fs, (color, width, "solid"))
                 self._add_label(R.line_order_text(line), color, font, "line", line)
-            item.setToolTip(f"{line.label}: {R.line_words(line, s.train)}")
+            tip = f"{line.label}: {R.line_words(line, s.train)}"
+            if item.toolTip() != tip:
+                item.setToolTip(tip)
             item.setVisible(True)
             self.line_items.append((line, item))
             if group not in in_legend:
@@ -657,7 +733,6 @@ class CampbellView(QtWidgets.QWidget):
         # the new ranges' transform now, not at the first paint: set there, it moves every
         # label and asks for a second layout and paint pass (8 ms at 200 discs)
         p.vb.updateMatrix()
-        self._layout_labels()
 
     def above_note(self, above: list[int], short: bool = False) -> str:
         """Note for the screened modes above the window (indices into modes); ``short``:
@@ -683,6 +758,25 @@ class CampbellView(QtWidgets.QWidget):
         rpm = self._cursor_rpm if self._cursor_rpm is not None and 0 <= self._cursor_rpm <= x_max \
             else s.speed_max / RPM
         self.cursor.setValue(rpm)
+
+    @staticmethod
+    def _set_line(item, xs, ys, look) -> None:
+        """An excitation line's points and pen (``look``: colour, width, 'solid' | 'dashdot'), set
+        only where they changed: an edit of a stiffness moves the modes, not the excitations."""
+        xs, ys = np.asarray(xs, float), np.asarray(ys, float)
+        kept = getattr(item, "_drawn", None)
+        if kept is not None and kept[2] == look and kept[0].shape == xs.shape and kept[1].shape == ys.shape \
+                and np.array_equal(kept[0], xs) and np.array_equal(kept[1], ys):
+            return
+        item._drawn = (xs, ys, look)
+        color, width, style = look
+        pen = theme.pen(color, width, QtCore.Qt.DashDotLine) if style == "dashdot" else theme.pen(color, width)
+        item.setData(xs, ys, pen=pen)
+
+    def _set_axis_label(self, side: str, text: str) -> None:
+        if self._axis_labels.get(side) != text:  # set again, the axis lays its label out again
+            self._axis_labels[side] = text
+            self.plot.setLabel(side, text)
 
     def _line_item(self, k: int) -> pg.PlotDataItem:
         """Excitation line number k from the pool (adding plot items is the slow part of a redraw)."""
@@ -748,11 +842,14 @@ class CampbellView(QtWidgets.QWidget):
         return [major, minor]
 
     # ------------------------------------------------------------ labels
-    def _add_label(self, text, color, font, kind, value) -> None:
-        """A label from the pool (TextItems are costly to create; a redraw reuses them)."""
+    def _add_label(self, text, color, font, kind, value, font_key=None, lazy: bool = False) -> None:
+        """A label from the pool (TextItems are costly to create; a redraw reuses them).
+        ``font_key``: ``font.key()`` where the caller has it (hundreds of labels per redraw).
+        ``lazy``: the text is set when the label is shown (placed); meanwhile its box is
+        measured (a long train's mode labels: most are hidden, see _LabelSizer)."""
         if self._n_labels == len(self._label_pool):
             item = pg.TextItem("", fill=theme.brush((255, 255, 255, 215)))
-            item.textItem.document().setDocumentMargin(1.5)  # a tight box: more labels find room
+            item.textItem.document().setDocumentMargin(LABEL_MARGIN)  # a tight box: more labels find room
             item.setZValue(30)
             self.plot.addItem(item, ignoreBounds=True)
             self._label_pool.append(item)
@@ -760,12 +857,49 @@ class CampbellView(QtWidgets.QWidget):
         self._n_labels += 1
         if item.toolTip():
             item.setToolTip("")
-        look = (text, color, font.key())
-        if getattr(item, "_look", None) != look:  # set again, a TextItem lays its text out anew
-            item._look = look
-            item.setText(text, color=theme.qcolor(color))
-            item.setFont(font)
+        look = (text, color, font_key if font_key is not None else font.key(), font)
+        if lazy and getattr(item, "_look", None) != look:
+            item._want = look
+            item._want_size = self._sizer.size(text, font, look[2])
+        else:
+            item._want = None
+            self._apply_look(item, look)
         self._labels.append((item, kind, value))
+
+    @staticmethod
+    def _apply_look(item, look) -> None:
+        """Text, colour and font of a pooled label; each set only when it changes (set again,
+        a TextItem lays its text out anew)."""
+        old = getattr(item, "_look", None)
+        if old == look:
+            return
+        text, color, key, font = look
+        item._look = look
+        if old is None or old[1] != color:
+            item.setColor(theme.qcolor(color))
+        if old is None or old[2] != key:
+            item.textItem.setFont(font)
+        if old is None or old[0] != text:
+            item.textItem.setPlainText(text)
+        item.updateTextPos()
+
+    def _want_text(self, item, text: str) -> None:
+        """A label to show ``text`` (its look otherwise the same) when it is next shown."""
+        applied = getattr(item, "_look", None)
+        look = item._want if item._want is not None else applied
+        new = (text,) + tuple(look[1:])
+        if applied == new:
+            item._want = None
+        else:
+            item._want, item._want_size = new, self._sizer.size(text, new[3], new[2])
+
+    @staticmethod
+    def _label_size(item) -> tuple[float, float]:
+        """The box of a label's text (px): of the text it shows, or of the one it waits to show."""
+        if getattr(item, "_want", None) is not None:
+            return item._want_size
+        br = item.textItem.boundingRect()
+        return br.width(), br.height()
 
     def _cursor_label_box(self, w, h, vx0, sx):
         """Pixel box of the speed cursor's own label (bottom, right of the line)."""
@@ -779,6 +913,8 @@ class CampbellView(QtWidgets.QWidget):
         overlap (recomputed when the plot is resized or zoomed).  Labels of mode
         lines too close for a label each at one place are stacked in frequency
         order (the highest on top, each next to its own line where there is room)."""
+        if self._drawing:
+            return  # a range set by _draw: it places the labels when done
         if self.screening is None or not self._labels:
             self.above_bar.hide()
             return
@@ -799,14 +935,14 @@ class CampbellView(QtWidgets.QWidget):
         requests, owners = [], []  # owners: label index, or [(label index, dy), ...] of a stack
         sizes = []
         for item, kind, value in self._labels:
-            if kind == "above" and item.textItem.toPlainText() != value[0]:
-                item.setText(value[0])  # the whole note first; shortened below if it finds no room
-            br = item.textItem.boundingRect()
-            sizes.append((br.width(), br.height()))
+            if kind == "above":
+                self._want_text(item, value[0])  # the whole note first; shortened below if it finds no room
+            sizes.append(self._label_size(item))
         mode_ys = {}
+        y_of = self._y
         for n, (item, kind, value) in enumerate(self._labels):
             if kind == "mode":
-                y = px(0, value)[1]
+                y = (vy1 - y_of(value)) * sy
                 if -sizes[n][1] < y < h + sizes[n][1]:
                     mode_ys[n] = y
         stacks = stack_close_labels(mode_ys, sizes, gap=STACK_GAP) if not crowded else []
@@ -879,13 +1015,21 @@ class CampbellView(QtWidgets.QWidget):
                                      soft=rings)
 
         def put(n, spot):
+            # each call only where it changes something: hundreds of labels per redraw
             item = self._labels[n][0]
             if spot is None:
-                item.setVisible(False)
+                if item.isVisible():
+                    item.setVisible(False)
                 return
             x, y, ax, ay = spot
-            item.setVisible(True)
-            item.setAnchor((ax, ay))
+            if item._want is not None:  # its text, set now that it shows
+                self._apply_look(item, item._want)
+                item._want = None
+            if not item.isVisible():
+                item.setVisible(True)
+            a = item.anchor
+            if a[0] != ax or a[1] != ay:
+                item.setAnchor((ax, ay))
             item.setPos(vx0 + x / sx, vy1 - y / sy)
 
         for owner, spot in zip(owners, chosen):
@@ -900,10 +1044,10 @@ class CampbellView(QtWidgets.QWidget):
             if spot is not None or not isinstance(owner, int) or self._labels[owner][1] != "above":
                 continue
             item, _kind, value = self._labels[owner]
-            item.setText(value[1])
-            br = item.textItem.boundingRect()
+            self._want_text(item, value[1])
+            tw, th = self._label_size(item)
             placed = [box(c, requests[j][0], requests[j][1]) for j, c in enumerate(chosen) if c is not None]
-            again = place_labels([(br.width(), br.height(), requests[k][2][-1])], w, h,
+            again = place_labels([(tw, th, requests[k][2][-1])], w, h,
                                  blocked=placed + [self._cursor_label_box(w, h, vx0, sx)])
             put(owner, again[0])
         # no room at all in a crowded plot: the note goes beside the controls above it

@@ -48,6 +48,10 @@ KINDS = {"stiffness": units.STIFFNESS, "inertia": units.INERTIA}
 MAX_BARS = 12
 #: ms to wait for the study's own windows (its second stage) before computing one here
 FALLBACK_MS = 1500
+#: posted at low priority when a window is to be computed here: handled after the paint events
+_START_JOB = QtCore.QEvent.Type(QtCore.QEvent.registerEventType())
+#: and this much later the worker starts (as the study's second stage, app.gui.compute)
+SETTLE_MS = 30
 #: below this width the sensitivity chart shares a tab row with the ranges below the chart
 NARROW_PX = 1000
 #: fills of the chart
@@ -375,6 +379,7 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         self.limited: str | None = None
         self.stale_message: str | None = None
         self.entries: list[Entry] = []
+        self._entry_texts: list[str] = []  # the picker's texts of the entries, as filled
         self._key = None  # (element, quantity) shown
         self._window = None  # WindowResult shown (the study's or computed here)
         self._window_source = None  # "study" | "view"
@@ -384,6 +389,7 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         self._own_train = None
         self._own = {}  # (element, quantity) -> WindowResult | error text, for _own_train
         self._running = set()
+        self._queued_job = None  # (element, quantity) whose window starts on the worker after the paint
         self._draw_pending = False
         self._bars_shown = 0
         self._bars = []
@@ -506,7 +512,11 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         self._bar_tips = []
         self.bar_targets = pg.ScatterPlotItem(hoverable=True, tip=lambda x, y, data: self._bar_tip(data))
         self.sens_plot.addItem(self.bar_targets)
-        self.bar_texts = []
+        self.bar_texts = []  # the value texts drawn, from _bar_text_pool
+        self._bar_text_pool = []
+        self._bar_ticks = None  # the names on the bar chart's axis, as last set
+        self._bar_brushes = {True: theme.brush(STIFFNESS_COLOUR), False: theme.brush(INERTIA_COLOUR)}
+        self._no_pen = pg.mkPen(None)
         self.sens_plot.vb.sigResized.connect(self._fit_bars)
         self.sens_caption = QtWidgets.QLabel(self)
         self.sens_caption.setWordWrap(True)
@@ -539,13 +549,19 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         verdicts.addWidget(self.now_label, 1)
         verdicts.addWidget(self.tried_label, 1)
 
-        chart_box = QtWidgets.QWidget(self)
-        cl = QtWidgets.QVBoxLayout(chart_box)
+        # the chart (with its pointer read-out) and the message that stands in for it share one
+        # place: switching between them moves nothing around them (a live edit shows the message
+        # until the study's window comes; a layout change would resize and redraw the bar chart)
+        chart_page = QtWidgets.QWidget(self)
+        cl = QtWidgets.QVBoxLayout(chart_page)
         cl.setContentsMargins(0, 0, 0, 0)
         cl.setSpacing(2)
         cl.addWidget(self.canvas, 1)
-        cl.addWidget(self.message, 1)
         cl.addWidget(self.hover)
+        self.chart_page = chart_page
+        chart_box = QtWidgets.QStackedWidget(self)
+        chart_box.addWidget(chart_page)
+        chart_box.addWidget(self.message)
         self.chart_box = chart_box
 
         self.ranges_box = QtWidgets.QWidget(self)
@@ -666,10 +682,9 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         self.entries = []
         self.range_model.set_rows([])
         self.ranges_note.setText("")
-        self.now_label.setText("")
-        self.tried_label.setText("")
         for lab in (self.now_label, self.tried_label):
-            lab.setStyleSheet(theme.verdict_style(None))
+            self._set_verdict(lab, "", None)  # the style through its cache (a stale cache keeps a red fill off)
+            lab.setMinimumHeight(0)
         self.use_button.setEnabled(False)
         self.nearest_button.setEnabled(False)
         self._clear_bars()
@@ -754,8 +769,13 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
             return
         self.designValueChosen.emit(w.element, w.quantity, float(self._tried))
 
+    def stop(self) -> None:
+        """No more windows computed here (the window is closing): one still queued is dropped."""
+        self._queued_job = None
+
     def wait(self, msecs: int = 10000) -> bool:
-        """Wait for a window computed here (tests, exports, closing)."""
+        """Wait for a window computed here (tests, exports, closing); one still queued starts now."""
+        self._start_queued_job()
         ok = self._pool.waitForDone(msecs) if hasattr(self, "_pool") else True
         QtWidgets.QApplication.processEvents()
         return ok
@@ -768,15 +788,15 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
     def _fill_picker(self) -> None:
         entries = picker_entries(self.train) if self.train is not None else []
         has_op = self.limited is None
-        if [(e.group, e.element, e.quantity) for e in entries] == \
-                [(e.group, e.element, e.quantity) for e in self.entries] and self.picker.count():
-            names_same = all(self.picker.itemText(i) == self._entry_text(self.picker.itemData(i))
-                             for i in range(self.picker.count()) if isinstance(self.picker.itemData(i), Entry))
-            if names_same:
+        texts = [self._entry_text(e) for e in entries]
+        if texts == self._entry_texts and entries == self.entries and self.picker.count():
+            # a live edit of a value: the same elements under the same names (the picker is not
+            # asked for its 400 items of a long train again)
+            if self.picker.isEnabled() != has_op:
                 self.picker.setEnabled(has_op)
-                return
+            return
         keep = self._key
-        self.entries = entries
+        self.entries, self._entry_texts = entries, texts
         self.picker.blockSignals(True)
         self.picker.clear()
         model = self.picker.model()
@@ -853,9 +873,10 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
                 self._fallback.start()
             else:
                 self._start_job(key)
-            self._clear_chart()
+            # the chart's page gives way to the message; its items are cleared when the window
+            # comes and is drawn (clearing a long train's chart costs a live edit milliseconds)
             self._say(f"Computing the values of {self._entry_text(e)} that clear every excitation…")
-            self._show_verdicts()
+            self._show_verdicts(hold=True)
             self.range_model.set_rows([])
             self.ranges_note.setText("")
             return
@@ -872,8 +893,27 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
             self._start_job(self._key)
 
     def _start_job(self, key) -> None:
+        """Compute the window of ``key`` on the worker, once the view has painted what it shows
+        now: a worker running Python beside the redraw slows it through the interpreter lock
+        (a long chain's window takes 0.2 s).  A newer study or element meanwhile replaces it."""
         if key in self._running or self.train is None:
             return
+        queued = self._queued_job is not None
+        self._queued_job = key
+        if not queued:  # after the paint events this redraw posted, then a moment for the plots to settle
+            QtCore.QCoreApplication.postEvent(self, QtCore.QEvent(_START_JOB), QtCore.Qt.LowEventPriority.value)
+
+    def event(self, event) -> bool:
+        if event.type() == _START_JOB:
+            QtCore.QTimer.singleShot(SETTLE_MS, self, self._start_queued_job)
+            return True
+        return super().event(event)
+
+    def _start_queued_job(self) -> None:
+        key, self._queued_job = self._queued_job, None
+        if key is None or key != self._key or self._window is not None or self.train is None \
+                or key in self._own or key in self._running:
+            return  # shown meanwhile, or another element chosen
         if not hasattr(self, "_pool"):
             self._pool = QtCore.QThreadPool(self)
             self._pool.setMaxThreadCount(1)
@@ -893,10 +933,9 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
 
     # ------------------------------------------------------------ show a window
     def _say(self, text: str) -> None:
-        self.message.setText(text)
-        self.message.show()
-        self.canvas.hide()
-        self.hover.hide()
+        if self.message.text() != text:
+            self.message.setText(text)
+        self.chart_box.setCurrentWidget(self.message)
 
     def _show_window(self) -> None:
         w = self._window
@@ -904,9 +943,7 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
             if self.study is not None:
                 self._show_element(keep_tried=True)
             return
-        self.message.hide()
-        self.canvas.show()
-        self.hover.show()
+        self.chart_box.setCurrentWidget(self.chart_page)
         q = w.quantity
         name = R.name_of(self.train, w.element)
         self.canvas.export_title = f"{self.train.title}: design options, {name} {q}"
@@ -936,12 +973,20 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         self._draw()
         self._show_verdicts()
 
-    def _show_verdicts(self) -> None:
+    def _show_verdicts(self, hold: bool = False) -> None:
+        """The verdicts of the current and the tried value; none without a window.  ``hold``: the
+        window is being computed (a live edit), the empty verdicts keep their height meanwhile, so
+        that the chart below does not move up and back down on every edit."""
         w = self._window
+        for lab in (self.now_label, self.tried_label):
+            want = lab.height() if hold and w is None and lab.isVisible() else 0
+            if hold and w is None:
+                want = max(want, lab.minimumHeight())  # held already: the height before the first hold
+            if lab.minimumHeight() != want:
+                lab.setMinimumHeight(want)
         if w is None:
             for lab in (self.now_label, self.tried_label):
-                lab.setText("")
-                lab.setStyleSheet(theme.verdict_style(None))
+                self._set_verdict(lab, "", None)
             self.nearest_button.setEnabled(False)
             self._update_use_button()
             return
@@ -1361,16 +1406,20 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         i = self.lower_tabs.indexOf(self.sens_box)
         if i >= 0:
             n = self._mode_number
-            self.lower_tabs.setTabText(i, f"What moves mode {n}" if n is not None else "What moves the mode")
+            text = f"What moves mode {n}" if n is not None else "What moves the mode"
+            if self.lower_tabs.tabText(i) != text:  # set again, the tab bar is laid out again
+                self.lower_tabs.setTabText(i, text)
 
     def _clear_bars(self) -> None:
         self.bars.setOpts(x0=[0], y=[0], width=[0], height=0.66)
         self.bar_targets.setData([], [])
         for t in self.bar_texts:
-            self.sens_plot.removeItem(t)
+            t.setVisible(False)
         self.bar_texts = []
         self._bar_tips = []
-        self.sens_plot.getAxis("left").setTicks([[]])
+        if self._bar_ticks != [[]]:
+            self._bar_ticks = [[]]
+            self.sens_plot.getAxis("left").setTicks([[]])
         self._bars_shown = 0
 
     def bar_capacity(self) -> int:
@@ -1395,10 +1444,10 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         if st is not None and old is not None and old[0] is st and old[1:] == drawn_for[1:]:
             return  # the same bars (a study shown and its mode selected call this twice)
         self._sens_drawn_for = drawn_for
-        self._clear_bars()
         self._bars = []
         self._set_sens_tab_text()
         if st is None or st.design is None or n is None:
+            self._clear_bars()
             self.sens_title.setText("No elastic mode to explain.")
             return
         sens = st.design.sensitivities
@@ -1409,15 +1458,17 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         self._bars = shown
         self._bars_shown = self.bar_capacity()
         more = f"; the largest {count} of {len(items)}" if count < len(items) else ""
-        self.sens_title.setText(f"What moves mode {n} ({fmt.hz(f)} Hz){self._mode_note}{more}")
+        _set_text(self.sens_title, f"What moves mode {n} ({fmt.hz(f)} Hz){self._mode_note}{more}")
         self.sens_canvas.export_title = f"{self.train.title}: what moves mode {n} ({fmt.hz(f)} Hz)"
         if not shown:
+            self._clear_bars()
             return
+        # the bars, their tips and value texts are updated in place (a live edit redraws them)
         vals = np.array([v for _q, _e, v in shown], float)
         ys = np.arange(len(shown), dtype=float)
-        brushes = [theme.brush(STIFFNESS_COLOUR if q == "stiffness" else INERTIA_COLOUR) for q, _e, _v in shown]
+        brushes = [self._bar_brushes[q == "stiffness"] for q, _e, _v in shown]
         self.bars.setOpts(x0=np.minimum(vals, 0.0), y=ys, width=np.abs(vals), height=0.66, brushes=brushes,
-                          pens=[pg.mkPen(None)] * len(shown))
+                          pens=[self._no_pen] * len(shown))
         diam = dict(zip(sens.shaft_ids, sens.diameter[sens.row(n)])) if len(sens.shaft_ids) else {}
         self._bar_tips = [self._tip_text(q, e, v, n, diam.get(e) if q == "stiffness" else None)
                           for q, e, v in shown]
@@ -1428,13 +1479,18 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         room = max(90.0, 0.34 * max(self.sens_canvas.width(), 300))
         names = [fm.elidedText(R.name_of(self.train, e), QtCore.Qt.ElideRight, room) for _q, e, _v in shown]
         axis = self.sens_plot.getAxis("left")
-        axis.setWidth(int(min(room, max(fm.horizontalAdvance(t) for t in names)) + 14))
-        axis.setTicks([[(float(y), t) for y, t in zip(ys, names)]])
+        width = int(min(room, max(fm.horizontalAdvance(t) for t in names)) + 14)
+        if axis.width() != width:  # set again, the plot is laid out again
+            axis.setWidth(width)
+        ticks = [[(float(y), t) for y, t in zip(ys, names)]]
+        if ticks != self._bar_ticks:  # set again, the axis lays out its text again
+            self._bar_ticks = ticks
+            axis.setTicks(ticks)
         span = max(float(np.max(np.abs(vals))), 1e-6)
         lo = min(0.0, float(vals.min()))
         hi = max(0.0, float(vals.max()))
         # room for the value written at each bar's end: p = t R / w with R = core + 2 p (px -> data)
-        text_px = QtGui.QFontMetricsF(theme.font(theme.SMALL_POINT_SIZE)).horizontalAdvance("-0.000") + 28
+        text_px = fm.horizontalAdvance("-0.000") + 28
         plot_px = max(float(self.sens_canvas.width()) - axis.width() - 40, 80.0)
         core = hi - lo
         pad = text_px * core / (plot_px - 2 * text_px) if plot_px > 3 * text_px else 0.42 * span
@@ -1442,14 +1498,29 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
                                  padding=0)
         # bars at a fixed pitch: as many rows as would fit, the rest left empty
         self.sens_plot.setYRange(-0.6, max(len(shown), self.bar_capacity()) - 0.4, padding=0)
-        for y, v in zip(ys, vals):
-            t = pg.TextItem(f"{v:+.3f}" if abs(v) >= 5e-4 else f"{v:+.1e}", color=theme.qcolor(theme.INK),
-                            anchor=(0, 0.5) if v >= 0 else (1, 0.5))
+        for t in self.bar_texts[len(shown):]:
+            t.setVisible(False)
+        self.bar_texts = []
+        for k, (y, v) in enumerate(zip(ys, vals)):
+            t = self._bar_text(k)
+            text = f"{v:+.3f}" if abs(v) >= 5e-4 else f"{v:+.1e}"
+            if t.textItem.toPlainText() != text:
+                t.setText(text)
+            t.setAnchor((0, 0.5) if v >= 0 else (1, 0.5))
+            t.setPos(float(v), float(y))
+            t.setVisible(True)
+            self.bar_texts.append(t)
+
+    def _bar_text(self, k: int):
+        """The k-th value text of the bar chart (made once, kept between drawings)."""
+        while len(self._bar_text_pool) <= k:
+            t = pg.TextItem("", color=theme.qcolor(theme.INK))
             t.setFont(theme.font(theme.SMALL_POINT_SIZE))
             t.textItem.document().setDocumentMargin(2.0)
-            t.setPos(float(v), float(y))
+            t.setVisible(False)
             self.sens_plot.addItem(t)
-            self.bar_texts.append(t)
+            self._bar_text_pool.append(t)
+        return self._bar_text_pool[k]
 
     def _tip_text(self, q: str, element: str, v: float, mode: int, diameter) -> str:
         name = R.name_of(self.train, element)
@@ -1488,6 +1559,11 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
                 sensitivity_items(st.design.sensitivities, n)]
         write_csv(path, f"What moves mode {n}: {self.train.title}; d ln f / d ln x (first order, Rayleigh's quotient)",
                   ("Element", "Id", "Quantity", "d ln f / d ln x"), rows)
+
+
+def _set_text(label, text: str) -> None:
+    if label.text() != text:  # a label set again lays out its row again
+        label.setText(text)
 
 
 def _change(new: float, old: float) -> str:

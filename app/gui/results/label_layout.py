@@ -48,38 +48,45 @@ class _Grid:
         self.inv = 1.0 / cell
         self.cells: dict = {}
 
-    def _keys(self, b):
-        inv = self.inv
-        js = range(math.floor(b[1] * inv), math.floor(b[3] * inv) + 1)
-        for i in range(math.floor(b[0] * inv), math.floor(b[2] * inv) + 1):
-            for j in js:
-                yield i, j
-
     def add(self, b) -> None:
-        cells = self.cells
-        for k in self._keys(b):
-            cells.setdefault(k, []).append(b)
+        cells, inv, floor = self.cells, self.inv, math.floor
+        j0, j1 = floor(b[1] * inv), floor(b[3] * inv) + 1
+        for i in range(floor(b[0] * inv), floor(b[2] * inv) + 1):
+            for j in range(j0, j1):
+                cells.setdefault((i, j), []).append(b)
 
     def free(self, b) -> bool:
-        cells = self.cells
+        cells, inv, floor = self.cells, self.inv, math.floor
         l, t, r, btm = b
-        for k in self._keys(b):
-            for o in cells.get(k, ()):
-                if l < o[2] and o[0] < r and t < o[3] and o[1] < btm:
-                    return False
+        j0, j1 = floor(t * inv), floor(btm * inv) + 1
+        for i in range(floor(l * inv), floor(r * inv) + 1):
+            for j in range(j0, j1):
+                others = cells.get((i, j))
+                if others:
+                    for o in others:
+                        if l < o[2] and o[0] < r and t < o[3] and o[1] < btm:
+                            return False
         return True
 
 
 def _place(labels, width, height, pad, grid: _Grid, chosen, index):
     """Place labels[i] for i in ``index`` (each (w, h, spots)) into ``grid``; fills ``chosen``."""
+    free, add = grid.free, grid.add
     for i in index:
         w, h, spots = labels[i]
         for s in spots:
-            b = _box(s, w, h, pad)
-            if b[0] < 0 or b[1] < 0 or b[2] > width or b[3] > height or not grid.free(b):
+            x, y, ax, ay = s
+            left = x - ax * w - pad
+            top = y - ay * h - pad
+            right = left + w + 2 * pad
+            bottom = top + h + 2 * pad
+            if left < 0 or top < 0 or right > width or bottom > height:
+                continue
+            b = (left, top, right, bottom)
+            if not free(b):
                 continue
             chosen[i] = s
-            grid.add(b)
+            add(b)
             break
 
 

@@ -340,6 +340,7 @@ class ResultsPanel(QtWidgets.QWidget):
         self.transient_view.cancel()
         self.transient_view.wait(msecs)
         self.response_view._pool.waitForDone(msecs)
+        self.design_view.stop()
         self.design_view.wait(msecs)
 
     def set_caution_visible(self, visible: bool) -> None:

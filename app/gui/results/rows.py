@@ -37,15 +37,43 @@ CURSOR_HEADERS = ("Excitation", "Order / line", "Excitation Hz", "Nearest mode",
                   "Separation %")
 
 
+class LazyText:
+    """A text written when it is first read (``write(*inputs)``), equal to another made by the
+    same function from equal inputs: a long train's hundreds of coincidence rows are made
+    again on every live edit, and their tooltips are read only on hovering one."""
+
+    __slots__ = ("write", "inputs", "_text")
+
+    def __init__(self, write, *inputs):
+        self.write, self.inputs, self._text = write, inputs, None
+
+    def text(self) -> str:
+        if self._text is None:
+            self._text = self.write(*self.inputs)
+        return self._text
+
+    def __eq__(self, other) -> bool:
+        if isinstance(other, LazyText):
+            return self.write is other.write and self.inputs == other.inputs
+        return isinstance(other, str) and self.text() == other
+
+    __hash__ = None
+
+
 @dataclass
 class Row:
     """One table row: display texts, plus what the views need beside the text."""
 
     cells: list
-    tooltip: str = ""
+    tip: object = ""  # the tooltip: a str, or a LazyText written when first read
     status: str | None = None  # "pass" | "fail" | "muted" | None: colours the row
     key: object = None  # e.g. the mode index this row selects
     extra: dict = field(default_factory=dict)
+
+    @property
+    def tooltip(self) -> str:
+        tip = self.tip
+        return tip.text() if isinstance(tip, LazyText) else tip
 
 
 def name_of(train, element_id: str | None) -> str:
@@ -74,24 +102,29 @@ def frequency_rows(modes, above_limit=None, screened: bool = False) -> list[Row]
     disc_ids, link_ids = list(modes.disc_ids), list(modes.link_ids)
     n = len(modes)
     above_limit = np.zeros(n, bool) if above_limit is None else np.asarray(above_limit, bool)
+    # plain lists: a numpy scalar read per row and column costs more than the row's text
     if link_ids:
         strain = np.asarray(modes.strain_share)
-        top_link, top_strain = np.argmax(strain, axis=1), strain.max(axis=1)
+        top_link, top_strain = np.argmax(strain, axis=1).tolist(), strain.max(axis=1).tolist()
     if disc_ids:
         kinetic = np.asarray(modes.kinetic_share)
-        top_disc, top_kinetic = np.argmax(kinetic, axis=1), kinetic.max(axis=1)
+        top_disc, top_kinetic = np.argmax(kinetic, axis=1).tolist(), kinetic.max(axis=1).tolist()
+    freqs = np.asarray(modes.frequency_hz, float).tolist()
+    rigids = np.asarray(modes.rigid_body, bool).tolist()
+    numbers = np.asarray(modes.number).tolist()
+    above_limit = above_limit.tolist()
     for i in range(n):
-        f = float(modes.frequency_hz[i])
-        rigid = bool(modes.rigid_body[i])
+        f = freqs[i]
+        rigid = rigids[i]
         if rigid or not link_ids:
             strain_text = "—"
         else:
-            strain_text = fmt.share(train.name_of(link_ids[int(top_link[i])]), float(top_strain[i]))
-        di = disc_ids[int(top_disc[i])] if disc_ids else None
+            strain_text = fmt.share(train.name_of(link_ids[top_link[i]]), float(top_strain[i]))
+        di = disc_ids[top_disc[i]] if disc_ids else None
         kinetic_text = fmt.share(train.name_of(di), float(top_kinetic[i])) if disc_ids else "—"
         above = bool(above_limit[i]) and not rigid
         tip = ("Rigid-body mode: the whole train turns as one; not screened." if rigid else
-               f"Mode {int(modes.number[i])}: {fmt.hz(f)} Hz = {fmt.cpm(f)} cycles per minute.")
+               f"Mode {int(numbers[i])}: {fmt.hz(f)} Hz = {fmt.cpm(f)} cycles per minute.")
         if disc_ids:
             tip += f" Largest kinetic energy in {train.name_of(di)}."
         if above:
@@ -103,7 +136,7 @@ def frequency_rows(modes, above_limit=None, screened: bool = False) -> list[Row]
             screening = NOT_SCREENED_RIGID
         else:
             screening = ABOVE_LIMIT if above else SCREENED
-        rows.append(Row([mode_label(modes, i), fmt.hz(f), fmt.cpm(f), "yes" if rigid else "",
+        rows.append(Row([f"{int(numbers[i])}", fmt.hz(f), fmt.cpm(f), "yes" if rigid else "",  # mode_label
                          strain_text, kinetic_text, screening], tip,
                         "muted" if (rigid or above) else None, i))
     return rows
@@ -176,16 +209,23 @@ def coincidence_rows(screening, modes=None) -> list[Row]:
         if where is None:
             where = words[id(c.line)] = line_words(c.line, screening.train)
         band_margin = None if c.separation_band is None else fmt.percent(c.separation_band)
-        tip = (f"Mode {c.mode} ({fmt.hz(c.frequency_hz)} Hz) against {c.source}, {where}: "
-               f"smallest separation {fmt.percent(c.separation)} % over the operating range "
-               f"at {fmt.rpm(c.worst_speed)} rpm"
-               + (f"; {band_margin} % from the nearest edge of the mode's tolerance band, which the "
-                  "status follows" if band_margin is not None else "")
-               + f" (required {fmt.percent(screening.margin)} %). Click to show this mode.")
         rows.append(Row([str(c.mode), fmt.hz(c.frequency_hz), c.source, line_order_text(c.line),
                          fmt.percent(c.separation), band_margin or "—", c.status.upper(),
-                         fmt.rpm(c.crossing_speed), band_text(c.band)], tip, c.status, idx, {"coincidence": c}))
+                         fmt.rpm(c.crossing_speed), band_text(c.band)],
+                        LazyText(_coincidence_tip, c.mode, c.frequency_hz, c.source, where, c.separation,
+                                 c.worst_speed, band_margin, screening.margin),
+                        c.status, idx, {"coincidence": c}))
     return rows
+
+
+def _coincidence_tip(mode, frequency_hz, source, where: str, separation, worst_speed,
+                     band_margin: str | None, margin: float) -> str:
+    return (f"Mode {mode} ({fmt.hz(frequency_hz)} Hz) against {source}, {where}: "
+            f"smallest separation {fmt.percent(separation)} % over the operating range "
+            f"at {fmt.rpm(worst_speed)} rpm"
+            + (f"; {band_margin} % from the nearest edge of the mode's tolerance band, which the "
+               "status follows" if band_margin is not None else "")
+            + f" (required {fmt.percent(margin)} %). Click to show this mode.")
 
 
 def cursor_rows(nearest: list[dict], margin: float, train=None) -> list[Row]:

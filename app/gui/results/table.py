@@ -60,7 +60,7 @@ class RowsModel(QtCore.QAbstractTableModel):
             return
         old, self.rows = self.rows, rows
         changed = [i for i, (a, b) in enumerate(zip(old, rows))
-                   if a.cells != b.cells or a.tooltip != b.tooltip or a.status != b.status]
+                   if a.cells != b.cells or a.tip != b.tip or a.status != b.status]
         last = len(self.headers) - 1
         start = None
         for k, i in enumerate(changed):  # one signal per run of adjacent rows
