@@ -31,9 +31,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from .assembly import (Assembly, assemble, clamped_count, effective_disc_inertia, member_stiffness,
+from .assembly import (Assembly, assemble, clamped_count, member_stiffness,
                        peel_rigid_meshes)
-from .elimination import RowSum, cached_schedule, factor, factor_solve, solve_factored
+from .elimination import RowSum, cached_schedule, factor, factor_solve, path_order, solve_factored
 from .errors import ModelError
 from .model import Train
 
@@ -687,77 +687,112 @@ def _member_torques(k, x, ta, tb, samples: int = 33):
 
 def _link_torques(mem, nl, Ta, Tb, Tm):
     """Per link: the signed torque of largest magnitude over its members, and the
-    torques at its `from` and `to` ends.  Most links are one member; only
-    multi-segment distributed shafts need the loop."""
+    torques at its `from` and `to` ends (array operations over links; members are
+    stored in link order, a link's members contiguous).  A link without members (a
+    rigid mesh) gets zeros here."""
     k = Ta.shape[1]
+    if len(mem.link) == nl and np.array_equal(mem.link, np.arange(nl)):
+        return Tm, Ta, Tb  # one member per link, in link order
     torque = np.zeros((nl, k))
     t_from = np.zeros((nl, k))
     t_to = np.zeros((nl, k))
-    n_mem = np.bincount(mem.link, minlength=nl)
-    single = n_mem[mem.link] == 1
-    li = mem.link[single]
-    torque[li], t_from[li], t_to[li] = Tm[single], Ta[single], Tb[single]
-    for l in np.flatnonzero(n_mem > 1):
-        ms = np.flatnonzero(mem.link == l)
-        j = np.argmax(np.abs(Tm[ms]), axis=0)
-        torque[l] = Tm[ms][j, np.arange(k)]
-        first, last = (ms[-1], ms[0]) if mem.flip[ms[0]] else (ms[0], ms[-1])
-        t_from[l], t_to[l] = Ta[first], Tb[last]
+    if not len(mem.link):
+        return torque, t_from, t_to
+    starts = np.flatnonzero(np.r_[True, mem.link[1:] != mem.link[:-1]])
+    last = np.r_[starts[1:], len(mem.link)] - 1
+    links = mem.link[starts]
+    group = np.repeat(np.arange(len(starts)), np.diff(np.r_[starts, len(mem.link)]))
+    mag = np.abs(Tm)
+    best = np.maximum.reduceat(mag, starts, axis=0)
+    # the first member of each link reaching its largest magnitude (as argmax picks)
+    at = np.where(mag == best[group], np.arange(len(mem.link))[:, None], len(mem.link))
+    first_best = np.minimum.reduceat(at, starts, axis=0)
+    lost = first_best == len(mem.link)  # a NaN torque: no member compares equal
+    first_best[lost] = np.broadcast_to(starts[:, None], first_best.shape)[lost]
+    torque[links] = np.where(lost, np.nan, np.take_along_axis(Tm, first_best, axis=0))
+    flip = mem.flip[starts]  # stored from the link's `to` end: its ends swap
+    t_from[links] = Ta[np.where(flip, last, starts)]
+    t_to[links] = Tb[np.where(flip, starts, last)]
     return torque, t_from, t_to
 
 
 def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray):
+    """Disc angles normalised to a largest angle of +1, link torques and energy shares
+    per mode (arrays over discs or links and modes; see :class:`Modes`)."""
     train = system.train
     a = system.asm
     mem = a.members
     nd, nl = len(train.discs), len(train.links)
-    theta = a.disc_scale[:, None] * phi[a.disc_node]  # actual disc angles (nd, k)
-    big = np.abs(theta).max(axis=0)
+    cols = np.arange(phi.shape[1])
+    plain = a.n_nodes == nd and np.array_equal(a.disc_node, np.arange(nd)) and np.all(a.disc_scale == 1.0)
+    theta = phi.copy() if plain else a.disc_scale[:, None] * phi[a.disc_node]  # actual disc angles
+    mag = np.abs(theta)
+    big = mag.max(axis=0)
     big = np.where(big == 0, 1.0, big)
-    jmax = np.argmax(np.abs(theta), axis=0)
-    sign = np.sign(theta[jmax, np.arange(theta.shape[1])])
+    jmax = np.argmax(mag, axis=0)
+    del mag
+    sign = np.sign(theta[jmax, cols])
     sign = np.where(sign == 0, 1.0, sign)
     norm = sign / big
-    theta = np.clip(theta * norm, -1.0, 1.0)
-    theta[jmax, np.arange(theta.shape[1])] = 1.0  # exactly, not a rounding below
+    theta *= norm
+    np.clip(theta, -1.0, 1.0, out=theta)
+    theta[jmax, cols] = 1.0  # exactly, not a rounding below
     phi = phi * norm
     # member end angles in actual units of the member's own shaft
+    tree = mem.b >= 0
     pa = phi[mem.a]
-    pb = np.where((mem.b >= 0)[:, None], phi[np.maximum(mem.b, 0)], 0.0)
-    ta = pa * mem.scale[:, None]
-    tb = pb * mem.scale[:, None]
+    pb = phi[mem.b] if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
+    if np.all(mem.scale == 1.0):
+        ta, tb = pa, pb
+    else:
+        ta = pa * mem.scale[:, None]
+        tb = pb * mem.scale[:, None]
     k_act = (mem.k / mem.scale ** 2)[:, None]
-    x = mem.L_over_c[:, None] * omega[None, :]
-    U, Tk = _segment_energies(k_act, x, ta, tb)
-    Ta, Tb, Tm = _member_torques(k_act, x, ta, tb)
-    # a member stored from its link's `to` end carries the opposite sign
-    fl = np.flatnonzero(mem.flip)
-    if len(fl):
-        Ta[fl], Tb[fl], Tm[fl] = -Tb[fl], -Ta[fl], -Tm[fl]
+    if a.distributed:
+        x = mem.L_over_c[:, None] * omega[None, :]
+        U, Tk = _segment_energies(k_act, x, ta, tb)
+        Ta, Tb, Tm = _member_torques(k_act, x, ta, tb)
+        # a member stored from its link's `to` end carries the opposite sign
+        fl = np.flatnonzero(mem.flip)
+        if len(fl):
+            Ta[fl], Tb[fl], Tm[fl] = -Tb[fl], -Ta[fl], -Tm[fl]
+        Tk = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
+    else:  # springs: k (ta - tb) throughout, strain energy k (ta - tb)^2 / 2
+        dx = ta - tb
+        Tm = k_act * dx
+        U = 0.5 * k_act * dx ** 2
+        del dx
+        if mem.flip.any():
+            Tm[mem.flip] *= -1.0
+        Ta = Tb = Tm
+        Tk = None
     if len(mem.link) == nl and np.array_equal(mem.link, np.arange(nl)):
         strain = U  # one member per link, in link order (no rigid mesh, no segments)
-        link_kin = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0) if a.distributed else np.zeros_like(U)
+        link_kin = Tk if Tk is not None else np.zeros_like(U)
     else:
         per_link = RowSum(mem.link, np.arange(len(mem.link)), (nl, len(mem.link)))
         strain = per_link @ U
-        link_kin = per_link @ np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
+        link_kin = per_link @ Tk if Tk is not None else np.zeros((nl, len(cols)))
     torque, t_from, t_to = _link_torques(mem, nl, Ta, Tb, Tm)
-    J_eff = effective_disc_inertia(train)
+    J_eff = a.disc_inertia
     # a rigid-body mode (omega = 0) still has kinetic energy shares in proportion to J theta^2
     w_kin = np.where(omega > 0, omega, 1.0)
-    disc_kin = 0.5 * J_eff[:, None] * theta ** 2 * w_kin[None, :] ** 2
+    disc_kin = (0.5 * J_eff)[:, None] * theta ** 2
+    disc_kin *= (w_kin ** 2)[None, :]
     if len(a.disc_node) and a.disc_node.max() + 1 < nd:  # discs merged: rigid meshes
-        end_torque = {li: (t_from[li], t_to[li]) for li, l in enumerate(train.links) if not l.is_rigid}
+        rigid = a.link_rigid
+        end_torque = {li: (t_from[li], t_to[li]) for li in np.flatnonzero(~rigid).tolist()}
         peel_rigid_meshes(train, -omega ** 2 * J_eff[:, None] * theta, end_torque)
-        for li, l in enumerate(train.links):
-            if l.is_rigid:
-                torque[li] = t_from[li] = t_to[li] = end_torque[li][0]
+        if torque is t_from:
+            torque, t_from, t_to = torque.copy(), t_from.copy(), t_to.copy()
+        for li in np.flatnonzero(rigid).tolist():
+            torque[li] = t_from[li] = t_to[li] = end_torque[li][0]
     tot_kin = disc_kin.sum(0) + link_kin.sum(0)
     tot_kin = np.where(tot_kin == 0, 1.0, tot_kin)
     tot_str = strain.sum(0)
     tot_str = np.where(tot_str == 0, 1.0, tot_str)
-    return (theta.T, torque.T, (disc_kin / tot_kin).T, (link_kin / tot_kin).T,
-            (strain / tot_str).T)
+    disc_kin /= tot_kin
+    return (theta.T, torque.T, disc_kin.T, (link_kin / tot_kin).T, (strain / tot_str).T)
 
 
 MAX_MODES = 400  # elastic modes one solve returns with their shapes
