@@ -62,17 +62,35 @@ class DynamicSystem:
     the diagonal when distributed members make them frequency dependent.
     """
 
+    #: built on first use (:meth:`_plan`): a chain solved by :class:`TridiagonalChain`
+    #: needs no elimination plan for its modes
+    _PLANNED = frozenset({"schedule", "pos", "J", "_incidence", "_free_end", "_incidence_count",
+                          "_free_far_pos", "_free_slot", "_slot", "_pa", "_pb", "_Kd", "_Wd"})
+
     def __init__(self, train: Train):
         self.train = train
         self.asm: Assembly = assemble(train)
         a = self.asm
-        self.schedule = cached_schedule(a.n_nodes, a.edges_a, a.edges_b)
-        sch = self.schedule
         mem = a.members
         self._tree = mem.b >= 0
         scale = max(float(mem.k.max()) if len(mem.k) else 1.0, 1e-300)
         self.tiny = 1e-14 * scale
         self.n_dof = a.n_nodes
+        # points per elimination pass: bounds the working arrays to a few MB
+        self.chunk = int(np.clip(2 ** 21 // max(a.n_nodes, 1), 16, 1024))
+        self.chain = TridiagonalChain.of(a) if a.n_nodes >= CHAIN_MIN_NODES else None
+
+    def __getattr__(self, name):
+        if name in DynamicSystem._PLANNED and "schedule" not in self.__dict__:
+            self._plan()
+            return getattr(self, name)
+        raise AttributeError(name)
+
+    def _plan(self):
+        """The elimination plan and the system's arrays in elimination order."""
+        a = self.asm
+        sch = cached_schedule(a.n_nodes, a.edges_a, a.edges_b)
+        mem = a.members
         self.pos = sch.position  # elimination position of every node
         self.J = a.node_inertia[sch.order]
         pa = self.pos[mem.a]
@@ -102,8 +120,7 @@ class DynamicSystem:
         if not a.distributed:
             self._Kd = self._incidence @ mem.k
             self._Wd = a.edge_sum(-mem.k[t])  # members in parallel: their stiffnesses add
-        # points per elimination pass: bounds the working arrays to a few MB
-        self.chunk = int(np.clip(2 ** 21 // max(a.n_nodes, 1), 16, 1024))
+        self.schedule = sch  # last: another thread asking meanwhile plans on its own
 
     @staticmethod
     def _condensable(a: Assembly):
@@ -246,6 +263,245 @@ class DynamicSystem:
         num = np.ascontiguousarray((mem.k[:, None] * dx * dx).T).sum(axis=1)
         den = np.ascontiguousarray((self.J[:, None] * x * x).T).sum(axis=1)
         return num / den
+
+
+#: lumped chains of at least this many nodes find their modes with LAPACK as a symmetric
+#: tridiagonal eigenproblem (:class:`TridiagonalChain`); a shorter train is solved faster
+#: than scipy.linalg loads (about 0.1 s) by the general method
+CHAIN_MIN_NODES = 2000
+#: a chain at least COARSE_FACTOR times longer than its coarse model (COARSE_NODES nodes, or
+#: 8 per mode wanted) starts its roots from that model rather than bisecting for them
+COARSE_NODES = 2000
+COARSE_FACTOR = 4
+
+
+class TridiagonalChain:
+    """A lumped train whose stiffness matrix is tridiagonal in chain order: its nodes (a
+    disc, or discs on a rigid gear mesh, referred to one speed as :mod:`core.assembly`
+    does) in a row, each with inertia, joined by links that all have stiffness, with
+    springs to ground anywhere.
+
+    Natural frequencies: omega^2 are the eigenvalues of the symmetric tridiagonal matrix
+    J^-1/2 K J^-1/2, each located by its index with LAPACK's bisection on the Sturm
+    sequence (dstebz; W. Kahan, "Accurate eigenvalues of a symmetric tri-diagonal
+    matrix", Stanford CS41, 1966 -- from memory), so no mode is missed or found twice,
+    as with the Wittrick-Williams count of the general method.  Bisection is accurate
+    to eps ||J^-1/2 K J^-1/2|| absolute, which on a long chain is a relative 1e-7 of its
+    low modes; each is therefore polished by Rayleigh-quotient iteration on K - sigma J
+    (LAPACK dgtsv solves, the quotient summed as member strain energies k dx^2, all
+    positive, as the general method does), cubically convergent (B. N. Parlett, The
+    Symmetric Eigenvalue Problem, 1980, ch. 4), until a step changes omega^2 by less
+    than 1e-12.  The polished value must lie in its own bisection interval, and the
+    intervals of neighbouring indices must be apart; otherwise :meth:`modes` returns
+    None and the general method is used.
+    """
+
+    def __init__(self, asm: Assembly, order: np.ndarray):
+        n = asm.n_nodes
+        mem = asm.members
+        tree = mem.b >= 0
+        pos = np.empty(n, np.int64)
+        pos[order] = np.arange(n)
+        self.order = order
+        self.n = n
+        self.J = asm.node_inertia[order]
+        lower = np.minimum(pos[asm.edges_a], pos[asm.edges_b])
+        self.k_edge = np.empty(n - 1)  # stiffness between chain positions i and i + 1
+        self.k_edge[lower] = asm.edge_sum(mem.k[tree])  # links in parallel add
+        self.k_ground = np.bincount(pos[mem.a[~tree]], mem.k[~tree], n)
+        self.K_diag = np.r_[self.k_edge, 0.0] + np.r_[0.0, self.k_edge] + self.k_ground
+        self.free = not asm.grounded
+
+    @classmethod
+    def of(cls, asm: Assembly) -> "TridiagonalChain | None":
+        """The chain form of ``asm``, or None when it is not such a chain."""
+        mem = asm.members
+        if asm.distributed or asm.n_nodes < 2 or not np.all(asm.node_inertia > 0) \
+                or not np.all((mem.k > 0) & np.isfinite(mem.k)):
+            return None
+        order = path_order(asm.n_nodes, asm.edges_a, asm.edges_b)
+        return None if order is None else cls(asm, order)
+
+    def rayleigh(self, x: np.ndarray) -> float:
+        """x'Kx / x'Jx as strain energies over kinetic energies, all terms positive."""
+        dx = x[:-1] - x[1:]
+        return float(((self.k_edge * dx * dx).sum() + (self.k_ground * x * x).sum()) / (self.J * x * x).sum())
+
+    def symmetric(self) -> tuple[np.ndarray, np.ndarray, float]:
+        """Diagonal and off-diagonal of J^-1/2 K J^-1/2, and the `slack` of its Sturm
+        counts: each is exact for a matrix within a few eps ||J^-1/2 K J^-1/2|| of this
+        one (its entries are rounded too), so a root lies within `slack` of where the
+        counts place it."""
+        s = 1.0 / np.sqrt(self.J)
+        d = self.K_diag * s * s
+        e = -self.k_edge * s[:-1] * s[1:]
+        norm = float(np.abs(d).max() + 2.0 * np.abs(e).max())
+        return d, e, 32.0 * np.finfo(float).eps * norm
+
+    def modes(self, targets: np.ndarray):
+        """omega (rad/s) and node mode vectors (node order, columns) of the natural
+        frequencies with the given 0-based count indices (consecutive), or None when a
+        root cannot be told from its neighbours to the precision of the counts.
+
+        A long chain starts each root from a coarse model of itself (:meth:`_coarse`)
+        and proves the polished roots by Sturm counts between them; where that does
+        not hold, or on a short chain, the roots are located by bisection first."""
+        d, e, slack = self.symmetric()
+        targets = np.asarray(targets, np.int64)
+        solved = None
+        if self.n >= COARSE_FACTOR * max(COARSE_NODES, 8 * (int(targets[-1]) + 2)):
+            solved = self._from_coarse(targets, d, e, slack)
+        return solved if solved is not None else self._from_bisection(targets, d, e, slack)
+
+    def _from_bisection(self, targets, d, e, slack):
+        """Every target located by LAPACK's bisection (dstebz), then polished."""
+        from scipy.linalg.lapack import dstebz
+        first, last = int(targets[0]), int(targets[-1])
+        lo, hi = max(first - 1, 0), min(last + 1, self.n - 1)  # with the neighbours: their gaps
+        m, w, _, _, info = dstebz(d, e, 2, 0.0, 0.0, lo + 1, hi + 1, 0.0, "E")
+        if info != 0 or m != hi - lo + 1:
+            return None
+        w = w[:m]
+        if m > 1 and np.diff(w).min() <= 4.0 * slack:
+            return None  # neighbouring roots closer than the bisection resolves
+        x0 = self._start()
+        omega2 = np.empty(len(targets))
+        X = np.empty((self.n, len(targets)))
+        for j, lam in enumerate(w[targets - lo]):
+            got = self._polish(float(lam), x0, slack)
+            if got is None or not abs(got[0] - lam) <= slack:
+                return None  # the iteration settled on another root than this index's
+            omega2[j], X[:, j] = got
+        return self._result(omega2, X)
+
+    def _from_coarse(self, targets, d, e, slack):
+        """Targets started from the coarse model's roots and shapes, polished, and proven
+        to be the roots with these indices by Sturm counts below, between and above them."""
+        est, starts = self._coarse(targets)
+        if est is None:
+            return None
+        omega2 = np.empty(len(targets))
+        X = np.empty((self.n, len(targets)))
+        for j in range(len(targets)):
+            got = self._polish(float(est[j]), starts[:, j], slack)
+            if got is None:
+                return None
+            omega2[j], X[:, j] = got
+        if len(omega2) > 1 and not np.diff(omega2).min() > 8.0 * slack:
+            return None
+        # a root polished to rounding lies within `slack` of an eigenvalue; the counts at
+        # these points are then exactly the targets' indices only if no root was missed,
+        # none found twice and each has its own index (Sylvester's law of inertia)
+        points = np.r_[omega2[0] - 3.0 * slack, 0.5 * (omega2[1:] + omega2[:-1]), omega2[-1] + 3.0 * slack]
+        want = np.r_[targets, targets[-1] + 1]
+        if not np.array_equal(self._counts(d, e, points), want):
+            return None
+        return self._result(omega2, X)
+
+    @staticmethod
+    def _counts(d, e, points) -> np.ndarray:
+        """Number of eigenvalues of the symmetric tridiagonal (d, e) at or below each point:
+        dstebz asked for the interval from below every eigenvalue (Gershgorin) to the
+        point with a tolerance wider than it, so it counts and does not bisect."""
+        from scipy.linalg.lapack import dstebz
+        ae = np.abs(e)
+        floor = float((d - np.r_[ae, 0.0] - np.r_[0.0, ae]).min())
+        vl = floor - max(1.0, abs(floor))
+        out = np.empty(len(points), np.int64)
+        for i, p in enumerate(points.tolist()):
+            m, _, _, _, info = dstebz(d, e, 1, vl, p, 0, 0, 4.0 * (p - vl) + 1.0, "E")
+            out[i] = m if info == 0 else -1
+        return out
+
+    def _coarse(self, targets):
+        """Estimates of the target roots and their shapes from the chain coarsened to about
+        COARSE_NODES nodes (or enough for the highest target): every b-th node kept, the
+        nodes between them following linearly in the compliance along the chain (exact for
+        massless discs between: the kept nodes are joined by the links' series stiffness),
+        their inertia and springs to ground shared out by the same weights (a Ritz
+        reduction with lumped inertia).  Shapes are the coarse modes interpolated."""
+        from scipy.linalg.lapack import dgtsv, dstebz
+        n = self.n
+        want = max(COARSE_NODES, 8 * (int(targets[-1]) + 2))
+        b = max(2, (n - 1) // want)
+        nb = -(-(n - 1) // b)  # blocks of b links; the last padded with rigid, massless stations
+        comp = np.zeros(nb * b)
+        comp[:n - 1] = 1.0 / self.k_edge
+        blocks = comp.reshape(nb, b)
+        Q = blocks.sum(axis=1)  # compliance of each block: the coarse springs are 1 / Q
+        w = np.zeros((nb, b))  # weight of the block's far end at each station of the block
+        w[:, 1:] = np.cumsum(blocks[:, :-1], axis=1) / Q[:, None]
+        J = np.zeros(nb * b + 1)
+        J[:n] = self.J
+        Jb = J[:-1].reshape(nb, b)
+        Jc = np.zeros(nb + 1)
+        Jc[:-1] = (Jb * (1.0 - w)).sum(axis=1)
+        Jc[1:] += (Jb * w).sum(axis=1)
+        Jc[-1] += J[-1]
+        kc = 1.0 / Q
+        Kd = np.r_[kc, 0.0] + np.r_[0.0, kc]
+        Ko = -kc
+        if self.k_ground.any():
+            g = np.zeros(nb * b + 1)
+            g[:n] = self.k_ground
+            gb = g[:-1].reshape(nb, b)
+            Kd[:-1] += (gb * (1.0 - w) ** 2).sum(axis=1)
+            Kd[1:] += (gb * w * w).sum(axis=1)
+            Kd[-1] += g[-1]
+            Ko = Ko + (gb * w * (1.0 - w)).sum(axis=1)
+        s = 1.0 / np.sqrt(Jc)
+        first, last = int(targets[0]), int(targets[-1])
+        m, lam, _, _, info = dstebz(Kd * s * s, Ko * s[:-1] * s[1:], 2, 0.0, 0.0, first + 1, last + 1,
+                                    0.0, "E")
+        if info != 0 or m != len(targets):
+            return None, None
+        lam = lam[:m]
+        # coarse shapes: two inverse iteration steps each on the coarse chain
+        y0 = np.random.default_rng(12345).uniform(0.5, 1.5, nb + 1)
+        Y = np.empty((nb + 1, m))
+        for j in range(m):
+            y = y0
+            for _ in range(2):
+                y, info = dgtsv(Ko, Kd - lam[j] * Jc, Ko, Jc * y)[3:]
+                if info != 0 or not np.all(np.isfinite(y)):
+                    return None, None
+                y = y / np.abs(y).max()
+            Y[:, j] = y
+        # stations between kept nodes: (1 - w) at the near end, w at the far end
+        X = ((1.0 - w).ravel()[:, None] * Y[:-1].repeat(b, axis=0) + w.ravel()[:, None] * Y[1:].repeat(b, axis=0))
+        return lam, np.r_[X, Y[-1:]][:n]
+
+    def _start(self) -> np.ndarray:
+        """A start vector with no rigid-body part (the start leans on the elastic modes)."""
+        x0 = np.random.default_rng(12345).uniform(0.5, 1.5, self.n)
+        if self.free:
+            x0 -= (self.J @ x0) / self.J.sum()
+        return x0
+
+    def _polish(self, sigma: float, x: np.ndarray, slack: float):
+        """Rayleigh-quotient iteration from (sigma, x): (omega^2, vector normalised to
+        max |x| = 1) once a step from a quotient changes it by less than 1e-12, else None."""
+        from scipy.linalg.lapack import dgtsv
+        J, kd, sub = self.J, self.K_diag, -self.k_edge
+        from_quotient = False  # convergence is judged from a shift that is itself a quotient
+        for _ in range(12):
+            y, info = dgtsv(sub, kd - sigma * J, sub, J * x)[3:]
+            if info != 0:  # K - sigma J exactly singular: sigma is the root to rounding
+                sigma = sigma * (1.0 + 4.0 * np.finfo(float).eps) + 1e-3 * slack
+                continue
+            y /= np.abs(y).max()
+            rho = self.rayleigh(y)
+            x = y
+            done = from_quotient and abs(rho - sigma) <= 1e-12 * rho
+            sigma, from_quotient = rho, True
+            if done:
+                return sigma, x
+        return None
+
+    def _result(self, omega2, X):
+        phi = np.empty_like(X)
+        phi[self.order] = X
+        return np.sqrt(omega2), phi
 
 
 _LAST_SYSTEM: tuple = (None, None)
@@ -895,10 +1151,15 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         if finite is not None and want > finite:
             notes.append(f"the lumped model has only {finite - n_zero} elastic modes")
             want = finite
-        hi, total = _upper_bound(system, want) if want > n_zero else (1.0, None)
+        hi = total = None  # bracketed when the general method needs it
         targets = np.arange(n_zero, want)
         requested = f"lowest {N} elastic modes"
-    if len(targets):
+    solved = system.chain.modes(targets) if len(targets) and system.chain is not None else None
+    if solved is not None:
+        omega, phi = solved
+    elif len(targets):
+        if hi is None:
+            hi, total = _upper_bound(system, want)
         omega, phi = _find_roots(system, targets, hi, total)
     else:
         omega, phi = np.zeros(0), np.zeros((system.n_dof, 0))
