@@ -255,7 +255,9 @@ def test_long_uniform_free_free_chain_matches_the_closed_form():
     docstring)."""
     n, J, k = 10_000, 2.0, 3.0e6
     solver._LAST_SYSTEM = (None, None)
-    modes = natural_modes(build_train(uniform_chain(n, J, k)), n_modes=20)
+    train = build_train(uniform_chain(n, J, k))
+    assert solver.dynamic_system(train).chain is not None
+    modes = natural_modes(train, n_modes=20)
     kk = np.arange(0, 21)
     ref = 2.0 * np.sqrt(k / J) * np.sin(kk * np.pi / (2 * n)) / (2 * math.pi)
     assert modes.rigid_body[0] and not modes.rigid_body[1:].any()
@@ -290,11 +292,11 @@ def test_uniform_fixed_free_chain_matches_the_closed_form(chain_path, coarse):
 
 @pytest.mark.parametrize("ratio", [0.4, 2.5])
 def test_chain_with_a_gear_pair_equals_its_referred_equivalent(ratio):
-    """A 6 000-disc chain with an elastic gear mesh in the middle (default route) against the
+    """A 12 000-disc chain with an elastic gear mesh in the middle (default route) against the
     same chain without the mesh: the discs beyond it and the shafts between them referred to
     the first shaft by ratio^2, the mesh a spring of its own stiffness (given on its `from`
     shaft, energy equivalence; see the module docstring)."""
-    n, half = 6_000, 3_000
+    n, half = 12_000, 6_000
     rng = np.random.default_rng(7)
     J = rng.uniform(0.5, 2.0, n) * 1e-2  # invented
     k = rng.uniform(0.5, 2.0, n - 1) * 1e8
@@ -332,7 +334,7 @@ def test_long_chain_takes_the_tridiagonal_route_without_an_elimination_plan(monk
     monkeypatch.setattr(solver, "_find_roots", refuse)
     monkeypatch.setattr(solver, "cached_schedule", refuse)
     solver._LAST_SYSTEM = (None, None)
-    modes = natural_modes(build_train(uniform_chain(9_000)), n_modes=20)
+    modes = natural_modes(build_train(uniform_chain(12_000)), n_modes=20)
     assert len(modes) == 21 and modes.rigid_body[0]
 
 
