@@ -344,23 +344,35 @@ class TridiagonalChain:
         norm = float(np.abs(d).max() + 2.0 * np.abs(e).max())
         return d, e, 32.0 * np.finfo(float).eps * norm
 
-    def modes(self, targets: np.ndarray):
+    def modes(self, targets: np.ndarray, rigid_column: bool = False):
         """omega (rad/s) and node mode vectors (node order, columns) of the natural
         frequencies with the given 0-based count indices (consecutive), or None when a
-        root cannot be told from its neighbours to the precision of the counts.
+        root cannot be told from its neighbours to the precision of the counts.  With
+        ``rigid_column`` the vectors come after a first column of ones (the rigid-body
+        mode, made in the same array: on a long chain each copy is tens of MB).
 
         A long chain starts each root from a coarse model of itself (:meth:`_coarse`)
         and proves the polished roots by Sturm counts between them; where that does
         not hold, or on a short chain, the roots are located by bisection first."""
         d, e, slack = self.symmetric()
         targets = np.asarray(targets, np.int64)
-        solved = None
+        lead = int(rigid_column)
+        X = np.empty((self.n, lead + len(targets)))  # chain order
+        X[:, :lead] = 1.0
+        omega2 = None
         if self.n >= COARSE_FACTOR * max(COARSE_NODES, 8 * (int(targets[-1]) + 2)):
-            solved = self._from_coarse(targets, d, e, slack)
-        return solved if solved is not None else self._from_bisection(targets, d, e, slack)
+            omega2 = self._from_coarse(targets, d, e, slack, X[:, lead:])
+        if omega2 is None:
+            omega2 = self._from_bisection(targets, d, e, slack, X[:, lead:])
+        if omega2 is None:
+            return None
+        if not np.array_equal(self.order, np.arange(self.n)):
+            X[self.order] = X.copy()  # node order
+        return np.sqrt(omega2), X
 
-    def _from_bisection(self, targets, d, e, slack):
-        """Every target located by LAPACK's bisection (dstebz), then polished."""
+    def _from_bisection(self, targets, d, e, slack, X):
+        """Every target located by LAPACK's bisection (dstebz), then polished: omega^2, the
+        vectors written into the columns of X (chain order)."""
         from scipy.linalg.lapack import dstebz
         first, last = int(targets[0]), int(targets[-1])
         lo, hi = max(first - 1, 0), min(last + 1, self.n - 1)  # with the neighbours: their gaps
@@ -372,24 +384,24 @@ class TridiagonalChain:
             return None  # neighbouring roots closer than the bisection resolves
         x0 = self._start()
         omega2 = np.empty(len(targets))
-        X = np.empty((self.n, len(targets)))
         for j, lam in enumerate(w[targets - lo]):
             got = self._polish(float(lam), x0, slack)
             if got is None or not abs(got[0] - lam) <= slack:
                 return None  # the iteration settled on another root than this index's
             omega2[j], X[:, j] = got
-        return self._result(omega2, X)
+        return omega2
 
-    def _from_coarse(self, targets, d, e, slack):
+    def _from_coarse(self, targets, d, e, slack, X):
         """Targets started from the coarse model's roots and shapes, polished, and proven
-        to be the roots with these indices by Sturm counts below, between and above them."""
-        est, starts = self._coarse(targets)
-        if est is None:
+        to be the roots with these indices by Sturm counts below, between and above them:
+        omega^2, the vectors written into the columns of X (chain order)."""
+        coarse = self._coarse(targets)
+        if coarse is None:
             return None
+        est, start = coarse
         omega2 = np.empty(len(targets))
-        X = np.empty((self.n, len(targets)))
         for j in range(len(targets)):
-            got = self._polish(float(est[j]), starts[:, j], slack)
+            got = self._polish(float(est[j]), start(j), slack)
             if got is None:
                 return None
             omega2[j], X[:, j] = got
@@ -402,7 +414,7 @@ class TridiagonalChain:
         want = np.r_[targets, targets[-1] + 1]
         if not np.array_equal(self._counts(d, e, points), want):
             return None
-        return self._result(omega2, X)
+        return omega2
 
     @staticmethod
     def _counts(d, e, points) -> np.ndarray:
@@ -425,7 +437,8 @@ class TridiagonalChain:
         nodes between them following linearly in the compliance along the chain (exact for
         massless discs between: the kept nodes are joined by the links' series stiffness),
         their inertia and springs to ground shared out by the same weights (a Ritz
-        reduction with lumped inertia).  Shapes are the coarse modes interpolated."""
+        reduction with lumped inertia).  Returns the coarse roots and a function giving
+        the start vector of target j, its coarse mode interpolated; None if it fails."""
         from scipy.linalg.lapack import dgtsv, dstebz
         n = self.n
         want = max(COARSE_NODES, 8 * (int(targets[-1]) + 2))
@@ -460,7 +473,7 @@ class TridiagonalChain:
         m, lam, _, _, info = dstebz(Kd * s * s, Ko * s[:-1] * s[1:], 2, 0.0, 0.0, first + 1, last + 1,
                                     0.0, "E")
         if info != 0 or m != len(targets):
-            return None, None
+            return None
         lam = lam[:m]
         # coarse shapes: two inverse iteration steps each on the coarse chain
         y0 = np.random.default_rng(12345).uniform(0.5, 1.5, nb + 1)
@@ -470,12 +483,15 @@ class TridiagonalChain:
             for _ in range(2):
                 y, info = dgtsv(Ko, Kd - lam[j] * Jc, Ko, Jc * y)[3:]
                 if info != 0 or not np.all(np.isfinite(y)):
-                    return None, None
+                    return None
                 y = y / np.abs(y).max()
             Y[:, j] = y
-        # stations between kept nodes: (1 - w) at the near end, w at the far end
-        X = ((1.0 - w).ravel()[:, None] * Y[:-1].repeat(b, axis=0) + w.ravel()[:, None] * Y[1:].repeat(b, axis=0))
-        return lam, np.r_[X, Y[-1:]][:n]
+
+        def start(j):  # stations between kept nodes: (1 - w) at the near end, w at the far end
+            y = Y[:, j]
+            x = ((1.0 - w) * y[:-1, None] + w * y[1:, None]).ravel()
+            return np.r_[x, y[-1]][:n]
+        return lam, start
 
     def _start(self) -> np.ndarray:
         """A start vector with no rigid-body part (the start leans on the elastic modes)."""
@@ -503,11 +519,6 @@ class TridiagonalChain:
             if done:
                 return sigma, x
         return None
-
-    def _result(self, omega2, X):
-        phi = np.empty_like(X)
-        phi[self.order] = X
-        return np.sqrt(omega2), phi
 
 
 _LAST_SYSTEM: tuple = (None, None)
@@ -978,32 +989,52 @@ def _link_torques(mem, nl, Ta, Tb, Tm):
     return torque, t_from, t_to
 
 
+def _rows(x: np.ndarray, idx: np.ndarray) -> np.ndarray:
+    """x[idx] for row indices idx; a view, not a copy, where idx is a run of consecutive rows
+    (a chain's member ends): on a long train each copy is tens of MB of fresh memory."""
+    if len(idx) and idx[-1] - idx[0] == len(idx) - 1 and np.all(np.diff(idx) == 1):
+        return x[idx[0]:idx[-1] + 1]
+    return x[idx]
+
+
+def _largest(theta: np.ndarray):
+    """Per column: max |theta| and the first row where it is reached (as argmax of |theta|),
+    without an |theta| copy."""
+    hi, lo = theta.max(axis=0), theta.min(axis=0)
+    i_hi, i_lo = np.argmax(theta, axis=0), np.argmin(theta, axis=0)
+    big = np.maximum(hi, -lo)
+    at = np.where(hi > -lo, i_hi, np.where(hi < -lo, i_lo, np.minimum(i_hi, i_lo)))
+    return big, at
+
+
 def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray):
     """Disc angles normalised to a largest angle of +1, link torques and energy shares
-    per mode (arrays over discs or links and modes; see :class:`Modes`)."""
+    per mode (arrays over discs or links and modes; see :class:`Modes`).  Full-size
+    arrays are made as few as the results need (a 100 000-disc train: 17 MB each)."""
     train = system.train
     a = system.asm
     mem = a.members
     nd, nl = len(train.discs), len(train.links)
     cols = np.arange(phi.shape[1])
     plain = a.n_nodes == nd and np.array_equal(a.disc_node, np.arange(nd)) and np.all(a.disc_scale == 1.0)
-    theta = phi.copy() if plain else a.disc_scale[:, None] * phi[a.disc_node]  # actual disc angles
-    mag = np.abs(theta)
-    big = mag.max(axis=0)
+    theta = phi if plain else a.disc_scale[:, None] * phi[a.disc_node]  # actual disc angles
+    big, jmax = _largest(theta)
     big = np.where(big == 0, 1.0, big)
-    jmax = np.argmax(mag, axis=0)
-    del mag
     sign = np.sign(theta[jmax, cols])
     sign = np.where(sign == 0, 1.0, sign)
     norm = sign / big
-    theta *= norm
-    np.clip(theta, -1.0, 1.0, out=theta)
+    if plain:
+        phi = phi * norm
+        theta = np.clip(phi, -1.0, 1.0, order="C")  # C order: sums over discs as before
+    else:
+        theta *= norm
+        np.clip(theta, -1.0, 1.0, out=theta)
+        phi = phi * norm
     theta[jmax, cols] = 1.0  # exactly, not a rounding below
-    phi = phi * norm
     # member end angles in actual units of the member's own shaft
     tree = mem.b >= 0
-    pa = phi[mem.a]
-    pb = phi[mem.b] if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
+    pa = _rows(phi, mem.a)
+    pb = _rows(phi, mem.b) if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
     if np.all(mem.scale == 1.0):
         ta, tb = pa, pb
     else:
@@ -1020,26 +1051,28 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
             Ta[fl], Tb[fl], Tm[fl] = -Tb[fl], -Ta[fl], -Tm[fl]
         Tk = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
     else:  # springs: k (ta - tb) throughout, strain energy k (ta - tb)^2 / 2
-        dx = ta - tb
-        Tm = k_act * dx
-        U = 0.5 * k_act * dx ** 2
-        del dx
+        Tm = np.subtract(ta, tb, order="C")
+        del pa, pb, ta, tb, phi
+        U = np.square(Tm)
+        U *= 0.5 * k_act
+        Tm *= k_act
         if mem.flip.any():
             Tm[mem.flip] *= -1.0
         Ta = Tb = Tm
         Tk = None
     if len(mem.link) == nl and np.array_equal(mem.link, np.arange(nl)):
         strain = U  # one member per link, in link order (no rigid mesh, no segments)
-        link_kin = Tk if Tk is not None else np.zeros_like(U)
+        link_kin = Tk
     else:
         per_link = RowSum(mem.link, np.arange(len(mem.link)), (nl, len(mem.link)))
         strain = per_link @ U
-        link_kin = per_link @ Tk if Tk is not None else np.zeros((nl, len(cols)))
+        link_kin = per_link @ Tk if Tk is not None else None
     torque, t_from, t_to = _link_torques(mem, nl, Ta, Tb, Tm)
     J_eff = a.disc_inertia
     # a rigid-body mode (omega = 0) still has kinetic energy shares in proportion to J theta^2
     w_kin = np.where(omega > 0, omega, 1.0)
-    disc_kin = (0.5 * J_eff)[:, None] * theta ** 2
+    disc_kin = np.square(theta)
+    disc_kin *= (0.5 * J_eff)[:, None]
     disc_kin *= (w_kin ** 2)[None, :]
     if len(a.disc_node) and a.disc_node.max() + 1 < nd:  # discs merged: rigid meshes
         rigid = a.link_rigid
@@ -1049,12 +1082,17 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
             torque, t_from, t_to = torque.copy(), t_from.copy(), t_to.copy()
         for li in np.flatnonzero(rigid).tolist():
             torque[li] = t_from[li] = t_to[li] = end_torque[li][0]
-    tot_kin = disc_kin.sum(0) + link_kin.sum(0)
+    tot_kin = disc_kin.sum(0) + (link_kin.sum(0) if link_kin is not None else 0.0)
     tot_kin = np.where(tot_kin == 0, 1.0, tot_kin)
     tot_str = strain.sum(0)
     tot_str = np.where(tot_str == 0, 1.0, tot_str)
     disc_kin /= tot_kin
-    return (theta.T, torque.T, disc_kin.T, (link_kin / tot_kin).T, (strain / tot_str).T)
+    if strain is U:
+        strain /= tot_str
+    else:
+        strain = strain / tot_str
+    link_share = np.zeros((nl, len(cols))) if link_kin is None else link_kin / tot_kin
+    return theta.T, torque.T, disc_kin.T, link_share.T, strain.T
 
 
 MAX_MODES = 400  # elastic modes one solve returns with their shapes
@@ -1160,7 +1198,9 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         hi = total = None  # bracketed when the general method needs it
         targets = np.arange(n_zero, want)
         requested = f"lowest {N} elastic modes"
-    solved = system.chain.modes(targets) if len(targets) and system.chain is not None else None
+    solved = None
+    if len(targets) and system.chain is not None:  # its rigid-body column made in place
+        solved = system.chain.modes(targets, rigid_column=bool(rb))
     if solved is not None:
         omega, phi = solved
     elif len(targets):
@@ -1180,7 +1220,8 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
                      + " takes no part in the undamped modes; see the damper-locked and damped frequencies")
     if rb:
         omega = np.r_[0.0, omega]
-        phi = np.c_[np.ones(system.n_dof), phi]
+        if solved is None:
+            phi = np.c_[np.ones(system.n_dof), phi]
     theta, torque, kin, lkin, strain = _modal_quantities(system, omega, phi)
     rigid = np.zeros(len(omega), bool)
     if rb:
