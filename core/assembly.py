@@ -83,7 +83,11 @@ def assemble(train: Train) -> Assembly:
     n_discs, nl = len(discs), len(links)
     index = dict(zip(train.disc_ids, range(n_discs)))
     index[GROUND] = -1
-    s = np.fromiter(map(train.speed_factor.__getitem__, train.disc_ids), float, n_discs)
+    sf = train.speed_factor
+    if len(sf) == n_discs and set(sf.values()) == {1.0}:  # one speed throughout (no gears)
+        s = np.ones(n_discs)
+    else:
+        s = np.fromiter(map(sf.__getitem__, train.disc_ids), float, n_discs)
     J = np.fromiter(map(attrgetter("inertia"), discs), float, n_discs)
     # one pass per field over the links (map and attrgetter: no Python frame per link)
     fi = np.fromiter(map(index.__getitem__, map(attrgetter("from_id"), links)), np.int64, nl)

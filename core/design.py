@@ -57,7 +57,7 @@ from .elimination import RowSum, factor
 from .errors import ModelError
 from .model import Train
 from .screening import Screening, excitation_lines, screen, screening_cap_hz
-from .solver import (DynamicSystem, Modes, _inverse_iteration, _map, _segment_energies, dynamic_system,
+from .solver import (DynamicSystem, Modes, _inverse_iteration, _map, _rows, _segment_energies, dynamic_system,
                      natural_modes, zero_roots)
 from .tolerance import corner_trains, frequency_bands, scaled_disc, scaled_link
 
@@ -146,12 +146,12 @@ def sensitivities(modes: Modes) -> Sensitivities:
     train = modes.train
     rows = np.flatnonzero(modes.elastic)
     omega = TWO_PI * np.asarray(modes.frequency_hz, float)[rows]
-    phi = _node_shapes(modes)[:, rows]
+    phi = _rows(_node_shapes(modes).T, rows).T  # the elastic columns (a view where they run on)
     a = dynamic_system(train).asm  # the solver's own assembly of this train
     mem = a.members
     tree = mem.b >= 0
-    pa = phi[mem.a]
-    pb = phi[mem.b] if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
+    pa = _rows(phi, mem.a)
+    pb = _rows(phi, mem.b) if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
     if np.all(mem.scale == 1.0):
         ta, tb = pa, pb
     else:
@@ -162,27 +162,32 @@ def sensitivities(modes: Modes) -> Sensitivities:
         U, Tk = _segment_energies(k_act, x, ta, tb)  # per member, (n_members, k)
         Tk = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)  # own kinetic energy of distributed members
     else:  # springs: U = k (dtheta)^2 / 2, no own kinetic energy
-        U, Tk = 0.5 * k_act * (ta - tb) ** 2, None
+        U = np.subtract(ta, tb, order="C")
+        np.square(U, out=U)
+        U *= 0.5 * k_act
+        Tk = None
     w2 = omega[None, :] ** 2
     links = train.links
     nl = len(links)
     J = np.fromiter(map(attrgetter("inertia"), train.discs), float, len(train.discs))
     plain = a.n_nodes == len(J) and np.array_equal(a.disc_node, np.arange(len(J))) and np.all(a.disc_scale == 1.0)
-    theta = np.ascontiguousarray(phi) if plain else a.disc_scale[:, None] * phi[a.disc_node]
-    T_disc = (0.5 * J)[:, None] * theta ** 2
+    T_disc = np.square(phi if plain else a.disc_scale[:, None] * phi[a.disc_node], order="C")
+    T_disc *= (0.5 * J)[:, None]
     T_disc *= w2
     one_each = len(mem.link) == nl and np.array_equal(mem.link, np.arange(nl))  # a member per link
     per_link = None if one_each else RowSum(mem.link, np.arange(len(mem.link)), (nl, len(mem.link)))
     U_link = U if one_each else per_link @ U
-    # a shaft's own kinetic energy
-    T_link = np.zeros((nl, len(rows))) if Tk is None else (Tk if one_each else per_link @ Tk)
     lumped = np.flatnonzero(a.link_mass == 1)
+    # a shaft's own kinetic energy (None: no link has any)
+    T_link = (Tk if one_each else per_link @ Tk) if Tk is not None else None
     if len(lumped):  # half its own inertia at each end (ground does not move); one member each
+        if T_link is None:
+            T_link = np.zeros((nl, len(rows)))
         m = np.searchsorted(mem.link, lumped)
         own = np.array([links[li].own_inertia for li in lumped.tolist()], float)
         T_link[lumped] = (0.25 * own)[:, None] * (ta[m] ** 2 + tb[m] ** 2) * w2
     U_tot = U_link.sum(0)
-    T_tot = T_disc.sum(0) + T_link.sum(0)
+    T_tot = T_disc.sum(0) + (T_link.sum(0) if T_link is not None else 0.0)
     U_tot = np.where(U_tot > 0, U_tot, 1.0)
     T_tot = np.where(T_tot > 0, T_tot, 1.0)
     stiff_links = np.flatnonzero(~a.link_rigid)
@@ -200,10 +205,14 @@ def sensitivities(modes: Modes) -> Sensitivities:
             flex = np.array([1.0 / s.stiffness(G) for s in l.segments])
             dU = (alpha @ flex / flex.sum()) * U_link[li]
             mass = np.array([s.polar_moment * s.length for s in l.segments])
-            dT = (alpha @ mass / mass.sum()) * T_link[li]
+            dT = (alpha @ mass / mass.sum()) * (T_link[li] if T_link is not None else 0.0)
         diam[:, c] = 0.5 * (dU / U_tot - dT / T_tot)
     all_stiff = len(stiff_links) == nl
-    stiffness = 0.5 * (U_link if all_stiff else U_link[stiff_links])
+    if all_stiff and U_link is U and not a.distributed:
+        stiffness = U  # a temporary of this function: scaled in place
+        stiffness *= 0.5
+    else:
+        stiffness = 0.5 * (U_link if all_stiff else U_link[stiff_links])
     stiffness /= U_tot
     T_disc *= -0.5
     T_disc /= T_tot
