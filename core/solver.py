@@ -82,7 +82,14 @@ class DynamicSystem:
         self.n_dof = a.n_nodes
         # points per elimination pass: bounds the working arrays to a few MB
         self.chunk = int(np.clip(2 ** 21 // max(a.n_nodes, 1), 16, 1024))
-        self.chain = TridiagonalChain.of(a) if a.n_nodes >= CHAIN_MIN_NODES else None
+
+    @property
+    def chain(self) -> "TridiagonalChain | None":
+        """The train as a tridiagonal chain (:class:`TridiagonalChain`), or None when it is
+        not one; made on first use."""
+        if "_chain" not in self.__dict__:
+            self._chain = TridiagonalChain.of(self.asm)
+        return self._chain
 
     def __getattr__(self, name):
         if name in DynamicSystem._PLANNED and "schedule" not in self.__dict__:
@@ -269,12 +276,13 @@ class DynamicSystem:
         return num / den
 
 
-#: lumped chains of at least this many nodes find their modes with LAPACK as a symmetric
-#: tridiagonal eigenproblem (:class:`TridiagonalChain`).  A shorter chain is solved by the
-#: general method in less time than loading scipy.linalg takes (0.15-0.2 s, a command
-#: line run pays it once; measured: 10 000 discs, lowest 20 modes, 0.10 s general method
-#: against 0.05 s tridiagonal)
-CHAIN_MIN_NODES = 10_000
+#: a lumped chain finds its modes with LAPACK as a symmetric tridiagonal eigenproblem
+#: (:class:`TridiagonalChain`) when its nodes times the roots wanted reach this.  The
+#: general method's work grows with that product; below it, it takes less time than
+#: loading scipy.linalg does (0.15-0.2 s, once per command line run).  Measured, lowest 20
+#: modes: 10 000 discs 0.10 s general against 0.05 s tridiagonal, 20 000 discs 0.20 s
+#: against 0.07 s; a screening of 20 000 discs asks for about 5 and stays general.
+CHAIN_MIN_WORK = 400_000
 #: a chain at least COARSE_FACTOR times longer than its coarse model (COARSE_NODES nodes, or
 #: 8 per mode wanted) starts its roots from that model rather than bisecting for them
 COARSE_NODES = 2000
@@ -1199,7 +1207,8 @@ def natural_modes(train: Train, max_frequency_hz: float | None = None,
         targets = np.arange(n_zero, want)
         requested = f"lowest {N} elastic modes"
     solved = None
-    if len(targets) and system.chain is not None:  # its rigid-body column made in place
+    if len(targets) and system.n_dof * len(targets) >= CHAIN_MIN_WORK and system.chain is not None:
+        # the rigid-body column is made in place
         solved = system.chain.modes(targets, rigid_column=bool(rb))
     if solved is not None:
         omega, phi = solved

@@ -158,7 +158,7 @@ def chain_path(monkeypatch):
     """Every lumped chain, however short, takes the tridiagonal route; ``coarse=True``
     makes even a short one start from a coarse model of itself."""
     def use(coarse: bool):
-        monkeypatch.setattr(solver, "CHAIN_MIN_NODES", 2)
+        monkeypatch.setattr(solver, "CHAIN_MIN_WORK", 0)
         monkeypatch.setattr(solver, "COARSE_NODES", 2)
         monkeypatch.setattr(solver, "COARSE_FACTOR", 1 if coarse else 10 ** 9)
     return use
@@ -166,13 +166,13 @@ def chain_path(monkeypatch):
 
 def _general(doc, **kw):
     """The same solve by the general method (the tridiagonal route switched off)."""
-    old = solver.CHAIN_MIN_NODES
-    solver.CHAIN_MIN_NODES = 10 ** 12
+    old = solver.CHAIN_MIN_WORK
+    solver.CHAIN_MIN_WORK = 10 ** 18
     try:
         solver._LAST_SYSTEM = (None, None)
         return natural_modes(build_train(doc), **kw)
     finally:
-        solver.CHAIN_MIN_NODES = old
+        solver.CHAIN_MIN_WORK = old
         solver._LAST_SYSTEM = (None, None)
 
 
@@ -257,10 +257,10 @@ def test_random_chain_shapes_solve_the_dense_eigenproblem(chain_path, doc):
 
 
 def test_long_uniform_free_free_chain_matches_the_closed_form():
-    """The route a 10 000-disc chain takes by default (roots from a coarse model, proven by
-    counts) against omega_k = 2 sqrt(k / J) sin(k pi / (2 N)) (closed form, see the module
-    docstring)."""
-    n, J, k = 10_000, 2.0, 3.0e6
+    """The route a 20 000-disc chain takes by default for 20 modes (roots from a coarse
+    model, proven by counts) against omega_k = 2 sqrt(k / J) sin(k pi / (2 N)) (closed
+    form, see the module docstring)."""
+    n, J, k = 20_000, 2.0, 3.0e6
     solver._LAST_SYSTEM = (None, None)
     train = build_train(uniform_chain(n, J, k))
     assert solver.dynamic_system(train).chain is not None
@@ -298,11 +298,12 @@ def test_uniform_fixed_free_chain_matches_the_closed_form(chain_path, coarse):
 
 
 @pytest.mark.parametrize("ratio", [0.4, 2.5])
-def test_chain_with_a_gear_pair_equals_its_referred_equivalent(ratio):
-    """A 12 000-disc chain with an elastic gear mesh in the middle (default route) against the
+def test_chain_with_a_gear_pair_equals_its_referred_equivalent(chain_path, ratio):
+    """A 12 000-disc chain with an elastic gear mesh in the middle (the coarse-model route) against the
     same chain without the mesh: the discs beyond it and the shafts between them referred to
     the first shaft by ratio^2, the mesh a spring of its own stiffness (given on its `from`
     shaft, energy equivalence; see the module docstring)."""
+    chain_path(True)
     n, half = 12_000, 6_000
     rng = np.random.default_rng(7)
     J = rng.uniform(0.5, 2.0, n) * 1e-2  # invented
@@ -341,7 +342,7 @@ def test_long_chain_takes_the_tridiagonal_route_without_an_elimination_plan(monk
     monkeypatch.setattr(solver, "_find_roots", refuse)
     monkeypatch.setattr(solver, "cached_schedule", refuse)
     solver._LAST_SYSTEM = (None, None)
-    modes = natural_modes(build_train(uniform_chain(12_000)), n_modes=20)
+    modes = natural_modes(build_train(uniform_chain(20_000)), n_modes=20)
     assert len(modes) == 21 and modes.rigid_body[0]
 
 
