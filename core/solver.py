@@ -296,18 +296,26 @@ class TridiagonalChain:
     springs to ground anywhere.
 
     Natural frequencies: omega^2 are the eigenvalues of the symmetric tridiagonal matrix
-    J^-1/2 K J^-1/2, each located by its index with LAPACK's bisection on the Sturm
-    sequence (dstebz; W. Kahan, "Accurate eigenvalues of a symmetric tri-diagonal
-    matrix", Stanford CS41, 1966 -- from memory), so no mode is missed or found twice,
-    as with the Wittrick-Williams count of the general method.  Bisection is accurate
-    to eps ||J^-1/2 K J^-1/2|| absolute, which on a long chain is a relative 1e-7 of its
-    low modes; each is therefore polished by Rayleigh-quotient iteration on K - sigma J
-    (LAPACK dgtsv solves, the quotient summed as member strain energies k dx^2, all
-    positive, as the general method does), cubically convergent (B. N. Parlett, The
-    Symmetric Eigenvalue Problem, 1980, ch. 4), until a step changes omega^2 by less
-    than 1e-12.  The polished value must lie in its own bisection interval, and the
-    intervals of neighbouring indices must be apart; otherwise :meth:`modes` returns
-    None and the general method is used.
+    J^-1/2 K J^-1/2.  Each root is polished by Rayleigh-quotient iteration on K - sigma J
+    (LAPACK dgtsv, which pivots; the quotient summed as member strain energies k dx^2,
+    all positive, as the general method does), cubically convergent (B. N. Parlett, The
+    Symmetric Eigenvalue Problem, 1980, ch. 4), until a step from a quotient changes it
+    by less than 1e-12.  It starts either
+
+    * on a long chain, from the roots and shapes of a coarse model of itself
+      (:meth:`_coarse`, a Ritz reduction in the manner of R. J. Guyan, "Reduction of
+      stiffness and mass matrices", AIAA J. 3 (1965) 380 -- from memory); the polished
+      roots are then proven to be those with the wanted indices by Sturm counts below,
+      between and above them (LAPACK dstebz asked only to count; Sylvester's law of
+      inertia, as the Wittrick-Williams count of the general method); or
+    * from LAPACK's bisection on the Sturm sequence (dstebz; W. Kahan, "Accurate
+      eigenvalues of a symmetric tri-diagonal matrix", Stanford CS41, 1966 -- from
+      memory), which locates every root by its index to eps ||J^-1/2 K J^-1/2||
+      absolute (on a long chain a relative 1e-7 of its low modes, hence the polish);
+      each polished root must stay in its own interval.
+
+    Either way no mode is missed or found twice.  Where roots lie closer than the counts
+    resolve, :meth:`modes` returns None and the general method is used.
     """
 
     def __init__(self, asm: Assembly, order: np.ndarray):
@@ -516,9 +524,11 @@ class TridiagonalChain:
         from_quotient = False  # convergence is judged from a shift that is itself a quotient
         for _ in range(12):
             y, info = dgtsv(sub, kd - sigma * J, sub, J * x)[3:]
-            if info != 0:  # K - sigma J exactly singular: sigma is the root to rounding
-                sigma = sigma * (1.0 + 4.0 * np.finfo(float).eps) + 1e-3 * slack
-                continue
+            if info != 0:  # K - sigma J exactly singular: sigma is the root to rounding,
+                # and a solve a hair off it gives its vector
+                y, info = dgtsv(sub, kd - (sigma * (1.0 + 1e-13) + 1e-3 * slack) * J, sub, J * x)[3:]
+                if info != 0:
+                    return None
             y /= np.abs(y).max()
             rho = self.rayleigh(y)
             x = y

@@ -369,6 +369,30 @@ def test_bisection_and_coarse_routes_agree_on_a_rough_long_chain():
     np.testing.assert_allclose(Xc, Xb * sign, atol=1e-8)
 
 
+def test_chain_route_gets_past_an_exactly_singular_shift(chain_path, monkeypatch):
+    """Equal discs, doubled shafts and equal springs to ground: K - sigma J is singular to
+    the last bit at a root, where LAPACK's solve stops; the route solves a hair off it and
+    keeps the vector at rounding (against dense eigh) without the general method."""
+    chain_path(True)
+    monkeypatch.setattr(solver, "_find_roots", lambda *a, **k: pytest.fail("general method used"))
+    n = 18
+    discs = [{"id": f"d{i}", "inertia": 0.05078125} for i in range(n)]
+    links = [{"id": f"s{i}{c}", "kind": "shaft", "from": f"d{i + 1}", "to": f"d{i}", "stiffness": 1e4}
+             for i in range(n - 1) for c in "ab"]
+    links += [{"id": f"g{i}", "kind": "shaft", "from": "ground", "to": f"d{i}", "stiffness": 1e4} for i in range(n)]
+    doc = _doc(discs, links)
+    K, M = dense_reference(doc)[:2]
+    lam = sla.eigh(K, M, eigvals_only=True)
+    solver._LAST_SYSTEM = (None, None)
+    modes = natural_modes(build_train(doc), n_modes=12)
+    np.testing.assert_allclose(modes.frequency_hz, np.sqrt(lam[:12]) / (2 * math.pi), rtol=1e-12)
+    for i in range(12):
+        q = modes.node_shape[i]
+        w2 = (2 * math.pi * modes.frequency_hz[i]) ** 2
+        scale = (np.abs(K) @ np.abs(q) + w2 * np.abs(M) @ np.abs(q)).max()
+        assert np.abs((K - w2 * M) @ q).max() <= 1e-13 * scale
+
+
 def test_nearly_repeated_roots_fall_back_to_the_general_method(chain_path):
     """Two equal chains joined by a spring 1e-14 of the others': pairs of roots closer than
     the Sturm counts resolve; the general method (repeated roots made M-orthogonal) answers."""
