@@ -421,6 +421,11 @@ class TridiagonalChain:
             if got is None:
                 return None
             omega2[j], X[:, j] = got
+        # two close roots may each have settled on the other's: the set is what counts
+        order = np.argsort(omega2, kind="stable")
+        if not np.array_equal(order, np.arange(len(order))):
+            omega2 = omega2[order]
+            X[:] = X[:, order]
         if len(omega2) > 1 and not np.diff(omega2).min() > 8.0 * slack:
             return None
         # a root polished to rounding lies within `slack` of an eigenvalue; the counts at

@@ -369,6 +369,40 @@ def test_bisection_and_coarse_routes_agree_on_a_rough_long_chain():
     np.testing.assert_allclose(Xc, Xb * sign, atol=1e-8)
 
 
+def test_coarse_route_on_rough_chains_with_heavy_discs_and_soft_couplings():
+    """Invented long chains, inertias and stiffnesses spread over decades, heavy discs and
+    very soft couplings here and there, some springs to ground: the coarse-model route
+    (seed 3 has two close roots that the polish swaps) agrees with the bisection route."""
+    from core.model import Disc, Link, Train
+    for seed in (0, 3):
+        rng = np.random.default_rng(seed)
+        n = int(rng.integers(10000, 40000))
+        rng = np.random.default_rng(seed)
+        J = rng.uniform(0.1, 3.0, n) * 10 ** rng.uniform(-1, 1, n)
+        k = rng.uniform(0.5e6, 2e6, n - 1) * n / 1000
+        soft = rng.choice(n - 1, rng.integers(0, 30), replace=False)
+        k[soft] *= 10 ** rng.uniform(-5, -1, len(soft))
+        heavy = rng.choice(n, rng.integers(0, 10), replace=False)
+        J[heavy] *= 10 ** rng.uniform(1, 4, len(heavy))
+        links = [Link(f"s{i}", "shaft", f"d{i}", f"d{i + 1}", float(k[i])) for i in range(n - 1)]
+        if seed % 3 == 0:
+            links += [Link(f"g{i}", "shaft", "ground", f"d{i}", float(rng.uniform(1e5, 1e7)))
+                      for i in rng.choice(n, 5, replace=False)]
+        train = Train("rough", tuple(Disc(f"d{i}", f"d{i}", float(J[i])) for i in range(n)), tuple(links),
+                      speed_factor={f"d{i}": 1.0 for i in range(n)})
+        solver._LAST_SYSTEM = (None, None)
+        chain = solver.dynamic_system(train).chain
+        d, e, slack = chain.symmetric()
+        targets = np.arange(25)  # grounded: the first root is elastic
+        Xc, Xb = np.empty((n, 25)), np.empty((n, 25))
+        coarse = chain._from_coarse(targets, d, e, slack, Xc)
+        bisected = chain._from_bisection(targets, d, e, slack, Xb)
+        assert coarse is not None and bisected is not None
+        np.testing.assert_allclose(coarse, bisected, rtol=1e-12)
+        sign = np.sign(np.sum(Xc * Xb, axis=0))
+        np.testing.assert_allclose(Xc, Xb * sign, atol=1e-8)
+
+
 def test_chain_route_gets_past_an_exactly_singular_shift(chain_path, monkeypatch):
     """Equal discs, doubled shafts and equal springs to ground: K - sigma J is singular to
     the last bit at a root, where LAPACK's solve stops; the route solves a hair off it and
