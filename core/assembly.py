@@ -11,6 +11,7 @@ Ground is not a node: a member to ground adds to one node's diagonal only.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from operator import attrgetter
 
 import numpy as np
 
@@ -47,6 +48,11 @@ class Assembly:
     # discs): an edge's off-diagonal is then the sum of its members' (see edge_sum);
     # without, edge j is tree member j and the sum is the identity (the fast path)
     parallel: bool = False
+    # per disc: its own inertia plus half of every lumped shaft ending on it, actual (not
+    # referred), kg*m^2 -- as :func:`effective_disc_inertia`
+    disc_inertia: np.ndarray | None = None
+    link_mass: np.ndarray | None = None  # per link: 0 no own inertia, 1 lumped, 2 distributed
+    link_rigid: np.ndarray | None = None  # per link: a rigid gear mesh (no stiffness)
 
     def edge_sum(self, values):
         """Off-diagonal per edge from values over the tree members (members with b >= 0,
@@ -72,20 +78,25 @@ class Assembly:
 
 def assemble(train: Train) -> Assembly:
     """Referred nodes and members of ``train`` (numpy over links; a Python loop
-    only over rigid meshes and the segments of distributed shafts)."""
+    only over rigid meshes, lumped shafts and the segments of distributed shafts)."""
     discs, links = train.discs, train.links
-    index = {d.id: i for i, d in enumerate(discs)}
+    n_discs, nl = len(discs), len(links)
+    index = dict(zip(train.disc_ids, range(n_discs)))
     index[GROUND] = -1
     sf = train.speed_factor
-    s = np.fromiter((sf[d.id] for d in discs), float, len(discs))
-    J = np.fromiter((d.inertia for d in discs), float, len(discs))
-    # one pass over the links: ends, kind code (0 shaft/coupling, 1 gear), mass code
+    if len(sf) == n_discs and set(sf.values()) == {1.0}:  # one speed throughout (no gears)
+        s = np.ones(n_discs)
+    else:
+        s = np.fromiter(map(sf.__getitem__, train.disc_ids), float, n_discs)
+    J = np.fromiter(map(attrgetter("inertia"), discs), float, n_discs)
+    # one pass per field over the links (map and attrgetter: no Python frame per link)
+    fi = np.fromiter(map(index.__getitem__, map(attrgetter("from_id"), links)), np.int64, nl)
+    ti = np.fromiter(map(index.__getitem__, map(attrgetter("to_id"), links)), np.int64, nl)
+    gear = np.fromiter(map("gear_mesh".__eq__, map(attrgetter("kind"), links)), bool, nl)
     MASS = {"none": 0, "lumped": 1, "distributed": 2}
-    rows = np.array([(index[l.from_id], index[l.to_id], l.kind == "gear_mesh", MASS[l.mass],
-                      l.stiffness is None) for l in links], np.int64).reshape(len(links), 5)
-    fi, ti = rows[:, 0], rows[:, 1]
-    gear = rows[:, 2].astype(bool)
-    rigid = gear & rows[:, 4].astype(bool)
+    mass = np.fromiter(map(MASS.__getitem__, map(attrgetter("mass"), links)), np.int64, nl)
+    given = np.array(list(map(attrgetter("stiffness"), links)), float).reshape(nl)  # None -> NaN
+    rigid = gear & np.isnan(given)
     # merge discs joined by rigid gear meshes
     parent = list(range(len(discs)))
 
@@ -109,22 +120,32 @@ def assemble(train: Train) -> Assembly:
 
     nd = np.where(fi >= 0, disc_node[np.maximum(fi, 0)], -1)  # node at `from` (-1 ground)
     nt = np.where(ti >= 0, disc_node[np.maximum(ti, 0)], -1)
-    dist = rows[:, 3] == 2
-    lumped = rows[:, 3] == 1
+    dist = mass == 2
+    lumped = mass == 1
     # speed factor of each link's shaft; a mesh stiffness is referred to its `from` shaft
     end = np.where((fi >= 0) | gear, fi, ti)
     sc = s[np.maximum(end, 0)] if len(links) else np.zeros(0)
     simple = ~rigid & ~dist
-    ks = np.array([l.stiffness if l.kind == "gear_mesh" else l.total_stiffness
-                   for l in np.asarray(links, object)[simple]], float) if simple.any() else np.zeros(0)
+    # a gear mesh's stiffness as given; a shaft's or coupling's total stiffness (given, or
+    # from its segments in series)
+    li_s = np.flatnonzero(simple)
+    ks = given[li_s]
+    for j in np.flatnonzero(np.isnan(ks)):
+        ks[j] = links[int(li_s[j])].total_stiffness
+    disc_inertia = J.copy()  # each disc's own inertia plus half of every lumped shaft at it
     if lumped.any():
+        li_l = np.flatnonzero(lumped)
+        own = np.array([links[li].own_inertia for li in li_l], float)
         half = np.zeros(len(links))
-        half[lumped] = [0.5 * links[li].own_inertia for li in np.flatnonzero(lumped)]
+        half[li_l] = 0.5 * own
+        # in link order, `from` end then `to` end (as effective_disc_inertia adds them)
+        ends = np.c_[fi[li_l], ti[li_l]].ravel()
+        ok = ends >= 0
+        np.add.at(disc_inertia, ends[ok], np.repeat(0.5 * own, 2)[ok])
         half *= sc * sc
         for ends in (nd, nt):
             ok = lumped & (ends >= 0)
             inertia += np.bincount(ends[ok], weights=half[ok], minlength=n_nodes)
-    li_s = np.flatnonzero(simple)
     ma, mb = nd[li_s], nt[li_s]
     mk, mlc, mlink, msc = ks * sc[li_s] ** 2, np.zeros(len(li_s)), li_s, sc[li_s]
     # distributed shafts: a chain of exact uniform members with massless junctions
@@ -174,7 +195,7 @@ def assemble(train: Train) -> Assembly:
         member_edge[tree] = np.arange(int(tree.sum()))
         ea, eb = ta, tb
     return Assembly(n_all, np.asarray(inertia, float), disc_node, s, members, ea, eb, member_edge,
-                    bool(np.any(~tree)), bool(dist.any()), parallel)
+                    bool(np.any(~tree)), bool(dist.any()), parallel, disc_inertia, mass, rigid)
 
 
 def member_stiffness(members: Members, omega):

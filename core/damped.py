@@ -56,9 +56,6 @@ import math
 from dataclasses import dataclass, field, replace
 
 import numpy as np
-import scipy.linalg
-import scipy.sparse
-import scipy.sparse.linalg
 
 from .assembly import assemble, effective_disc_inertia
 from .errors import ModelError
@@ -125,6 +122,7 @@ def state_eigenvalues(M, K, C) -> np.ndarray:
     """All finite eigenvalues of M q'' + C q' + K q = 0 from the first-order form (scipy.linalg.eig):
     [[0, I], [-M^-1 K, -M^-1 C]] for a diagonal M of positive inertias, else the generalised
     pair ([[0, I], [-K, -C]], [[I, 0], [0, M]]) (massless junctions give infinite roots, dropped)."""
+    import scipy.linalg  # here, not at the top: a train without damping never loads it
     n = M.shape[0]
     I, Z = np.eye(n), np.zeros((n, n))
     d = np.diag(M)
@@ -183,6 +181,9 @@ def _hysteretic_roots(m: LumpedMatrices, lam0: np.ndarray, w_scale: float, max_f
     symmetric) and omega refreshed every step, from the roots of the problem without H
     (or the undamped ones).  One sparse n x n complex solve per step.
     """
+    import scipy.linalg
+    import scipy.sparse
+    import scipy.sparse.linalg
     start = lam0[(lam0.imag > 1e-9 * np.abs(lam0)) & (np.abs(lam0) > 1e-7 * w_scale)]
     if max_frequency_hz is not None:
         start = start[np.abs(start) <= 1.25 * TWO_PI * max_frequency_hz]

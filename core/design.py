@@ -48,15 +48,16 @@ import math
 import threading
 import time
 from dataclasses import dataclass, field, replace
+from operator import attrgetter
 
 import numpy as np
 
-from .assembly import assemble, clamped_count, clamped_count_x, end_stiffness
-from .elimination import factor
+from .assembly import clamped_count, clamped_count_x, end_stiffness
+from .elimination import RowSum, factor
 from .errors import ModelError
 from .model import Train
 from .screening import Screening, excitation_lines, screen, screening_cap_hz
-from .solver import (DynamicSystem, Modes, _inverse_iteration, _map, _segment_energies, dynamic_system,
+from .solver import (DynamicSystem, Modes, _inverse_iteration, _map, _rows, _segment_energies, dynamic_system,
                      natural_modes, zero_roots)
 from .tolerance import corner_trains, frequency_bands, scaled_disc, scaled_link
 
@@ -145,38 +146,55 @@ def sensitivities(modes: Modes) -> Sensitivities:
     train = modes.train
     rows = np.flatnonzero(modes.elastic)
     omega = TWO_PI * np.asarray(modes.frequency_hz, float)[rows]
-    phi = _node_shapes(modes)[:, rows]
-    a = assemble(train)
+    phi = _rows(_node_shapes(modes).T, rows).T  # the elastic columns (a view where they run on)
+    a = dynamic_system(train).asm  # the solver's own assembly of this train
     mem = a.members
-    tree = (mem.b >= 0)[:, None]
-    ta = phi[mem.a] * mem.scale[:, None]
-    tb = np.where(tree, phi[np.maximum(mem.b, 0)], 0.0) * mem.scale[:, None]
+    tree = mem.b >= 0
+    pa = _rows(phi, mem.a)
+    pb = _rows(phi, mem.b) if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
+    if np.all(mem.scale == 1.0):
+        ta, tb = pa, pb
+    else:
+        ta, tb = pa * mem.scale[:, None], pb * mem.scale[:, None]
     k_act = (mem.k / mem.scale ** 2)[:, None]
-    x = mem.L_over_c[:, None] * omega[None, :]
-    U, Tk = _segment_energies(k_act, x, ta, tb)  # per member, (n_members, k)
-    Tk = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)  # own kinetic energy of distributed members
+    if a.distributed:
+        x = mem.L_over_c[:, None] * omega[None, :]
+        U, Tk = _segment_energies(k_act, x, ta, tb)  # per member, (n_members, k)
+        Tk = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)  # own kinetic energy of distributed members
+    else:  # springs: U = k (dtheta)^2 / 2, no own kinetic energy
+        U = np.subtract(ta, tb, order="C")
+        np.square(U, out=U)
+        U *= 0.5 * k_act
+        Tk = None
     w2 = omega[None, :] ** 2
-    J = np.array([d.inertia for d in train.discs], float)
-    theta = a.disc_scale[:, None] * phi[a.disc_node]
-    T_disc = 0.5 * J[:, None] * theta ** 2 * w2
-    nl = len(train.links)
-    U_link = np.zeros((nl, len(rows)))
-    np.add.at(U_link, mem.link, U)
-    T_link = np.zeros((nl, len(rows)))  # a shaft's own kinetic energy
-    np.add.at(T_link, mem.link, Tk)
-    for li, l in enumerate(train.links):
-        if l.mass == "lumped":  # half its own inertia at each end (ground does not move)
-            m = np.flatnonzero(mem.link == li)[0]
-            T_link[li] = 0.25 * l.own_inertia * (ta[m] ** 2 + tb[m] ** 2) * w2[0]
+    links = train.links
+    nl = len(links)
+    J = np.fromiter(map(attrgetter("inertia"), train.discs), float, len(train.discs))
+    plain = a.n_nodes == len(J) and np.array_equal(a.disc_node, np.arange(len(J))) and np.all(a.disc_scale == 1.0)
+    T_disc = np.square(phi if plain else a.disc_scale[:, None] * phi[a.disc_node], order="C")
+    T_disc *= (0.5 * J)[:, None]
+    T_disc *= w2
+    one_each = len(mem.link) == nl and np.array_equal(mem.link, np.arange(nl))  # a member per link
+    per_link = None if one_each else RowSum(mem.link, np.arange(len(mem.link)), (nl, len(mem.link)))
+    U_link = U if one_each else per_link @ U
+    lumped = np.flatnonzero(a.link_mass == 1)
+    # a shaft's own kinetic energy (None: no link has any)
+    T_link = (Tk if one_each else per_link @ Tk) if Tk is not None else None
+    if len(lumped):  # half its own inertia at each end (ground does not move); one member each
+        if T_link is None:
+            T_link = np.zeros((nl, len(rows)))
+        m = np.searchsorted(mem.link, lumped)
+        own = np.array([links[li].own_inertia for li in lumped.tolist()], float)
+        T_link[lumped] = (0.25 * own)[:, None] * (ta[m] ** 2 + tb[m] ** 2) * w2
     U_tot = U_link.sum(0)
-    T_tot = T_disc.sum(0) + T_link.sum(0)
+    T_tot = T_disc.sum(0) + (T_link.sum(0) if T_link is not None else 0.0)
     U_tot = np.where(U_tot > 0, U_tot, 1.0)
     T_tot = np.where(T_tot > 0, T_tot, 1.0)
-    stiff_links = [li for li, l in enumerate(train.links) if not l.is_rigid]
-    shafts = [li for li, l in enumerate(train.links) if l.segments]
+    stiff_links = np.flatnonzero(~a.link_rigid)
+    shafts = np.flatnonzero(np.fromiter(map(bool, map(attrgetter("segments"), links)), bool, nl)).tolist()
     diam = np.zeros((len(rows), len(shafts)))
     for c, li in enumerate(shafts):
-        l = train.links[li]
+        l = links[li]
         alpha = np.array([_diameter_factor(s) for s in l.segments])
         ms = np.flatnonzero(mem.link == li)
         if l.mass == "distributed":  # one member per segment, in segment order
@@ -187,14 +205,22 @@ def sensitivities(modes: Modes) -> Sensitivities:
             flex = np.array([1.0 / s.stiffness(G) for s in l.segments])
             dU = (alpha @ flex / flex.sum()) * U_link[li]
             mass = np.array([s.polar_moment * s.length for s in l.segments])
-            dT = (alpha @ mass / mass.sum()) * T_link[li]
+            dT = (alpha @ mass / mass.sum()) * (T_link[li] if T_link is not None else 0.0)
         diam[:, c] = 0.5 * (dU / U_tot - dT / T_tot)
+    all_stiff = len(stiff_links) == nl
+    if all_stiff and U_link is U and not a.distributed:
+        stiffness = U  # a temporary of this function: scaled in place
+        stiffness *= 0.5
+    else:
+        stiffness = 0.5 * (U_link if all_stiff else U_link[stiff_links])
+    stiffness /= U_tot
+    T_disc *= -0.5
+    T_disc /= T_tot
     return Sensitivities(
         mode=np.asarray(modes.number, int)[rows], frequency_hz=np.asarray(modes.frequency_hz)[rows],
-        link_ids=tuple(train.links[li].id for li in stiff_links),
-        stiffness=(0.5 * U_link[stiff_links] / U_tot).T,
-        disc_ids=tuple(train.disc_ids), inertia=(-0.5 * T_disc / T_tot).T,
-        shaft_ids=tuple(train.links[li].id for li in shafts), diameter=diam)
+        link_ids=tuple(train.link_ids) if all_stiff else tuple(train.link_ids[li] for li in stiff_links.tolist()),
+        stiffness=stiffness.T, disc_ids=tuple(train.disc_ids), inertia=T_disc.T,
+        shaft_ids=tuple(train.link_ids[li] for li in shafts), diameter=diam)
 
 
 # ================================================================== the family count

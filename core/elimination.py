@@ -90,14 +90,60 @@ class Schedule:
 PYTHON_DFS_MAX = 40_000  # above this many edges the compiled traversal of scipy pays for its import
 
 
+def path_order(n_nodes: int, ea, eb) -> np.ndarray | None:
+    """The nodes in order along the tree when it is a path (a chain: every node joined to
+    at most two others, n - 1 edges, all connected), from one end; None otherwise.
+
+    A chain numbered in order (edge j joins nodes j and j + 1, either way round, in any
+    edge order) is recognised with a few array operations; any other numbering of a
+    chain is walked once."""
+    ea = np.asarray(ea, np.int64)
+    eb = np.asarray(eb, np.int64)
+    if n_nodes < 1 or len(ea) != n_nodes - 1:
+        return None
+    if n_nodes == 1:
+        return np.zeros(1, np.int64)
+    lo, hi = np.minimum(ea, eb), np.maximum(ea, eb)
+    if np.all(hi - lo == 1) and np.array_equal(np.sort(lo), np.arange(n_nodes - 1)):
+        return np.arange(n_nodes, dtype=np.int64)
+    deg = np.bincount(ea, minlength=n_nodes) + np.bincount(eb, minlength=n_nodes)
+    if deg.max() > 2 or deg.min() < 1:
+        return None
+    # neighbour table: two slots per node, -1 where a chain end has only one
+    src = np.r_[ea, eb]
+    dst = np.r_[eb, ea]
+    o = np.argsort(src, kind="stable")
+    src, dst = src[o], dst[o]
+    first = np.searchsorted(src, np.arange(n_nodes))
+    nb = np.full((n_nodes, 2), -1, np.int64)
+    nb[:, 0] = dst[first]
+    two = deg == 2
+    nb[two, 1] = dst[first[two] + 1]
+    nb0, nb1 = nb[:, 0].tolist(), nb[:, 1].tolist()
+    v, prev = int(np.flatnonzero(deg == 1)[0]), -1
+    out = [v]
+    for _ in range(n_nodes - 1):
+        nxt = nb0[v] if nb0[v] != prev else nb1[v]
+        if nxt < 0:
+            return None  # the walk ended early: not connected (a cycle elsewhere)
+        prev, v = v, nxt
+        out.append(v)
+    return np.array(out, np.int64)
+
+
 def _preorder(n_nodes, ea, eb, start: int = 0):
     """Depth-first preorder rank of the nodes reachable from ``start`` (others: -1).
 
-    Small trees are walked here (an iterative depth-first search over adjacency lists
-    built with numpy); large ones by scipy.sparse.csgraph, imported only then."""
+    A chain is ranked along itself from its end (:func:`path_order`); small trees are
+    walked here (an iterative depth-first search over adjacency lists built with
+    numpy); large ones by scipy.sparse.csgraph, imported only then."""
     if n_nodes <= 1 or not len(ea):
         return np.arange(n_nodes)
     pre = np.full(n_nodes, -1, np.int64)
+    chain = path_order(n_nodes, ea, eb) if len(ea) == n_nodes - 1 else None
+    if chain is not None:
+        pre[chain] = np.arange(n_nodes)
+        return pre
     if len(ea) > PYTHON_DFS_MAX:
         import scipy.sparse as sp
         from scipy.sparse.csgraph import depth_first_order
@@ -141,6 +187,11 @@ def build_schedule(n_nodes: int, edges_a: np.ndarray, edges_b: np.ndarray) -> Sc
     eb = np.asarray(edges_b, np.int64)
     n_edges = len(ea)
     pre = _preorder(n_nodes, ea, eb)
+    # the preorder restricted to the nodes still alive is a depth-first preorder of the
+    # contracted tree (contraction keeps every subtree contiguous in it, and a chain node's
+    # child follows it directly): ranks per round without a new traversal
+    live = np.argsort(pre, kind="stable") if n_nodes and pre.min() >= 0 else None
+    rank = np.zeros(n_nodes, np.int64)
     priority = (np.arange(n_nodes, dtype=np.uint64) * np.uint64(2654435761)) % np.uint64(2 ** 32)
     A, B, S = ea.copy(), eb.copy(), np.arange(n_edges, dtype=np.int64)
     alive = np.ones(n_nodes, bool)
@@ -171,7 +222,12 @@ def build_schedule(n_nodes: int, edges_a: np.ndarray, edges_b: np.ndarray) -> Sc
         # independent set: even depth-first rank in the current tree, so that along
         # a chain every other node goes (half per round); where two even nodes
         # meet (a branch point), the higher fixed priority wins
-        even = (_preorder(n_nodes, A, B, int(A[0])) % 2) == 0
+        if live is not None:
+            live = live[alive[live]]
+            rank[live] = np.arange(len(live))
+        else:  # not all connected to node 0: a traversal of the current tree
+            rank = _preorder(n_nodes, A, B, int(A[0]))
+        even = (rank % 2) == 0
         cand = np.zeros(n_nodes, bool)
         cand[inc_v] = even[inc_v]
         beaten = cand[inc_u] & (deg[inc_u] == 2) & (priority[inc_u] > priority[inc_v])

@@ -261,12 +261,12 @@ def line_participation(modes: Modes, line: ExcitationLine) -> np.ndarray | None:
     names no disc."""
     if not line.acts_at:
         return None
-    shape = np.abs(np.asarray(modes.shape, float))
+    shape = np.asarray(modes.shape, float)
     if not shape.size:
         return np.zeros(len(modes))
-    big = shape.max(axis=1)
-    where = {d: j for j, d in enumerate(modes.disc_ids)}
-    at = shape[:, [where[d] for d in line.acts_at]].max(axis=1)
+    big = np.maximum(shape.max(axis=1), -shape.min(axis=1))  # max |twist|, no copy of the shapes
+    ids = modes.disc_ids
+    at = np.abs(shape[:, [ids.index(d) for d in line.acts_at]]).max(axis=1)  # a few discs
     with np.errstate(divide="ignore", invalid="ignore"):
         return np.where(big > 0, at / big, 0.0)
 
