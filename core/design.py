@@ -58,7 +58,7 @@ from .errors import ModelError
 from .model import Train
 from .screening import Screening, excitation_lines, screen, screening_cap_hz
 from .solver import (DynamicSystem, Modes, _inverse_iteration, _map, _rows, _segment_energies, dynamic_system,
-                     natural_modes, zero_roots)
+                     member_ends, natural_modes, zero_roots)
 from .tolerance import corner_trains, frequency_bands, scaled_disc, scaled_link
 
 TWO_PI = 2.0 * np.pi
@@ -149,14 +149,7 @@ def sensitivities(modes: Modes) -> Sensitivities:
     phi = _rows(_node_shapes(modes).T, rows).T  # the elastic columns (a view where they run on)
     a = dynamic_system(train).asm  # the solver's own assembly of this train
     mem = a.members
-    tree = mem.b >= 0
-    pa = _rows(phi, mem.a)
-    pb = _rows(phi, mem.b) if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
-    if np.all(mem.scale == 1.0):
-        ta, tb = pa, pb
-    else:
-        ta, tb = pa * mem.scale[:, None], pb * mem.scale[:, None]
-    k_act = (mem.k / mem.scale ** 2)[:, None]
+    ta, tb, k_act = member_ends(mem, phi)
     if a.distributed:
         x = mem.L_over_c[:, None] * omega[None, :]
         U, Tk = _segment_energies(k_act, x, ta, tb)  # per member, (n_members, k)

@@ -1020,6 +1020,20 @@ def _rows(x: np.ndarray, idx: np.ndarray) -> np.ndarray:
     return x[idx]
 
 
+def member_ends(mem, phi: np.ndarray):
+    """Each member's end angles in actual units of its own shaft (rad, rows by member,
+    columns as ``phi``'s; views where they can be) and its actual stiffness k / scale^2
+    (N*m/rad, a column).  A member to ground has zero twist at its ground end."""
+    tree = mem.b >= 0
+    pa = _rows(phi, mem.a)
+    pb = _rows(phi, mem.b) if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
+    if np.all(mem.scale == 1.0):
+        ta, tb = pa, pb
+    else:
+        ta, tb = pa * mem.scale[:, None], pb * mem.scale[:, None]
+    return ta, tb, (mem.k / mem.scale ** 2)[:, None]
+
+
 def _largest(theta: np.ndarray):
     """Per column: max |theta| and the first row where it is reached (as argmax of |theta|),
     without an |theta| copy."""
@@ -1054,16 +1068,7 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
         np.clip(theta, -1.0, 1.0, out=theta)
         phi = phi * norm
     theta[jmax, cols] = 1.0  # exactly, not a rounding below
-    # member end angles in actual units of the member's own shaft
-    tree = mem.b >= 0
-    pa = _rows(phi, mem.a)
-    pb = _rows(phi, mem.b) if tree.all() else np.where(tree[:, None], phi[np.maximum(mem.b, 0)], 0.0)
-    if np.all(mem.scale == 1.0):
-        ta, tb = pa, pb
-    else:
-        ta = pa * mem.scale[:, None]
-        tb = pb * mem.scale[:, None]
-    k_act = (mem.k / mem.scale ** 2)[:, None]
+    ta, tb, k_act = member_ends(mem, phi)
     if a.distributed:
         x = mem.L_over_c[:, None] * omega[None, :]
         U, Tk = _segment_energies(k_act, x, ta, tb)
@@ -1075,7 +1080,7 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
         Tk = np.where(mem.L_over_c[:, None] > 0, Tk, 0.0)
     else:  # springs: k (ta - tb) throughout, strain energy k (ta - tb)^2 / 2
         Tm = np.subtract(ta, tb, order="C")
-        del pa, pb, ta, tb, phi
+        del ta, tb, phi  # the full-size arrays freed before the next ones are made
         U = np.square(Tm)
         U *= 0.5 * k_act
         Tm *= k_act
