@@ -92,6 +92,16 @@ def type_into(qtbot, field: Field, text: str):
     qtbot.keyClick(field, QtCore.Qt.Key_Return)
 
 
+def test_the_live_study_reads_ahead_what_every_redraw_reads():
+    # the verdict's acceptance argument and the marks of modes above the screening limit are
+    # computed on first use; the live study computes them where it is made (the worker), so the
+    # redraw on the GUI thread only reads them
+    from app.gui.compute import complete
+    first = compute(build_train(load_document(PUMP)), first_stage=True)
+    for res in (first, complete(first)):
+        assert {"argument", "above_screening_limit"} <= set(vars(res.study))
+
+
 # ----------------------------------------------------------------- items 1 and 2
 @pytest.mark.parametrize("path", SAMPLES, ids=[p.stem for p in SAMPLES])
 def test_every_sample_opens_with_results_and_a_drawn_train(qtbot, window, path):

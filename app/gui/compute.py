@@ -76,7 +76,16 @@ def compute(train, first_stage: bool = False) -> Results:
         from core.errors import ModelError
         raise ModelError("the solve gave natural frequencies that are not finite numbers; check the "
                          "inertias, stiffnesses and speed ratios for extreme values", "train")
+    _read_ahead(study)
     return Results(study, time.perf_counter() - t0, _note(study), complete=not first_stage)
+
+
+def _read_ahead(study) -> None:
+    """The study's parts computed on first use that every redraw reads (the verdict's
+    acceptance argument, the marks of modes above the screening limit): computed here,
+    where the study is made, not on the GUI thread inside the redraw."""
+    study.argument  # noqa: B018
+    study.above_screening_limit  # noqa: B018
 
 
 def _note(study) -> str:
@@ -95,6 +104,7 @@ def complete(first: Results) -> Results:
     if study.design is not None:
         for w in study.design.windows:
             w.chart  # noqa: B018 -- computed on first use: here, off the GUI thread
+    _read_ahead(study)
     return Results(study, first.solve_time_s + time.perf_counter() - t0, _note(study), complete=True)
 
 
