@@ -47,6 +47,11 @@ def register_fonts() -> None:
                                   boldItalic=FONT + "-BoldItalic")
 
 
+# every drawing of the sheet measures its text in these fonts: registered when the styles are
+# first imported (2-3 ms), so a chart drawn on its own measures the same as on the sheet
+register_fonts()
+
+
 @lru_cache(maxsize=1)
 def styles() -> dict[str, ParagraphStyle]:
     register_fonts()
