@@ -49,7 +49,7 @@ class Assembly:
     # without, edge j is tree member j and the sum is the identity (the fast path)
     parallel: bool = False
     # per disc: its own inertia plus half of every lumped shaft ending on it, actual (not
-    # referred), kg*m^2 -- as :func:`effective_disc_inertia`
+    # referred), kg*m^2 (:func:`effective_disc_inertia`)
     disc_inertia: np.ndarray | None = None
     link_mass: np.ndarray | None = None  # per link: 0 no own inertia, 1 lumped, 2 distributed
     link_rigid: np.ndarray | None = None  # per link: a rigid gear mesh (no stiffness)
@@ -138,7 +138,7 @@ def assemble(train: Train) -> Assembly:
         own = np.array([links[li].own_inertia for li in li_l], float)
         half = np.zeros(len(links))
         half[li_l] = 0.5 * own
-        # in link order, `from` end then `to` end (as effective_disc_inertia adds them)
+        # in link order, `from` end then `to` end
         ends = np.c_[fi[li_l], ti[li_l]].ravel()
         ok = ends >= 0
         np.add.at(disc_inertia, ends[ok], np.repeat(0.5 * own, 2)[ok])
@@ -242,15 +242,9 @@ def clamped_count_x(x) -> np.ndarray:
 
 def effective_disc_inertia(train: Train) -> np.ndarray:
     """Each disc's inertia as its equation of motion sees it: its own J plus half
-    the own inertia of every lumped shaft ending on it (kg*m^2, actual, not referred)."""
-    J = np.array([d.inertia for d in train.discs], float)
-    index = {d: i for i, d in enumerate(train.disc_ids)}
-    for l in train.links:
-        if l.mass == "lumped":
-            for end in (l.from_id, l.to_id):
-                if end in index:
-                    J[index[end]] += 0.5 * l.own_inertia
-    return J
+    the own inertia of every lumped shaft ending on it (kg*m^2, actual, not referred);
+    :attr:`Assembly.disc_inertia` of the train's assembly."""
+    return assemble(train).disc_inertia
 
 
 def peel_rigid_meshes(train: Train, disc_load, end_torque: dict) -> None:

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import MISSING, dataclass, field, fields
+from functools import cached_property
 
 from .errors import ModelError
 from .materials import Material
@@ -251,16 +252,12 @@ class Train:
     def grounded(self) -> bool:
         return any(l.grounded for l in self.links)
 
-    @property
+    @cached_property
     def toleranced(self) -> frozenset:
         """'link:ID' / 'disc:ID' of every element given a tolerance (found once per train: the
         windows of a long train's couplings each ask)."""
-        keys = self.__dict__.get("_toleranced")
-        if keys is None:
-            keys = frozenset([f"link:{l.id}" for l in self.links if l.stiffness_tolerance is not None]
-                             + [f"disc:{d.id}" for d in self.discs if d.inertia_tolerance is not None])
-            object.__setattr__(self, "_toleranced", keys)
-        return keys
+        return frozenset([f"link:{l.id}" for l in self.links if l.stiffness_tolerance is not None]
+                         + [f"disc:{d.id}" for d in self.discs if d.inertia_tolerance is not None])
 
     @property
     def has_tolerances(self) -> bool:
@@ -313,6 +310,13 @@ def check_topology(discs, links) -> dict[str, float]:
     # anything else (and every refusal) from the full check, which names the first
     # offending element in file order
     return speed if speed is not None else _check_in_full(discs, links)
+
+
+def _join(adjacency: dict, link) -> None:
+    """``link`` into the adjacency lists of its two discs, with the speed ratio each way."""
+    ratio = link.speed_ratio if link.kind == "gear_mesh" else 1.0
+    adjacency[link.from_id].append((link.to_id, ratio))
+    adjacency[link.to_id].append((link.from_id, 1.0 / ratio))
 
 
 def _speeds(first: str, adjacency: dict) -> dict[str, float]:
@@ -370,10 +374,7 @@ def _tree_speeds(discs, links) -> dict[str, float] | None:
         return dict.fromkeys(index, 1.0)
     adjacency: dict[str, list[tuple[str, float]]] = {i: [] for i in index}
     for k in np.sort(at[first]).tolist():  # the first link of each pair, in file order
-        l = links[k]
-        ratio = l.speed_ratio if l.kind == "gear_mesh" else 1.0
-        adjacency[l.from_id].append((l.to_id, ratio))
-        adjacency[l.to_id].append((l.from_id, 1.0 / ratio))
+        _join(adjacency, links[k])
     return _speeds(discs[0].id, adjacency)
 
 
@@ -451,9 +452,7 @@ def _check_in_full(discs, links) -> dict[str, float]:
             raise ModelError(f"closes a loop between '{l.from_id}' and '{l.to_id}'; "
                              "a train must be a tree", where, "to")
         parent[a] = b
-        ratio = l.speed_ratio if l.kind == "gear_mesh" else 1.0
-        adjacency[l.from_id].append((l.to_id, ratio))
-        adjacency[l.to_id].append((l.from_id, 1.0 / ratio))
+        _join(adjacency, l)
     first = discs[0].id
     speed = _speeds(first, adjacency)
     for d in discs:

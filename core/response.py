@@ -60,7 +60,7 @@ from fractions import Fraction
 import numpy as np
 import scipy.sparse as sp
 
-from .assembly import assemble, effective_disc_inertia, peel_rigid_meshes
+from .assembly import assemble, peel_rigid_meshes
 from .bands import OPERATING, speed_bands
 from .elimination import cached_schedule, factor, solve_factored
 from .errors import ModelError
@@ -738,7 +738,7 @@ def _mesh_torques(train, st: _Setup, w, phi, forcing, Tst):
             end_torque[li] = (at(first, 1.0 if mem.flip[first] else 0.0),
                               at(last, 0.0 if mem.flip[last] else 1.0))
     theta = st.asm.disc_scale[:, None] * phi[st.asm.disc_node]
-    J = effective_disc_inertia(train)[:, None]
+    J = st.asm.disc_inertia[:, None]
     c = np.array([d.damping for d in train.discs])[:, None]
     # a disc's link torques balance its inertia, its dashpot to ground and the applied torque
     peel_rigid_meshes(train, (-w ** 2 * J + 1j * w * c) * theta - forcing, end_torque)

@@ -1115,10 +1115,7 @@ def _modal_quantities(system: DynamicSystem, omega: np.ndarray, phi: np.ndarray)
     tot_str = strain.sum(0)
     tot_str = np.where(tot_str == 0, 1.0, tot_str)
     disc_kin /= tot_kin
-    if strain is U:
-        strain /= tot_str
-    else:
-        strain = strain / tot_str
+    strain /= tot_str  # U, or the per-link sums of U: made here either way
     link_share = np.zeros((nl, len(cols))) if link_kin is None else link_kin / tot_kin
     return theta.T, torque.T, disc_kin.T, link_share.T, strain.T
 

@@ -743,11 +743,11 @@ def parse(value, kind: Kind, element: str | None = None, field: str | None = Non
     (with the reading probably meant), an unknown unit, a unit of the wrong kind, or a
     value that is not finite or outside the magnitudes read.
     """
-    x = (_readers.get(kind.si_unit) or quick_reader(kind))(value)
+    x = quick_reader(kind)(value)
     if x is not None:
         return x
     if type(value) is str:
-        # 2) "45mm", " 45 mm": the grammar's number by a regular expression, a unit text
+        # "45mm", " 45 mm": the grammar's number by a regular expression, a unit text
         #    already read for this kind and a magnitude in range; anything else takes the
         #    full reading below (which explains refusals)
         cache = _ready.get(kind.si_unit)
