@@ -25,11 +25,30 @@ from PySide6 import QtCore
 
 FRAME_S = 1.0 / 60.0
 DEBOUNCE_MS = 150
-#: posted at low priority after the first results: handled after the paint they asked for
-_SECOND_STAGE = QtCore.QEvent.Type(QtCore.QEvent.registerEventType())
-#: and this much later the second stage starts: the plots' second layout pass (labels placed
-#: for the new ranges) repaints within it (measured 10-30 ms at 200 discs)
+#: posted at low priority (AfterPaint): handled after the paint events already posted
+_AFTER_PAINT = QtCore.QEvent.Type(QtCore.QEvent.registerEventType())
+#: and this much later the work starts: the plots' second layout pass (labels placed for
+#: the new ranges) repaints within it (measured 10-30 ms at 200 discs)
 SETTLE_MS = 30
+
+
+class AfterPaint(QtCore.QObject):
+    """Calls ``slot`` once the paint events a redraw has posted are handled, and SETTLE_MS
+    later: work started on a worker beside the redraw slows it through the interpreter lock.
+    Posting again before the call is made calls ``slot`` once more, later."""
+
+    def __init__(self, slot, parent: QtCore.QObject):
+        super().__init__(parent)
+        self._slot = slot
+
+    def post(self) -> None:
+        QtCore.QCoreApplication.postEvent(self, QtCore.QEvent(_AFTER_PAINT), QtCore.Qt.LowEventPriority.value)
+
+    def event(self, event) -> bool:
+        if event.type() == _AFTER_PAINT:
+            QtCore.QTimer.singleShot(SETTLE_MS, self, self._slot)
+            return True
+        return super().event(event)
 
 
 @dataclass
@@ -166,6 +185,7 @@ class ResultsRunner(QtCore.QObject):
         self._signals.done.connect(self._job_finished, QtCore.Qt.QueuedConnection)
         self._pending = None
         self._second = None  # (generation, first-stage Results) waiting for its second stage
+        self._second_after_paint = AfterPaint(self._start_second, self)
         self._generation = 0
         self._running = 0
         self.last_time_s = 0.0
@@ -234,14 +254,7 @@ class ResultsRunner(QtCore.QObject):
         self.resultsReady.emit(res)
         if not res.complete:  # the slower parts follow on the worker, after the views' paint
             self._second = (generation, res)
-            QtCore.QCoreApplication.postEvent(self, QtCore.QEvent(_SECOND_STAGE),
-                                              QtCore.Qt.LowEventPriority.value)
-
-    def event(self, event) -> bool:
-        if event.type() == _SECOND_STAGE:
-            QtCore.QTimer.singleShot(SETTLE_MS, self, self._start_second)
-            return True
-        return super().event(event)
+            self._second_after_paint.post()
 
     def _start_second(self) -> None:
         queued, self._second = self._second, None

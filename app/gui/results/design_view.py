@@ -38,6 +38,7 @@ from core import units
 from core.errors import ModelError
 
 from . import rows as R
+from ..compute import AfterPaint
 from .label_layout import Spot, box, place_labels
 from .legend import FlowLegend, arrange_key
 from .plotting import DrawWhenShown, PlotCanvas, new_plot
@@ -48,10 +49,6 @@ KINDS = {"stiffness": units.STIFFNESS, "inertia": units.INERTIA}
 MAX_BARS = 12
 #: ms to wait for the study's own windows (its second stage) before computing one here
 FALLBACK_MS = 1500
-#: posted at low priority when a window is to be computed here: handled after the paint events
-_START_JOB = QtCore.QEvent.Type(QtCore.QEvent.registerEventType())
-#: and this much later the worker starts (as the study's second stage, app.gui.compute)
-SETTLE_MS = 30
 #: below this width the sensitivity chart shares a tab row with the ranges below the chart
 NARROW_PX = 1000
 #: fills of the chart
@@ -390,6 +387,7 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         self._own = {}  # (element, quantity) -> WindowResult | error text, for _own_train
         self._running = set()
         self._queued_job = None  # (element, quantity) whose window starts on the worker after the paint
+        self._job_after_paint = AfterPaint(self._start_queued_job, self)
         self._draw_pending = False
         self._bars_shown = 0
         self._bars = []
@@ -901,13 +899,7 @@ class DesignView(DrawWhenShown, QtWidgets.QWidget):
         queued = self._queued_job is not None
         self._queued_job = key
         if not queued:  # after the paint events this redraw posted, then a moment for the plots to settle
-            QtCore.QCoreApplication.postEvent(self, QtCore.QEvent(_START_JOB), QtCore.Qt.LowEventPriority.value)
-
-    def event(self, event) -> bool:
-        if event.type() == _START_JOB:
-            QtCore.QTimer.singleShot(SETTLE_MS, self, self._start_queued_job)
-            return True
-        return super().event(event)
+            self._job_after_paint.post()
 
     def _start_queued_job(self) -> None:
         key, self._queued_job = self._queued_job, None
